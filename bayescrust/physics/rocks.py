@@ -1,0 +1,491 @@
+"""Rock recipes and the forward model: rock, P, T, pores, melt, serpentine -> Vp, Vs, density.
+
+The forward model chains the physics modules in a fixed order:
+
+1. mineral state at (P, T) (``minerals``: thermal expansion, Anderson–Grüneisen moduli,
+   third-order Birch–Murnaghan compression);
+2. modal mixing of the minerals (``mixing``; Voigt–Reuss–Hill by default);
+3. seawater-filled pores/cracks and basaltic-melt inclusions in the solid (``inclusions``;
+   differential effective medium by default, valid to Layer 2 porosities);
+4. anelastic dispersion of the velocities (``anelastic``; absorption-band Q and Karato's
+   first-order correction).
+
+Serpentinisation replaces, by volume, a fraction of each ultramafic rock by serpentinite.
+"""
+
+from __future__ import annotations
+
+import difflib
+import tomllib
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from importlib import resources
+
+import numpy as np
+
+from . import anelastic, fluids, inclusions, minerals, mixing
+from ._checks import as_float_array, check_range
+
+__all__ = [
+    "ROCKS",
+    "ForwardModel",
+    "Rock",
+    "RockProperties",
+    "list_rocks",
+    "rock_properties",
+]
+
+#: Fraction of olivine + pyroxenes + spinel above which a custom mineral mix counts as
+#: ultramafic (IUGS: ultramafic rocks hold > 90 % mafic minerals; Le Maitre et al. 2002).
+_ULTRAMAFIC_MINERALS = ("olivine", "orthopyroxene", "clinopyroxene", "diopside", "spinel")
+_ULTRAMAFIC_THRESHOLD = 0.9
+_SERPENTINITE_OF = {"lizardite": "serpentinite", "antigorite": "antigorite_serpentinite"}
+_CHUNK = 8192  # elements per internal block: keeps temporaries cache-sized (measured faster)
+
+
+@dataclass(frozen=True)
+class Rock:
+    """A rock recipe: modal mineralogy by volume.
+
+    Attributes
+    ----------
+    name : str
+        Identifier.
+    modes : dict of str to float
+        Mineral name -> volume fraction (sums to 1).
+    ultramafic : bool
+        Whether ``serpentinization`` applies to this rock.
+    description, source, tag : str
+        Provenance of the recipe.
+    """
+
+    name: str
+    modes: dict
+    ultramafic: bool
+    description: str = ""
+    source: str = ""
+    tag: str = ""
+
+
+def _load_rocks() -> dict[str, Rock]:
+    text = resources.files("bayescrust.physics").joinpath("data/rocks.toml").read_text("utf-8")
+    table = tomllib.loads(text)["rocks"]
+    out = {}
+    for name, row in table.items():
+        modes = {str(k): float(v) for k, v in row["modes"].items()}
+        unknown = set(modes) - set(minerals.MINERALS)
+        if unknown or abs(sum(modes.values()) - 1.0) > 1e-9:
+            raise ValueError(
+                f"rocks.toml: rocks.{name}.modes: unknown minerals {sorted(unknown)} or "
+                f"fractions summing to {sum(modes.values())}, expected 1"
+            )
+        out[name] = Rock(
+            name=name,
+            modes=modes,
+            ultramafic=bool(row["ultramafic"]),
+            description=row.get("description", ""),
+            source=row.get("source", ""),
+            tag=row.get("tag", ""),
+        )
+    return out
+
+
+#: Built-in rock recipes, by name.
+ROCKS: dict[str, Rock] = _load_rocks()
+
+
+def list_rocks() -> list[dict]:
+    """List the built-in rocks with their modal mineralogy and sources.
+
+    Returns
+    -------
+    list of dict
+        One entry per rock: ``name``, ``description``, ``modes``, ``ultramafic``, ``source``,
+        ``tag``.
+
+    Examples
+    --------
+    >>> names = [r["name"] for r in list_rocks()]
+    >>> "gabbro" in names and "harzburgite" in names
+    True
+    """
+    return [
+        {
+            "name": r.name,
+            "description": r.description,
+            "modes": dict(r.modes),
+            "ultramafic": r.ultramafic,
+            "source": r.source,
+            "tag": r.tag,
+        }
+        for r in ROCKS.values()
+    ]
+
+
+def _resolve_rock(item) -> Rock:
+    if isinstance(item, Rock):
+        return item
+    if isinstance(item, str):
+        if item not in ROCKS:
+            near = difflib.get_close_matches(item, list(ROCKS), n=1)
+            hint = f" (did you mean {near[0]!r}?)" if near else ""
+            raise ValueError(f"unknown rock {item!r}{hint}; known rocks: {', '.join(ROCKS)}")
+        return ROCKS[item]
+    raise ValueError(f"rock must be a rock name or a Rock; got {item!r}")
+
+
+def _custom_rock(modes: Mapping[str, float]) -> Rock:
+    """A rock from a mapping of mineral name -> constant volume fraction."""
+    for name in modes:
+        if name not in minerals.MINERALS:
+            near = difflib.get_close_matches(name, list(minerals.MINERALS), n=1)
+            hint = f" (did you mean {near[0]!r}?)" if near else ""
+            raise ValueError(
+                f"unknown mineral {name!r}{hint}; known minerals: {', '.join(minerals.MINERALS)}"
+            )
+    fr = {k: float(check_range(f"fraction of {k}", v, 0.0, 1.0)) for k, v in modes.items()}
+    total = sum(fr.values())
+    if abs(total - 1.0) > 1e-6:
+        raise ValueError(f"mineral fractions must sum to 1; got {total:.6g}")
+    um = sum(fr.get(m, 0.0) for m in _ULTRAMAFIC_MINERALS) >= _ULTRAMAFIC_THRESHOLD
+    return Rock(name="custom", modes=fr, ultramafic=um, description="user mineral mix")
+
+
+@dataclass(frozen=True)
+class RockProperties:
+    """Seismic properties of a rock, arrays of the broadcast input shape.
+
+    Attributes
+    ----------
+    vp, vs : numpy.ndarray
+        P- and S-wave speed, km/s (anelastic at the chosen frequency when enabled).
+    density : numpy.ndarray
+        Bulk density including pore fluid and melt, g/cm^3.
+    """
+
+    vp: np.ndarray
+    vs: np.ndarray
+    density: np.ndarray
+
+    @property
+    def vp_vs(self) -> np.ndarray:
+        """Vp/Vs ratio (dimensionless)."""
+        return self.vp / self.vs
+
+
+@dataclass(frozen=True)
+class ForwardModel:
+    """Vectorised forward model for mixtures of end-member rocks.
+
+    Construction validates the settings and precomputes the mineral table; calling the model
+    is the unchecked kernel used inside the log-probability (it never raises for inputs
+    inside the physical ranges and does no Python loop over samples).
+
+    Parameters
+    ----------
+    rocks : sequence of str or Rock
+        End-member rocks whose volume fractions are the first argument of a call.
+    mixing : {"hill", "voigt", "reuss", "hashin_shtrikman"}
+        Rule for averaging the minerals of the solid.
+    inclusion_scheme : {"dem", "self_consistent", "kuster_toksoz"}
+        Effective-medium theory for pores and melt.
+    serpentine : {"lizardite", "antigorite"}
+        Kind of serpentinite that ``serpentinization`` produces.
+    frequency_hz : float
+        Seismic frequency for the anelastic correction (refraction: a few Hz).
+    grain_size_mm : float
+        Grain size for the attenuation law.
+    anelastic : bool
+        Apply the anelastic dispersion correction.
+    salinity : float
+        Pore-water salinity as a mass fraction (seawater 0.035).
+    attenuation_law : str
+        Name from :data:`bayescrust.physics.anelastic.ATTENUATION_LAWS`.
+    """
+
+    rocks: tuple
+    mixing: str = "hill"
+    inclusion_scheme: str = "dem"
+    serpentine: str = "lizardite"
+    frequency_hz: float = 5.0
+    grain_size_mm: float = 5.0
+    anelastic: bool = True
+    salinity: float = 0.035
+    attenuation_law: str = "jackson2002"
+    _modes: np.ndarray = field(init=False, repr=False)
+    _serp_modes: np.ndarray = field(init=False, repr=False)
+    _ultramafic: np.ndarray = field(init=False, repr=False)
+    _table: object = field(init=False, repr=False)
+
+    def __post_init__(self):
+        if isinstance(self.rocks, str | Rock):
+            raise ValueError("rocks must be a sequence of rock names, e.g. ('gabbro', 'dunite')")
+        rocks = tuple(_resolve_rock(r) for r in self.rocks)
+        if not rocks:
+            raise ValueError("rocks must name at least one rock")
+        names = [r.name for r in rocks]
+        if len(set(names)) != len(names):
+            raise ValueError(f"rocks must not repeat; got {names}")
+        _choose("mixing", self.mixing, mixing.MIXING_RULES)
+        _choose("inclusion_scheme", self.inclusion_scheme, inclusions.INCLUSION_SCHEMES)
+        _choose("attenuation_law", self.attenuation_law, anelastic.ATTENUATION_LAWS)
+        if self.serpentine not in _SERPENTINITE_OF:
+            raise ValueError(
+                f"serpentine must be one of {sorted(_SERPENTINITE_OF)}; got {self.serpentine!r}"
+            )
+        check_range("frequency_hz", self.frequency_hz, 1e-4, 1e3, unit="Hz")
+        check_range("grain_size_mm", self.grain_size_mm, 1e-3, 100.0, unit="mm")
+        check_range("salinity", self.salinity, 0.0, 0.3)
+        serp = ROCKS[_SERPENTINITE_OF[self.serpentine]]
+        mineral_names = sorted({m for r in (*rocks, serp) for m in r.modes})
+        idx = {m: i for i, m in enumerate(mineral_names)}
+        modes = np.zeros((len(rocks), len(mineral_names)))
+        for i, r in enumerate(rocks):
+            for m, f in r.modes.items():
+                modes[i, idx[m]] = f
+        serp_modes = np.zeros(len(mineral_names))
+        for m, f in serp.modes.items():
+            serp_modes[idx[m]] = f
+        object.__setattr__(self, "rocks", rocks)
+        object.__setattr__(self, "_modes", modes)
+        object.__setattr__(self, "_serp_modes", serp_modes)
+        object.__setattr__(self, "_ultramafic", np.array([r.ultramafic for r in rocks], float))
+        object.__setattr__(self, "_table", minerals.mineral_table(mineral_names))
+
+    @property
+    def rock_names(self) -> tuple[str, ...]:
+        """Names of the end-member rocks, in the order of the fraction axis."""
+        return tuple(r.name for r in self.rocks)
+
+    @property
+    def ultramafic(self) -> np.ndarray:
+        """Boolean mask of the ultramafic end members, shape (n_rocks,)."""
+        return self._ultramafic.astype(bool)
+
+    def mineral_fractions(self, fractions, serpentinization=0.0) -> np.ndarray:
+        """Volume fractions of the minerals for given rock fractions, shape B + (n_minerals,).
+
+        Serpentinisation replaces the fraction ``serpentinization`` of every ultramafic rock's
+        volume by serpentinite (volume-for-volume; the ~40 % volume increase of natural
+        serpentinisation is not modelled).
+        """
+        f = np.asarray(fractions, float)
+        s = np.asarray(serpentinization, float)[..., None]
+        um = f * self._ultramafic
+        return (f - s * um) @ self._modes + (s * um.sum(-1, keepdims=True)) * self._serp_modes
+
+    def __call__(
+        self,
+        fractions,
+        temperature_c,
+        pressure_gpa,
+        porosity=0.0,
+        aspect_ratio=0.1,
+        melt_fraction=0.0,
+        melt_aspect_ratio=0.05,
+        serpentinization=0.0,
+        pore_pressure_gpa=None,
+    ):
+        """Evaluate Vp, Vs (km/s) and density (g/cm^3).
+
+        Parameters
+        ----------
+        fractions : array_like, shape B + (n_rocks,)
+            Volume fractions of the end-member rocks (rows sum to 1).
+        temperature_c, pressure_gpa : array_like, broadcastable to B
+            Temperature (deg C) and confining pressure (GPa).
+        porosity : array_like
+            Seawater-filled pore and crack volume fraction of the whole rock.
+        aspect_ratio : array_like
+            Aspect ratio of the pores (crack ~1e-3 to sphere 1).
+        melt_fraction, melt_aspect_ratio : array_like
+            Basaltic-melt volume fraction and its inclusion aspect ratio.
+        serpentinization : array_like
+            Serpentinised fraction of the ultramafic rocks, 0-1.
+        pore_pressure_gpa : array_like, optional
+            Pressure of the pore water (default: the confining pressure).
+
+        Returns
+        -------
+        vp, vs, density : numpy.ndarray, shape B
+        """
+        f = np.asarray(fractions, float)
+        args = np.broadcast_arrays(
+            temperature_c,
+            pressure_gpa,
+            porosity,
+            aspect_ratio,
+            melt_fraction,
+            melt_aspect_ratio,
+            serpentinization,
+            pressure_gpa if pore_pressure_gpa is None else pore_pressure_gpa,
+            f[..., 0],
+        )
+        shape = args[0].shape
+        flat = [np.ascontiguousarray(a, dtype=float).ravel() for a in args[:-1]]
+        f = np.broadcast_to(f, shape + (f.shape[-1],)).reshape(-1, f.shape[-1])
+        n = f.shape[0]
+        out = np.empty((3, n))
+        for start in range(0, n, _CHUNK):  # loop over cache-sized blocks, not over samples
+            sl = slice(start, start + _CHUNK)
+            out[:, sl] = self._evaluate(f[sl], *(a[sl] for a in flat))
+        return out[0].reshape(shape), out[1].reshape(shape), out[2].reshape(shape)
+
+    def _evaluate(self, f, t_c, p, phi, ar, melt, mar, serp, p_pore):
+        t_k = t_c + 273.15
+        x = self.mineral_fractions(f, serp)
+        rho_m, k_m, g_m = minerals._mineral_state(self._table, t_k, p)
+        rho_s = np.einsum("ij,ij->i", x, rho_m)
+        k_s, g_s = mixing.MIXING_RULES[self.mixing](x, k_m, g_m)
+        rho = rho_s
+        if np.any(phi > 0) or np.any(melt > 0):
+            rho_w, k_w = fluids._seawater(t_c, p_pore, self.salinity)
+            rho_l, k_l = fluids._basaltic_melt(t_c, p)
+            k_i = np.stack([k_w, k_l], axis=-1)
+            frac = np.stack([phi, melt], axis=-1)
+            aspect = np.stack([ar, mar], axis=-1)
+            k_s, g_s = inclusions.INCLUSION_SCHEMES[self.inclusion_scheme](
+                k_s, g_s, k_i, np.zeros_like(k_i), aspect, frac
+            )
+            rho = (1.0 - phi - melt) * rho_s + phi * rho_w + melt * rho_l
+        vp = np.sqrt((k_s + 4.0 / 3.0 * g_s) / rho)
+        vs = np.sqrt(g_s / rho)
+        if self.anelastic:
+            fp, fs, _ = anelastic.ATTENUATION_LAWS[self.attenuation_law](
+                t_k, p, self.frequency_hz, self.grain_size_mm, vp, vs
+            )
+            vp = vp * fp
+            vs = vs * fs
+        return vp, vs, rho
+
+
+def _choose(what: str, name: str, table: Mapping):
+    if name not in table:
+        raise ValueError(f"{what} must be one of {sorted(table)}; got {name!r}")
+    return table[name]
+
+
+def _rock_fractions(rock) -> tuple[tuple, np.ndarray | None]:
+    """Split the ``rock`` argument into end-member rocks and a fraction array."""
+    if isinstance(rock, str | Rock):
+        return (rock,), None
+    if isinstance(rock, Mapping):
+        keys = list(rock)
+        if keys and all(k in minerals.MINERALS for k in keys):
+            return (_custom_rock(rock),), None
+        for k in keys:
+            _resolve_rock(k)  # names an unknown rock or mineral clearly
+        arrays = [check_range(f"fraction of {k}", v, 0.0, 1.0) for k, v in rock.items()]
+        fr = np.stack(np.broadcast_arrays(*arrays), axis=-1)
+        total = fr.sum(-1)
+        if np.any(np.abs(total - 1.0) > 1e-6):
+            bad = total[np.abs(total - 1.0) > 1e-6].ravel()[0]
+            raise ValueError(f"rock fractions must sum to 1; got {bad:.6g}")
+        return tuple(keys), fr
+    if isinstance(rock, Sequence):
+        raise ValueError(
+            "rock must be a rock name, a mapping rock -> fraction or mineral -> fraction; "
+            f"got a sequence {rock!r}"
+        )
+    raise ValueError(f"rock must be a rock name or a mapping; got {rock!r}")
+
+
+def rock_properties(
+    rock,
+    *,
+    temperature_c,
+    pressure_gpa,
+    porosity=0.0,
+    aspect_ratio=0.1,
+    melt_fraction=0.0,
+    melt_aspect_ratio=0.05,
+    serpentinization=0.0,
+    serpentine: str = "lizardite",
+    frequency_hz: float = 5.0,
+    grain_size_mm: float = 5.0,
+    mixing: str = "hill",
+    inclusion_scheme: str = "dem",
+    anelastic: bool = True,
+    pore_pressure_gpa=None,
+) -> RockProperties:
+    """Vp, Vs and density of a rock at pressure and temperature, with pores, melt and serpentine.
+
+    Every numeric argument broadcasts against the others (a leading batch axis is the usual
+    case). Inputs are validated here, once; :class:`ForwardModel` is the unchecked kernel.
+
+    Parameters
+    ----------
+    rock : str, Rock or mapping
+        A built-in rock name (see :func:`list_rocks`); a mapping of rock names to volume
+        fractions (scalars or arrays, summing to 1 along the batch) to mix end-member rocks; or
+        a mapping of mineral names to constant volume fractions for a custom rock.
+    temperature_c : array_like
+        Temperature, deg C, in [-5, 1800].
+    pressure_gpa : array_like
+        Confining pressure, GPa, in [0, 10].
+    porosity : array_like, optional
+        Seawater-filled pore and crack volume fraction, in [0, 0.5].
+    aspect_ratio : array_like, optional
+        Pore aspect ratio, in [1e-4, 1] (crack ~1e-3, sphere 1).
+    melt_fraction : array_like, optional
+        Basaltic melt volume fraction, in [0, 0.3]; ``porosity + melt_fraction <= 0.5``.
+    melt_aspect_ratio : array_like, optional
+        Aspect ratio of melt inclusions, in [1e-4, 1] (films ~0.01-0.1).
+    serpentinization : array_like, optional
+        Serpentinised fraction of the ultramafic part, in [0, 1].
+    serpentine : {"lizardite", "antigorite"}
+        Kind of serpentinite produced.
+    frequency_hz, grain_size_mm : float, optional
+        Seismic frequency and grain size for the anelastic correction.
+    mixing, inclusion_scheme : str, optional
+        Names of the mineral mixing rule and the pore/melt effective-medium theory.
+    anelastic : bool, optional
+        Apply the anelastic dispersion correction.
+    pore_pressure_gpa : array_like, optional
+        Pore-water pressure, GPa (default: the confining pressure).
+
+    Returns
+    -------
+    RockProperties
+        ``.vp``, ``.vs`` (km/s), ``.density`` (g/cm^3) and ``.vp_vs``.
+
+    Raises
+    ------
+    ValueError
+        Unknown rock or mineral, fractions not summing to 1, or a value outside its range;
+        the message names the argument and the allowed range.
+
+    Examples
+    --------
+    >>> r = rock_properties("harzburgite", temperature_c=20.0, pressure_gpa=0.2)
+    >>> 8.0 < float(r.vp) < 8.6
+    True
+    """
+    rocks, fr = _rock_fractions(rock)
+    t = check_range("temperature_c", temperature_c, -5.0, 1800.0, unit="deg C")
+    p = check_range("pressure_gpa", pressure_gpa, 0.0, 10.0, unit="GPa")
+    phi = check_range("porosity", porosity, 0.0, 0.5)
+    ar = check_range("aspect_ratio", aspect_ratio, 1e-4, 1.0)
+    melt = check_range("melt_fraction", melt_fraction, 0.0, 0.3)
+    mar = check_range("melt_aspect_ratio", melt_aspect_ratio, 1e-4, 1.0)
+    serp = check_range("serpentinization", serpentinization, 0.0, 1.0)
+    pp = p if pore_pressure_gpa is None else check_range(
+        "pore_pressure_gpa", pore_pressure_gpa, 0.0, 10.0, unit="GPa"
+    )
+    if np.any(phi + melt > 0.5):
+        raise ValueError(
+            f"porosity + melt_fraction must be <= 0.5; got {float(np.max(phi + melt)):g}"
+        )
+    fm = ForwardModel(
+        rocks=rocks,
+        mixing=mixing,
+        inclusion_scheme=inclusion_scheme,
+        serpentine=serpentine,
+        frequency_hz=float(as_float_array("frequency_hz", frequency_hz)),
+        grain_size_mm=float(as_float_array("grain_size_mm", grain_size_mm)),
+        anelastic=bool(anelastic),
+    )
+    if fr is None:
+        fr = np.ones(np.broadcast(t, p, phi, ar, melt, mar, serp, pp).shape + (1,))
+    vp, vs, rho = fm(fr, t, p, phi, ar, melt, mar, serp, pp)
+    return RockProperties(vp=vp, vs=vs, density=rho)
