@@ -1,0 +1,74 @@
+"""Forward-model throughput: rock evaluations per second for batches of 1 to 10^6.
+
+Run ``python tests/benchmarks/bench_forward.py``. Prints, measured in one run, the rate for a
+three-rock mixture with seawater pores, melt and attenuation (the work the log-probability does),
+and the ratio of batched to one-at-a-time evaluation. Figures are reported, not asserted:
+absolute times depend on the machine.
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+
+import numpy as np
+
+from bayescrust import ForwardModel
+
+
+def _inputs(n: int, rng: np.random.Generator):
+    fr = rng.dirichlet(np.ones(3), size=n)
+    return dict(
+        fractions=fr,
+        temperature_c=rng.uniform(0, 1300, n),
+        pressure_gpa=rng.uniform(0.05, 0.5, n),
+        porosity=rng.uniform(0, 0.1, n),
+        aspect_ratio=10 ** rng.uniform(-2, 0, n),
+        melt_fraction=rng.uniform(0, 0.03, n),
+        melt_aspect_ratio=0.05,
+        serpentinization=rng.uniform(0, 1, n),
+    )
+
+
+def _rate(fm, kw, n: int, min_seconds: float) -> float:
+    fm(**kw)  # warm-up
+    reps, t0 = 0, time.perf_counter()
+    while True:
+        fm(**kw)
+        reps += 1
+        dt = time.perf_counter() - t0
+        if dt >= min_seconds:
+            return reps * n / dt
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__)
+    ap.add_argument("--max-batch", type=int, default=10**6)
+    ap.add_argument("--seconds", type=float, default=1.0, help="minimum time per measurement")
+    args = ap.parse_args(argv)
+    rng = np.random.default_rng(0)
+    fm = ForwardModel(rocks=("gabbro", "harzburgite", "basalt"))
+    print("three-rock mixture, seawater pores + melt (DEM), Voigt-Reuss-Hill, anelastic")
+    print(f"{'batch':>9} {'evals/s':>12} {'us/eval':>9}")
+    rates = {}
+    for n in (1, 32, 10**4, 10**5, 10**6):
+        if n > args.max_batch:
+            break
+        rates[n] = _rate(fm, _inputs(n, rng), n, args.seconds)
+        print(f"{n:>9} {rates[n]:>12.3g} {1e6 / rates[n]:>9.3g}")
+    # one-at-a-time: what a hand-written loop over samples costs, same run
+    n_loop = 2000
+    kw = _inputs(n_loop, rng)
+    t0 = time.perf_counter()
+    for i in range(n_loop):
+        fm(**{k: (v[i] if np.ndim(v) else v) for k, v in kw.items()})
+    loop_rate = n_loop / (time.perf_counter() - t0)
+    print(f"one-at-a-time loop: {loop_rate:.3g} evals/s")
+    for n, r in rates.items():
+        if n >= 10**4:
+            print(f"batched ({n}) / looped speed ratio: {r / loop_rate:.0f}x")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
