@@ -397,8 +397,7 @@ def _mineral_state(table: MineralTable, temperature_k, pressure_gpa):
        = -[a0 (T - T0) + a1 (T^2 - T0^2) / 2 - a2 (1/T - 1/T0)].
     2. Adiabatic moduli at (T, 0) with the Anderson-Grueneisen parameters held constant
        (Anderson 1989, ch. 18; Anderson, Isaak & Oda 1992):
-       Ks(T) = Ks0 (rho(T)/rho0)^delta_S, G(T) = G0 (rho(T)/rho0)^Gamma. The same scheme is used
-       for rock-velocity calculations by Hacker, Abers & Peacock (2003).
+       Ks(T) = Ks0 (rho(T)/rho0)^delta_S, G(T) = G0 (rho(T)/rho0)^Gamma.
     3. Isothermal modulus for the compression: K_T(T) = Ks(T) / (1 + alpha(T) gamma_th T)
        (Anderson 1989).
     4. Compression at P by third-order Birch-Murnaghan on K_T(T), K' (see ``_eulerian_strain``),
@@ -420,8 +419,6 @@ def _mineral_state(table: MineralTable, temperature_k, pressure_gpa):
     mantle and outer core, Phys. Earth Planet. Inter. 10, 336-343.
     Fei, Y. (1995), Thermal expansion, in Mineral Physics and Crystallography: A Handbook of
     Physical Constants, AGU Reference Shelf 2, 29-44.
-    Hacker, B. R., Abers, G. A. & Peacock, S. M. (2003), Subduction factory 1. Theoretical
-    mineralogy, densities, seismic wave speeds, and H2O contents, J. Geophys. Res. 108(B1), 2029.
     Stixrude, L. & Lithgow-Bertelloni, C. (2005), Thermodynamics of mantle minerals - I. Physical
     properties, Geophys. J. Int. 162, 610-632.
     """
