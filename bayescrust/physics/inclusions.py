@@ -1,0 +1,545 @@
+"""Elastic moduli of a solid containing spheroidal inclusions (pores, cracks, melt films).
+
+The three schemes share one signature,
+
+``scheme(k_m, g_m, k_i, g_i, aspect_i, frac_i) -> (k, g)``
+
+with the matrix moduli ``k_m, g_m`` shaped ``batch`` and the inclusion phases stacked on the
+**last** axis of ``k_i, g_i, aspect_i, frac_i`` (shape ``batch + (m,)``, e.g. seawater pores and
+melt films together). ``frac_i`` are volume fractions of the whole rock; the matrix occupies
+``1 - sum(frac_i)``. Moduli in GPa; ``aspect_i`` is the ratio of the short to the long semi-axis
+(< 1 oblate, 1 sphere, > 1 prolate).
+
+Public functions validate their input; the private kernels in :data:`_INCLUSION_KERNELS` skip the
+checks and are what the forward model calls.
+
+References
+----------
+.. [1] Wu, T. T. (1966). The effect of inclusion shape on the elastic moduli of a two-phase
+   material. *Int. J. Solids Struct.*, 2, 1-8.
+.. [2] Kuster, G. T., & Toksöz, M. N. (1974). Velocity and attenuation of seismic waves in
+   two-phase media: Part I. Theoretical formulations. *Geophysics*, 39, 587-606.
+.. [3] Berryman, J. G. (1980). Long-wavelength propagation in composite elastic media II.
+   Ellipsoidal inclusions. *J. Acoust. Soc. Am.*, 68, 1820-1831.
+.. [4] Norris, A. N. (1985). A differential scheme for the effective moduli of composites.
+   *Mech. Mater.*, 4, 1-16.
+.. [5] Berryman, J. G., Pride, S. R., & Wang, H. F. (2002). A differential scheme for elastic
+   properties of rocks with dry or saturated cracks. *Geophys. J. Int.*, 151, 597-611.
+.. [6] Mavko, G., Mukerji, T., & Dvorkin, J. (2009). *The Rock Physics Handbook* (2nd ed.),
+   sections 4.7-4.11. Cambridge University Press.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+
+import numpy as np
+
+from ._checks import check_range
+
+__all__ = [
+    "spheroid_pq",
+    "kuster_toksoz",
+    "self_consistent",
+    "dem",
+    "INCLUSION_SCHEMES",
+]
+
+#: Allowed aspect ratios (oblate 1e-4 ... sphere 1 ... prolate 1e4).
+ASPECT_RANGE = (1e-4, 1e4)
+#: Kuster-Toksöz is rejected beyond this "crack porosity" sum(frac_i / aspect_i) (dilute limit).
+KT_MAX_POROSITY_OVER_ASPECT = 1.0
+#: Fixed-step RK4 steps of the DEM integration in t = -ln(1 - y) (accuracy measured in the tests).
+DEM_STEPS = 12
+#: Fixed number of self-consistent fixed-point iterations.
+SC_ITERATIONS = 60
+#: Relative change of the last self-consistent iteration above which a warning is issued.
+SC_TOLERANCE = 1e-6
+#: Floor (relative to the matrix modulus) for a background shear modulus that has vanished.
+_TINY = 1e-12
+
+# --------------------------------------------------------------------------------------------
+# spheroid geometry: theta(alpha) and f(alpha), with a series about the sphere (alpha = 1)
+# --------------------------------------------------------------------------------------------
+_N_SERIES = 24
+_SERIES_U = 0.1  # series in u = 1 - alpha**2 used for |u| < _SERIES_U
+
+
+def _series_coefficients():
+    """Coefficients of theta/alpha and (3 theta - 2)/(1 - alpha^2) as power series in u.
+
+    theta = alpha * g(u) with g(u) = sum_n 2 c_n u^n / (2n + 3), c_n = binom(2n, n) / 4^n
+    (term-by-term integral of 2 t^2 / sqrt(1 - t^2)); alpha = sqrt(1 - u) = sum_k a_k u^k.
+    """
+    n = _N_SERIES + 1
+    g = [2.0 * math.comb(2 * j, j) / 4.0**j / (2 * j + 3) for j in range(n)]
+    a = [(-1) ** k * math.prod(0.5 - i for i in range(k)) / math.factorial(k) for k in range(n)]
+    p = [sum(a[j] * g[k - j] for j in range(k + 1)) for k in range(n)]  # alpha * g(u)
+    h = [3.0 * p[k] for k in range(1, n)]  # (3 alpha g - 2)/u, since 3 p_0 = 2
+    return np.array(g[::-1]), np.array(h[::-1])
+
+
+_G_COEF, _H_COEF = _series_coefficients()
+
+
+def _theta_f(alpha):
+    r"""Berryman's (1980) :math:`\theta(\alpha)` and :math:`f(\alpha)` for any spheroid."""
+    alpha = np.asarray(alpha, dtype=float)
+    u = 1.0 - alpha * alpha
+    near = np.abs(u) < _SERIES_U
+    us = np.where(near, u, 0.0)
+    theta_s = alpha * np.polyval(_G_COEF, us)
+    f_s = alpha * alpha * np.polyval(_H_COEF, us)
+    # closed forms away from the sphere
+    uo = np.where(u >= _SERIES_U, u, 1.0)
+    ao = np.where(u >= _SERIES_U, alpha, 0.0)
+    theta_o = ao / uo**1.5 * (np.arccos(ao) - ao * np.sqrt(uo))
+    up = np.where(u <= -_SERIES_U, -u, 1.0)
+    ap = np.where(u <= -_SERIES_U, alpha, math.sqrt(2.0))
+    sp = np.sqrt(up)
+    theta_p = ap / up**1.5 * (ap * sp - np.arccosh(ap))
+    theta = np.where(near, theta_s, np.where(u > 0.0, theta_o, theta_p))
+    uc = np.where(near, 1.0, u)
+    f = np.where(near, f_s, alpha * alpha * (3.0 * theta - 2.0) / uc)
+    return theta, f
+
+
+def _geometry(aspect):
+    """Aspect-only constants of the Wu / Berryman F-functions (computed once per call)."""
+    t, f = _theta_f(aspect)
+    return (
+        1.5 * (f + t),  # c1
+        1.5 * f + 2.5 * t - 4.0 / 3.0,  # c2
+        1.5 * f + 2.5 * t,  # c3
+        f + t,  # c4
+        f - t + 2.0 * t * t,  # c5
+        1.0 - f - 1.5 * t,  # c6
+        0.25 * (f + 3.0 * t),  # c7
+        0.25 * (f - t),  # c8
+        f + t - 4.0 / 3.0,  # c9
+        0.75 * f + 2.25 * t,  # c10
+        0.75 * f + 1.25 * t,  # c11
+        0.5 * f + 2.5 * t,  # c12
+        -0.5 * f - 1.5 * t,  # c13
+        f,
+        t,
+    )
+
+
+def _pq(rk, rg, r, geo):
+    """P and Q from the modulus ratios rk = K_i/K, rg = G_i/G and R = 3G/(3K + 4G) of the host.
+
+    ``r`` must carry a trailing length-1 axis so it broadcasts against the inclusion axis.
+    """
+    c1, c2, c3, c4, c5, c6, c7, c8, c9, c10, c11, c12, c13, f, t = geo
+    a = rg - 1.0
+    b = (rk - rg) / 3.0
+    s = 3.0 - 4.0 * r
+    bs = b * s
+    bts = bs * t
+    b1ts = bs - bts
+    f1 = 1.0 + a * (c1 - r * c2)
+    f2 = 1.0 + a * (1.0 + c1 - r * c3) + bs + 0.5 * a * (a + 3.0 * b) * s * (c4 - r * c5)
+    f3 = 1.0 + a * (c6 + r * c4)
+    f4 = 1.0 + a * (c7 - r * c8)
+    f5 = a * (r * c9 - f) + bts
+    f6 = 1.0 + a * (1.0 + f - r * c4) + b1ts
+    f7 = 2.0 + a * (c10 - r * c11) + bts
+    f8 = a * (1.0 - 2.0 * r + r * c12 + c13) + b1ts
+    f9 = a * (4.0 * r * c8 - f) + bts
+    p = f1 / f2
+    # Q = (2/F3 + 1/F4 + (F4 F5 + F6 F7 - F8 F9)/(F2 F4))/5, with 1/F4 folded into the fraction
+    q = 0.2 * (2.0 / f3 + (f2 + f4 * f5 + f6 * f7 - f8 * f9) / (f2 * f4))
+    return p, q
+
+
+def _pq_host(k, g, k_i, g_i, geo):
+    """P, Q of inclusions ``(k_i, g_i)`` (last axis) in a host ``(k, g)`` shaped ``batch``."""
+    k = np.asarray(k, dtype=float)[..., None]
+    g = np.asarray(g, dtype=float)[..., None]
+    r = 3.0 * g / (3.0 * k + 4.0 * g)
+    return _pq(k_i / k, g_i / g, r, geo)
+
+
+def spheroid_pq(k_m, g_m, k_i, g_i, aspect_ratio):
+    r"""Polarisation factors P and Q of a spheroidal inclusion in an isotropic host.
+
+    Parameters
+    ----------
+    k_m, g_m : array_like
+        Bulk and shear moduli of the host, GPa (> 0).
+    k_i, g_i : array_like
+        Bulk and shear moduli of the inclusion, GPa (>= 0; fluids have ``g_i = 0``).
+    aspect_ratio : array_like
+        Ratio of the symmetry semi-axis to the other semi-axes, in [1e-4, 1e4]
+        (< 1 oblate, 1 sphere, > 1 prolate). All inputs broadcast together.
+
+    Returns
+    -------
+    P, Q : numpy.ndarray
+        Dimensionless factors relating the mean inclusion strain to the applied strain.
+
+    Notes
+    -----
+    Berryman (1980) [2]_ eqs. (A1)-(A6), from Wu's (1966) [1]_ tensor, as tabulated in Mavko et
+    al. (2009) [3]_ §4.8: with :math:`A = G_i/G_m - 1`, :math:`B = (K_i/K_m - G_i/G_m)/3`,
+    :math:`R = 3G_m/(3K_m + 4G_m)`,
+
+    .. math::
+
+        \theta = \frac{\alpha}{(1-\alpha^2)^{3/2}}\left[\arccos\alpha
+                 - \alpha(1-\alpha^2)^{1/2}\right]\ (\alpha<1),\quad
+        \theta = \frac{\alpha}{(\alpha^2-1)^{3/2}}\left[\alpha(\alpha^2-1)^{1/2}
+                 - \operatorname{arccosh}\alpha\right]\ (\alpha>1),\quad
+        f = \frac{\alpha^2}{1-\alpha^2}(3\theta - 2),
+
+    the functions :math:`F_1 \ldots F_9` of Mavko et al. Table 4.8.2, and
+    :math:`P = F_1/F_2`,
+    :math:`Q = \tfrac15\,[2/F_3 + 1/F_4 + (F_4F_5 + F_6F_7 - F_8F_9)/(F_2F_4)]`.
+
+    Near the sphere both θ and f are 0/0; for :math:`|1-\alpha^2| < 0.1` they are evaluated from
+    their exact power series in :math:`u = 1-\alpha^2`,
+    :math:`\theta/\alpha = \sum_n 2\binom{2n}{n}4^{-n}u^n/(2n+3)` (integrating
+    :math:`2t^2/\sqrt{1-t^2}`), which gives θ = 2/3, f = −2/5 and the sphere formulas at α = 1.
+    As α → 0 the result tends to the penny-crack formulas, as α → ∞ to the needle formulas.
+
+    References
+    ----------
+    .. [1] Wu, T. T. (1966). *Int. J. Solids Struct.*, 2, 1-8.
+    .. [2] Berryman, J. G. (1980). *J. Acoust. Soc. Am.*, 68, 1820-1831.
+    .. [3] Mavko, G., Mukerji, T., & Dvorkin, J. (2009). *The Rock Physics Handbook*, §4.8.
+
+    Examples
+    --------
+    >>> p, q = spheroid_pq(36.0, 45.0, 2.2, 0.0, 1.0)
+    >>> round(float(p), 4), round(float(q), 4)
+    (1.5434, 2.1053)
+    """
+    k_m = check_range("k_m", k_m, 0.0, np.inf, lo_open=True, unit="GPa")
+    g_m = check_range("g_m", g_m, 0.0, np.inf, lo_open=True, unit="GPa")
+    k_i = check_range("k_i", k_i, 0.0, np.inf, unit="GPa")
+    g_i = check_range("g_i", g_i, 0.0, np.inf, unit="GPa")
+    aspect = check_range("aspect_ratio", aspect_ratio, *ASPECT_RANGE)
+    k_m, g_m, k_i, g_i, aspect = np.broadcast_arrays(k_m, g_m, k_i, g_i, aspect)
+    r = 3.0 * g_m / (3.0 * k_m + 4.0 * g_m)
+    return _pq(k_i / k_m, g_i / g_m, r, _geometry(aspect))
+
+
+# --------------------------------------------------------------------------------------------
+# kernels
+# --------------------------------------------------------------------------------------------
+def _kt_from_pq(k_m, g_m, k_i, g_i, p, q, frac_i):
+    """Solve the Kuster-Toksoz equations for given factors P, Q (inclusion phases last)."""
+    k_m = np.asarray(k_m, dtype=float)
+    g_m = np.asarray(g_m, dtype=float)
+    zk = 4.0 / 3.0 * g_m
+    zg = g_m / 6.0 * (9.0 * k_m + 8.0 * g_m) / (k_m + 2.0 * g_m)
+    a = np.sum(frac_i * (k_i - k_m[..., None]) * p, axis=-1) / (k_m + zk)
+    b = np.sum(frac_i * (g_i - g_m[..., None]) * q, axis=-1) / (g_m + zg)
+    return (k_m + a * zk) / (1.0 - a), (g_m + b * zg) / (1.0 - b)
+
+
+def _kuster_toksoz(k_m, g_m, k_i, g_i, aspect_i, frac_i):
+    p, q = _pq_host(k_m, g_m, k_i, g_i, _geometry(aspect_i))
+    return _kt_from_pq(k_m, g_m, k_i, g_i, p, q, frac_i)
+
+
+def _sc_iterate(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_iter):
+    """Fixed-point iteration of the self-consistent equations; also returns the last change."""
+    k_m = np.asarray(k_m, dtype=float)
+    g_m = np.asarray(g_m, dtype=float)
+    shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), np.shape(k_i),
+                                np.shape(g_i), np.shape(aspect_i), np.shape(frac_i))
+    batch = shape[:-1]
+    # phases on the FIRST axis (contiguous inner loops); the matrix is phase 0 (spherical grains)
+    def lead(x):
+        return np.moveaxis(np.broadcast_to(x, shape), -1, 0)
+
+    frac = lead(frac_i)
+    xx = np.concatenate([(1.0 - frac.sum(axis=0))[None], frac])
+    kk = np.concatenate([np.broadcast_to(k_m, batch)[None], lead(k_i)])
+    gg = np.concatenate([np.broadcast_to(g_m, batch)[None], lead(g_i)])
+    geo = _geometry(np.concatenate([np.ones((1,) + batch), lead(aspect_i)]))
+    g_floor = _TINY * g_m
+    xk = xx * kk
+    xg = xx * gg
+    # start from the Voigt average (an upper estimate)
+    k = xk.sum(axis=0)
+    g = xg.sum(axis=0)
+    change = np.zeros(batch)
+    for _ in range(n_iter):
+        p, q = _pq(kk / k, gg / g, 3.0 * g / (3.0 * k + 4.0 * g), geo)
+        k_new = np.einsum("i...,i...->...", xk, p) / np.einsum("i...,i...->...", xx, p)
+        g_new = np.maximum(
+            np.einsum("i...,i...->...", xg, q) / np.einsum("i...,i...->...", xx, q), g_floor
+        )
+        # change relative to the modulus, with a floor of 1e-3 of the matrix modulus so that a
+        # modulus that is vanishing (above the percolation threshold) does not count as moving
+        change = np.maximum(np.abs(k_new - k) / (k_new + 1e-3 * k_m),
+                            np.abs(g_new - g) / (g_new + 1e-3 * g_m))
+        k, g = k_new, g_new
+    return k, g, change
+
+
+def _self_consistent(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_iter=SC_ITERATIONS):
+    k, g, _ = _sc_iterate(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_iter)
+    return k, g
+
+
+def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=DEM_STEPS):
+    k_m = np.asarray(k_m, dtype=float)
+    g_m = np.asarray(g_m, dtype=float)
+    shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), np.shape(k_i),
+                                np.shape(g_i), np.shape(aspect_i), np.shape(frac_i))
+    # work with the inclusion axis FIRST: the host quantities (shape batch) then broadcast
+    # along the leading axis, which keeps numpy's inner loops contiguous (about 1.5x faster)
+    def lead(x):
+        return np.ascontiguousarray(np.moveaxis(np.broadcast_to(x, shape), -1, 0), dtype=float)
+
+    k_i, g_i, frac_i = lead(k_i), lead(g_i), lead(frac_i)
+    geo = _geometry(lead(aspect_i))
+    phi = frac_i.sum(axis=0)
+    # inclusion mix added in fixed proportion w_i; integrate in t = -ln(1 - y), t in [0, T]
+    w = frac_i / np.maximum(phi, np.finfo(float).tiny)
+    h = -np.log1p(-phi) / n_steps
+
+    # floors on ln K, ln G: dry thin cracks far beyond phi/alpha ~ 1 drive both moduli to ~0 and
+    # make the equations stiff; the floor (1e-12 of the matrix modulus) keeps the fixed-step
+    # solution finite and positive there (it is then "zero", not accurate)
+    lk_min = np.log(_TINY * k_m)
+    lg_min = np.log(_TINY * g_m)
+
+    def rate(lk, lg):
+        # d ln K / dt = sum_i w_i (K_i/K - 1) P_i ; d ln G / dt = sum_i w_i (G_i/G - 1) Q_i
+        k = np.exp(np.maximum(lk, lk_min))
+        g = np.exp(np.maximum(lg, lg_min))
+        rk = k_i / k
+        rg = g_i / g
+        p, q = _pq(rk, rg, 3.0 * g / (3.0 * k + 4.0 * g), geo)
+        return (np.einsum("i...,i...->...", w * (rk - 1.0), p),
+                np.einsum("i...,i...->...", w * (rg - 1.0), q))
+
+    lk = np.broadcast_to(np.log(k_m), shape[:-1])
+    lg = np.broadcast_to(np.log(g_m), shape[:-1])
+    for _ in range(n_steps):
+        a_k, a_g = rate(lk, lg)
+        b_k, b_g = rate(lk + 0.5 * h * a_k, lg + 0.5 * h * a_g)
+        c_k, c_g = rate(lk + 0.5 * h * b_k, lg + 0.5 * h * b_g)
+        d_k, d_g = rate(lk + h * c_k, lg + h * c_g)
+        lk = np.maximum(lk + h / 6.0 * (a_k + 2.0 * (b_k + c_k) + d_k), lk_min)
+        lg = np.maximum(lg + h / 6.0 * (a_g + 2.0 * (b_g + c_g) + d_g), lg_min)
+    return np.exp(lk), np.exp(lg)
+
+
+# --------------------------------------------------------------------------------------------
+# public schemes
+# --------------------------------------------------------------------------------------------
+def _check_scheme_input(k_m, g_m, k_i, g_i, aspect_i, frac_i):
+    k_m = check_range("k_m", k_m, 0.0, np.inf, lo_open=True, unit="GPa")
+    g_m = check_range("g_m", g_m, 0.0, np.inf, lo_open=True, unit="GPa")
+    k_i = check_range("k_i", k_i, 0.0, np.inf, unit="GPa")
+    g_i = check_range("g_i", g_i, 0.0, np.inf, unit="GPa")
+    aspect_i = check_range("aspect_i", aspect_i, *ASPECT_RANGE)
+    frac_i = check_range("frac_i", frac_i, 0.0, 1.0)
+    if frac_i.ndim == 0:
+        raise ValueError("frac_i must have an inclusion-phase axis (last axis); got a scalar")
+    try:
+        shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), k_i.shape, g_i.shape,
+                                    aspect_i.shape, frac_i.shape)
+    except ValueError as exc:
+        raise ValueError(
+            "k_m, g_m (shape batch) and k_i, g_i, aspect_i, frac_i (shape batch + (m,)) do not "
+            f"broadcast: {k_m.shape}, {g_m.shape}, {k_i.shape}, {g_i.shape}, {aspect_i.shape}, "
+            f"{frac_i.shape}"
+        ) from exc
+    total = frac_i.sum(axis=-1)
+    if np.any(total >= 1.0):
+        bad = np.asarray(total)[np.asarray(total) >= 1.0].ravel()[0]
+        raise ValueError(f"sum(frac_i) (total inclusion fraction) must be in [0, 1); got {bad:g}")
+    return (np.broadcast_to(k_m, shape[:-1]), np.broadcast_to(g_m, shape[:-1]),
+            k_i, g_i, aspect_i, frac_i)
+
+
+_SCHEME_PARAMS = """
+    Parameters
+    ----------
+    k_m, g_m : array_like, shape ``batch``
+        Bulk and shear moduli of the solid matrix, GPa (> 0).
+    k_i, g_i : array_like, shape ``batch + (m,)``
+        Moduli of the ``m`` inclusion phases (last axis), GPa (>= 0; fluids ``g_i = 0``).
+    aspect_i : array_like, shape ``batch + (m,)``
+        Aspect ratio of each inclusion phase, in [1e-4, 1e4].
+    frac_i : array_like, shape ``batch + (m,)``
+        Volume fraction of each inclusion phase in the whole rock; ``sum(frac_i) < 1``.
+
+    Returns
+    -------
+    k, g : numpy.ndarray, shape ``batch``
+        Effective bulk and shear moduli, GPa.
+"""
+
+
+def kuster_toksoz(k_m, g_m, k_i, g_i, aspect_i, frac_i):
+    """Kuster-Toksöz (1974) dilute estimate for spheroidal inclusions in a solid matrix.
+    {params}
+    Raises
+    ------
+    ValueError
+        On invalid input; if ``sum(frac_i / aspect_i)`` exceeds
+        ``KT_MAX_POROSITY_OVER_ASPECT`` (= 1), i.e. far beyond the dilute limit for cracks; or
+        if the result is non-physical (a modulus < 0 or infinite).
+
+    Notes
+    -----
+    Berryman's (1980) [2]_ form of Kuster & Toksöz (1974) [1]_ eqs. (15)-(16), with
+    :math:`\\zeta_m = (G_m/6)(9K_m + 8G_m)/(K_m + 2G_m)` (Mavko et al. 2009 [3]_, eqs. 4.7.1-4.7.2):
+
+    .. math::
+
+        (K - K_m)\\frac{K_m + \\tfrac43 G_m}{K + \\tfrac43 G_m}
+            = \\sum_i x_i (K_i - K_m) P^{mi},\\qquad
+        (G - G_m)\\frac{G_m + \\zeta_m}{G + \\zeta_m} = \\sum_i x_i (G_i - G_m) Q^{mi},
+
+    solved explicitly for K and G, with P, Q from :func:`spheroid_pq` in the matrix. The
+    inclusions do not interact, so the scheme is valid only while ``x_i / alpha_i`` is small;
+    for spheres it equals the Hashin-Shtrikman bound with the matrix as the host (Berryman 1995).
+
+    References
+    ----------
+    .. [1] Kuster, G. T., & Toksöz, M. N. (1974). *Geophysics*, 39, 587-606.
+    .. [2] Berryman, J. G. (1980). *J. Acoust. Soc. Am.*, 68, 1820-1831.
+    .. [3] Mavko, G., Mukerji, T., & Dvorkin, J. (2009). *The Rock Physics Handbook*, §4.7.
+
+    Examples
+    --------
+    >>> k, g = kuster_toksoz(36.0, 45.0, [2.2], [0.0], [1.0], [0.2])
+    >>> round(float(k), 3), round(float(g), 3)
+    (26.589, 29.483)
+    """
+    args = _check_scheme_input(k_m, g_m, k_i, g_i, aspect_i, frac_i)
+    crack = np.sum(args[5] / args[4], axis=-1)
+    if np.any(crack > KT_MAX_POROSITY_OVER_ASPECT):
+        bad = crack[crack > KT_MAX_POROSITY_OVER_ASPECT].ravel()[0] if crack.ndim else crack
+        raise ValueError(
+            "Kuster-Toksoz is a dilute theory: sum(frac_i / aspect_i) must be <= "
+            f"{KT_MAX_POROSITY_OVER_ASPECT:g}; got {float(bad):g} (use dem or self_consistent)"
+        )
+    k, g = _kuster_toksoz(*args)
+    bad = ~(np.isfinite(k) & np.isfinite(g) & (k >= 0.0) & (g >= 0.0))
+    if np.any(bad):
+        raise ValueError(
+            "Kuster-Toksoz gives a non-physical result (negative or infinite modulus: "
+            f"K = {np.asarray(k)[bad].ravel()[0]:g}, G = {np.asarray(g)[bad].ravel()[0]:g} GPa); "
+            "the inclusion concentration is beyond the dilute limit"
+        )
+    return k, g
+
+
+def self_consistent(k_m, g_m, k_i, g_i, aspect_i, frac_i):
+    """Berryman (1980) self-consistent (coherent potential) estimate.
+    {params}
+    Raises
+    ------
+    ValueError
+        On invalid input.
+
+    Warns
+    -----
+    RuntimeWarning
+        If the fixed-point iteration has not converged to a relative change below
+        ``SC_TOLERANCE`` after ``SC_ITERATIONS`` iterations (close to the percolation threshold,
+        where the iteration slows down).
+
+    Notes
+    -----
+    Berryman (1980) [1]_ eqs. (26)-(27) (Mavko et al. 2009 [2]_, eq. 4.11.1), with the matrix
+    as one more phase (spherical grains, fraction ``1 - sum(frac_i)``) and P, Q evaluated in the
+    unknown effective medium:
+
+    .. math:: \\sum_j x_j (K_j - K_{SC}) P^{*j} = 0,\\qquad \\sum_j x_j (G_j - G_{SC}) Q^{*j} = 0.
+
+    Solved by the fixed-point iteration :math:`K \\leftarrow \\sum x_j K_j P^{*j}/\\sum x_j P^{*j}`
+    (likewise G) from the Voigt average, a fixed number of times, vectorised over the batch.
+    Above the percolation porosity of the inclusions the shear modulus tends to 0; it is floored
+    at ``1e-12 g_m``.
+
+    References
+    ----------
+    .. [1] Berryman, J. G. (1980). *J. Acoust. Soc. Am.*, 68, 1820-1831.
+    .. [2] Mavko, G., Mukerji, T., & Dvorkin, J. (2009). *The Rock Physics Handbook*, §4.11.
+
+    Examples
+    --------
+    >>> k, g = self_consistent(80.0, 40.0, [2.3], [0.0], [1.0], [0.05])
+    >>> round(float(k), 2), round(float(g), 2)
+    (70.84, 36.15)
+    """
+    args = _check_scheme_input(k_m, g_m, k_i, g_i, aspect_i, frac_i)
+    k, g, change = _sc_iterate(*args, n_iter=SC_ITERATIONS)
+    if np.any(change > SC_TOLERANCE):
+        warnings.warn(
+            f"self-consistent iteration did not converge in {SC_ITERATIONS} iterations "
+            f"(relative change {float(np.max(change)):.2g}); the inclusion fraction is close to "
+            "the percolation threshold of the inclusion shape",
+            RuntimeWarning,
+            stacklevel=2,
+        )
+    return k, g
+
+
+def dem(k_m, g_m, k_i, g_i, aspect_i, frac_i):
+    """Differential effective medium (DEM) estimate, all inclusion phases added together.
+    {params}
+    Notes
+    -----
+    Norris (1985) [1]_; Berryman et al. (2002) [2]_ eq. (3); Mavko et al. (2009) [3]_ eq. 4.9.1.
+    The inclusion phases are added simultaneously in the fixed proportions
+    :math:`w_i = x_i/\\phi`, :math:`\\phi = \\sum_i x_i`, to a host that starts as the matrix:
+
+    .. math:: (1-y)\\frac{dK^*}{dy} = \\sum_i w_i (K_i - K^*) P^{*i}(y),\\qquad
+              (1-y)\\frac{dG^*}{dy} = \\sum_i w_i (G_i - G^*) Q^{*i}(y),\\qquad 0 \\le y \\le \\phi.
+
+    With :math:`t = -\\ln(1-y)` the factor :math:`1-y` disappears; the equations are integrated
+    for :math:`\\ln K^*, \\ln G^*` (which keeps both moduli positive and makes the equations for
+    fluid-filled cracks mildly stiff only):
+    :math:`d\\ln K^*/dt = \\sum_i w_i (K_i/K^* - 1) P^{*i}`, likewise for G with Q, over
+    :math:`t \\in [0, -\\ln(1-\\phi)]` with ``DEM_STEPS`` (= 12) fixed classical Runge-Kutta
+    steps. Accuracy against 4096 steps (measured in the tests) for fluid-filled inclusions,
+    :math:`\\phi \\le 0.3`, aspect ratio :math:`\\ge 10^{-3}`: relative error < 1.5e-4 (8 steps:
+    1.3e-3, 10 steps: 4e-4). Both moduli are floored at 1e-12 of the matrix modulus; dry thin
+    cracks far beyond :math:`\\phi/\\alpha \\sim 1` reach that floor (there the result means
+    "zero", it is not accurate).
+
+    References
+    ----------
+    .. [1] Norris, A. N. (1985). *Mech. Mater.*, 4, 1-16.
+    .. [2] Berryman, J. G., Pride, S. R., & Wang, H. F. (2002). *Geophys. J. Int.*, 151, 597-611.
+    .. [3] Mavko, G., Mukerji, T., & Dvorkin, J. (2009). *The Rock Physics Handbook*, §4.9.
+
+    Examples
+    --------
+    >>> k, g = dem(80.0, 40.0, [2.3], [0.0], [1.0], [0.05])
+    >>> round(float(k), 2), round(float(g), 2)
+    (71.08, 36.24)
+    """
+    return _dem(*_check_scheme_input(k_m, g_m, k_i, g_i, aspect_i, frac_i))
+
+
+for _fn in (kuster_toksoz, self_consistent, dem):
+    _fn.__doc__ = _fn.__doc__.replace("{params}", _SCHEME_PARAMS)
+del _fn
+
+#: Inclusion schemes by name, ``scheme(k_m, g_m, k_i, g_i, aspect_i, frac_i) -> (k, g)``.
+INCLUSION_SCHEMES = {
+    "dem": dem,
+    "self_consistent": self_consistent,
+    "kuster_toksoz": kuster_toksoz,
+}
+
+#: The same schemes without input validation, for the forward-model hot path.
+_INCLUSION_KERNELS = {
+    "dem": _dem,
+    "self_consistent": _self_consistent,
+    "kuster_toksoz": _kuster_toksoz,
+}
