@@ -336,7 +336,7 @@ class ForwardModel:
         x = self.mineral_fractions(f, serp)
         rho_m, k_m, g_m = minerals._mineral_state(self._table, t_k, p)
         rho_s = np.einsum("ij,ij->i", x, rho_m)
-        k_s, g_s = mixing.MIXING_RULES[self.mixing](x, k_m, g_m)
+        k_s, g_s = mixing._MIXING_KERNELS[self.mixing](x, k_m, g_m)
         rho = rho_s
         if np.any(phi > 0) or np.any(melt > 0):
             rho_w, k_w = fluids._seawater(t_c, p_pore, self.salinity)
@@ -344,7 +344,7 @@ class ForwardModel:
             k_i = np.stack([k_w, k_l], axis=-1)
             frac = np.stack([phi, melt], axis=-1)
             aspect = np.stack([ar, mar], axis=-1)
-            k_s, g_s = inclusions.INCLUSION_SCHEMES[self.inclusion_scheme](
+            k_s, g_s = inclusions._INCLUSION_KERNELS[self.inclusion_scheme](
                 k_s, g_s, k_i, np.zeros_like(k_i), aspect, frac
             )
             rho = (1.0 - phi - melt) * rho_s + phi * rho_w + melt * rho_l
