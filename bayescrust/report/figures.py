@@ -1,0 +1,347 @@
+"""Figures of layer results. Each function takes results, draws, and returns the Figure.
+
+No function here computes physics or inference: they read ``LayerResult.idata`` (arviz
+InferenceData), hypothesis tables and chart tables produced elsewhere. They accept ``fig=`` (or
+``ax=``), never call ``show()`` or ``savefig()``; saving is the caller's job. matplotlib and corner
+are imported inside the functions.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .style import LINESTYLES, MARKERS, PALETTE, PRIOR_GREY, label, new_figure, style_context
+
+__all__ = [
+    "free_parameters",
+    "corner_figure",
+    "trace_figure",
+    "predictive_figure",
+    "marginals_figure",
+    "probability_chart",
+    "comparison_figure",
+    "forward_figure",
+]
+
+#: Derived quantities (not sampled coordinates); shown in predictive checks, not in corner plots.
+_DERIVED = {"vp", "vs", "density", "vp_vs", "ultramafic_fraction", "gabbroic_fraction",
+            "basaltic_fraction", "solidus_c", "melt_fraction_effective",
+            "serpentinization_effective", "serpentine_fraction"}
+
+
+def _draws(idata, group: str, name: str) -> np.ndarray:
+    ds = getattr(idata, group)
+    return np.asarray(ds[name].values, float)
+
+
+def free_parameters(idata) -> list[str]:
+    """Posterior variables that vary and are model parameters (rock fractions, T, porosity, ...).
+
+    Uses ``idata.attrs['parameter_names']`` when the inference package stored it; otherwise every
+    non-constant (chain, draw) variable that is not a derived quantity.
+    """
+    post = idata.posterior
+    names = idata.attrs.get("parameter_names") if hasattr(idata, "attrs") else None
+    if names is None:
+        names = [v for v in post.data_vars if v not in _DERIVED]
+    out = []
+    for v in names:
+        if v not in post.data_vars or post[v].ndim != 2:
+            continue
+        x = np.asarray(post[v].values, float)
+        if np.isfinite(x).all() and np.ptp(x) > 0:
+            out.append(str(v))
+    return out
+
+
+def _fig(fig, figsize):
+    if fig is None:
+        return new_figure(figsize=figsize)
+    return fig
+
+
+def corner_figure(idata, *, var_names=None, fig=None, color=PALETTE[0], bins=30):
+    """Corner plot of the posterior (``corner``), with 5/50/95 % quantiles.
+
+    Parameters
+    ----------
+    idata : arviz.InferenceData
+        Result with a ``posterior`` group.
+    var_names : sequence of str, optional
+        Variables to show (default :func:`free_parameters`).
+    fig : matplotlib.figure.Figure, optional
+        Figure to draw into (empty, or with K x K axes).
+    """
+    try:
+        import corner
+    except ImportError as exc:  # pragma: no cover - corner is a dependency
+        raise ImportError("corner plots need the 'corner' package: pip install corner") from exc
+    names = list(var_names) if var_names is not None else free_parameters(idata)
+    if not names:
+        raise ValueError("corner_figure: no varying posterior variable to plot")
+    data = np.column_stack([_draws(idata, "posterior", n).ravel() for n in names])
+    k = len(names)
+    with style_context():
+        if fig is None:
+            fig = new_figure(figsize=(1.9 * k + 0.8, 1.9 * k + 0.8), layout=None)
+        if k == 1:
+            ax = fig.axes[0] if fig.axes else fig.add_subplot()
+            ax.hist(data[:, 0], bins=bins, color=color, histtype="stepfilled", alpha=0.6)
+            ax.set_xlabel(label(names[0]))
+            ax.set_yticks([])
+            return fig
+        if not fig.axes:
+            fig.subplots(k, k)
+        corner.corner(data, labels=[label(n) for n in names], fig=fig, color=color, bins=bins,
+                      quantiles=[0.05, 0.5, 0.95], show_titles=True, title_fmt=".3g",
+                      title_kwargs={"fontsize": 8}, label_kwargs={"fontsize": 8},
+                      plot_datapoints=False, fill_contours=True, smooth=1.0)
+    return fig
+
+
+def trace_figure(idata, *, var_names=None, fig=None, max_chains=64):
+    """Trace of every chain (walker) per variable, with its marginal histogram beside it."""
+    names = list(var_names) if var_names is not None else free_parameters(idata)
+    if not names:
+        raise ValueError("trace_figure: no varying posterior variable to plot")
+    with style_context():
+        fig = _fig(fig, (7.0, 1.5 * len(names) + 0.6))
+        axes = fig.subplots(len(names), 2, squeeze=False, width_ratios=(3, 1), sharey="row")
+        for i, n in enumerate(names):
+            x = _draws(idata, "posterior", n)
+            ax, axh = axes[i]
+            for c in range(min(x.shape[0], max_chains)):
+                ax.plot(x[c], color=PALETTE[c % 6], lw=0.5, alpha=0.35)
+            ax.set_ylabel(label(n), fontsize=7.5)
+            axh.hist(x.ravel(), bins=40, orientation="horizontal", color=PALETTE[0], alpha=0.6)
+            axh.set_xticks([])
+        axes[-1, 0].set_xlabel("draw (after burn-in and thinning)")
+        fig.suptitle(f"Trace of {min(x.shape[0], max_chains)} chains (walkers)")
+    return fig
+
+
+def _sigma_of(idata, name):
+    attrs = getattr(idata, "attrs", {}) or {}
+    for key in ("observed_sigma", "sigma"):
+        d = attrs.get(key)
+        if isinstance(d, dict) and name in d:
+            return float(d[name])
+    od = idata.observed_data
+    for cand in (f"{name}_sigma", f"sigma_{name}"):
+        if cand in od:
+            return float(np.asarray(od[cand].values).ravel()[0])
+    for group in ("constant_data",):
+        if hasattr(idata, group):
+            ds = getattr(idata, group)
+            for cand in (f"{name}_sigma", f"sigma_{name}"):
+                if cand in ds:
+                    return float(np.asarray(ds[cand].values).ravel()[0])
+    return None
+
+
+def predictive_figure(idata, *, fig=None, sigma=None):
+    """Predicted observables under the prior and the posterior against the observed values.
+
+    Parameters
+    ----------
+    idata : arviz.InferenceData
+        Needs ``observed_data``; predictions are the posterior (and prior, if present) variables
+        of the same names.
+    sigma : dict, optional
+        1-sigma error per observed quantity, drawn as a band (default: read from the result).
+    """
+    obs = [str(v) for v in idata.observed_data.data_vars if v in idata.posterior]
+    if not obs:
+        raise ValueError("predictive_figure: no observed quantity with a posterior prediction")
+    has_prior = hasattr(idata, "prior")
+    with style_context():
+        fig = _fig(fig, (3.0 * len(obs) + 0.4, 2.8))
+        axes = fig.subplots(1, len(obs), squeeze=False)[0]
+        for ax, n in zip(axes, obs, strict=True):
+            value = float(np.asarray(idata.observed_data[n].values).ravel()[0])
+            post = _draws(idata, "posterior", n).ravel()
+            s = (sigma or {}).get(n) if sigma else _sigma_of(idata, n)
+            lo = np.nanmin(post)
+            hi = np.nanmax(post)
+            if has_prior and n in idata.prior:
+                pri = _draws(idata, "prior", n).ravel()
+                pri = pri[np.isfinite(pri)]
+                lo, hi = min(lo, np.quantile(pri, 0.005)), max(hi, np.quantile(pri, 0.995))
+                bins = np.linspace(lo, hi, 50)
+                ax.hist(pri, bins=bins, density=True, histtype="step", color=PRIOR_GREY,
+                        label="prior predictive")
+            else:
+                bins = 40
+            ax.hist(post, bins=bins, density=True, color=PALETTE[0], alpha=0.55,
+                    label="posterior predictive")
+            if s is not None:
+                ax.axvspan(value - s, value + s, color=PALETTE[1], alpha=0.18,
+                           label="observed ±1σ")
+            ax.axvline(value, color=PALETTE[1], lw=1.8, label="observed")
+            ax.set_xlabel(label(n))
+            ax.set_yticks([])
+        axes[0].set_ylabel("density")
+        axes[-1].legend(loc="upper right")
+        fig.suptitle("Predicted versus observed (forward-model predictions, no noise added)")
+    return fig
+
+
+def marginals_figure(idata, *, var_names=None, fig=None, ncols=3):
+    """Prior (grey outline) versus posterior (filled) marginal of each variable."""
+    names = list(var_names) if var_names is not None else free_parameters(idata)
+    if not names:
+        raise ValueError("marginals_figure: no varying posterior variable to plot")
+    nrows = int(np.ceil(len(names) / ncols))
+    ncols = min(ncols, len(names))
+    with style_context():
+        fig = _fig(fig, (2.6 * ncols + 0.3, 2.1 * nrows + 0.5))
+        axes = fig.subplots(nrows, ncols, squeeze=False).ravel()
+        for ax, n in zip(axes, names, strict=False):
+            post = _draws(idata, "posterior", n).ravel()
+            arrays = [post]
+            pri = None
+            if hasattr(idata, "prior") and n in idata.prior:
+                pri = _draws(idata, "prior", n).ravel()
+                pri = pri[np.isfinite(pri)]
+                arrays.append(pri)
+            allv = np.concatenate(arrays)
+            bins = np.linspace(np.min(allv), np.max(allv), 40)
+            if pri is not None and pri.size:
+                ax.hist(pri, bins=bins, density=True, histtype="step", color=PRIOR_GREY, lw=1.3,
+                        label="prior")
+            ax.hist(post, bins=bins, density=True, color=PALETTE[0], alpha=0.6, label="posterior")
+            ax.set_xlabel(label(n))
+            ax.set_yticks([])
+        for ax in axes[len(names):]:
+            ax.set_visible(False)
+        axes[0].legend(loc="best")
+        fig.suptitle("Prior and posterior marginals")
+    return fig
+
+
+def probability_chart(table, *, ax=None, fig=None, observed=None, title=None):
+    """Probability of each interpretation against observed Vp, one line style per prior.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        Long format with columns ``vp`` (km/s), ``hypothesis``, ``probability`` and optionally
+        ``thermal_prior`` and ``mcse``.
+    observed : (float, float), optional
+        The layer's observed Vp and 1-sigma error, drawn as a band.
+    """
+    priors = list(dict.fromkeys(table["thermal_prior"])) if "thermal_prior" in table else [None]
+    hyps = list(dict.fromkeys(table["hypothesis"]))
+    with style_context():
+        if ax is None:
+            fig = _fig(fig, (6.4, 4.0))
+            ax = fig.add_subplot()
+        else:
+            fig = ax.figure
+        if observed is not None:
+            v, s = observed
+            ax.axvspan(v - s, v + s, color="#000000", alpha=0.08, lw=0)
+            ax.axvline(v, color="#000000", lw=0.8, alpha=0.6)
+        for j, pr in enumerate(priors):
+            sub = table if pr is None else table[table["thermal_prior"] == pr]
+            for i, h in enumerate(hyps):
+                d = sub[sub["hypothesis"] == h].sort_values("vp")
+                if d.empty:
+                    continue
+                lab = h if len(priors) == 1 else f"{h} | {pr}"
+                ax.plot(d["vp"], d["probability"], color=PALETTE[i % len(PALETTE)],
+                        ls=LINESTYLES[j % len(LINESTYLES)], label=lab)
+                if "mcse" in d and np.any(d["mcse"] > 0):
+                    ax.fill_between(d["vp"], d["probability"] - 2 * d["mcse"],
+                                    d["probability"] + 2 * d["mcse"],
+                                    color=PALETTE[i % len(PALETTE)], alpha=0.12, lw=0)
+        ax.set_ylim(-0.02, 1.02)
+        ax.set_xlabel("observed Vp (km/s)")
+        ax.set_ylabel("posterior probability")
+        if title:
+            ax.set_title(title)
+        ax.legend(loc="center left", bbox_to_anchor=(1.01, 0.5))
+    return fig
+
+
+def comparison_figure(probabilities, evidence=None, *, fig=None, title=None):
+    """Interpretation probabilities under each thermal-state prior, and each prior's evidence.
+
+    Parameters
+    ----------
+    probabilities : pandas.DataFrame
+        Index: hypotheses; columns: thermal-state priors; values: posterior probabilities.
+        Optional prior probabilities as a second frame are not drawn.
+    evidence : pandas.DataFrame, optional
+        Index: thermal-state priors; columns ``log_evidence`` and ``log_evidence_error`` (natural
+        log). Drawn relative to the largest, as log10 of the evidence ratio.
+    """
+    hyps = list(probabilities.index)
+    priors = list(probabilities.columns)
+    with style_context():
+        fig = _fig(fig, (7.6 if evidence is not None else 5.6, 3.6))
+        if evidence is not None:
+            ax, axe = fig.subplots(1, 2, width_ratios=(2.3, 1))
+        else:
+            ax, axe = fig.add_subplot(), None
+        x = np.arange(len(hyps))
+        w = 0.8 / max(len(priors), 1)
+        hatches = ("", "///", "..", "xx", "\\\\", "oo")
+        for j, pr in enumerate(priors):
+            ax.bar(x + (j - (len(priors) - 1) / 2) * w, probabilities[pr].to_numpy(float), w,
+                   color=PALETTE[j % len(PALETTE)], hatch=hatches[j % len(hatches)],
+                   edgecolor="white", lw=0.5, label=str(pr))
+        ax.set_xticks(x, [str(h) for h in hyps], rotation=25, ha="right")
+        ax.set_ylim(0, 1)
+        ax.set_ylabel("posterior probability")
+        ax.legend(title="thermal-state prior", loc="upper right")
+        if axe is not None:
+            le = evidence.loc[priors, "log_evidence"].to_numpy(float)
+            err = evidence.loc[priors, "log_evidence_error"].to_numpy(float)
+            rel = (le - np.max(le)) / np.log(10.0)
+            y = np.arange(len(priors))
+            for j in range(len(priors)):
+                axe.errorbar(rel[j], y[j], xerr=err[j] / np.log(10.0), fmt=MARKERS[j % 8],
+                             color=PALETTE[j % len(PALETTE)], capsize=3)
+            axe.axvline(0, color="#000000", lw=0.6)
+            axe.set_yticks(y, [str(p) for p in priors])
+            axe.invert_yaxis()
+            axe.set_xlabel("log10 evidence relative to best")
+            axe.set_title("evidence")
+        if title:
+            fig.suptitle(title)
+    return fig
+
+
+def forward_figure(table, *, x="temperature_c", fig=None, ax=None, title=None):
+    """Forward-model velocities (and density) against one varied input.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        Columns ``x`` and ``vp``, ``vs`` (km/s), optionally ``density``.
+    """
+    with style_context():
+        if ax is None:
+            fig = _fig(fig, (5.2, 3.4))
+            ax = fig.add_subplot()
+        else:
+            fig = ax.figure
+        d = table.sort_values(x)
+        ax.plot(d[x], d["vp"], color=PALETTE[0], marker=MARKERS[0], ms=3, label="Vp")
+        ax.plot(d[x], d["vs"], color=PALETTE[1], ls="--", marker=MARKERS[1], ms=3, label="Vs")
+        ax.set_xlabel(label(x))
+        ax.set_ylabel("velocity (km/s)")
+        if "density" in d:
+            ax2 = ax.twinx()
+            ax2.plot(d[x], d["density"], color=PALETTE[2], ls=":", label="density")
+            ax2.set_ylabel(label("density"))
+            ax2.spines["right"].set_visible(True)
+            h1, l1 = ax.get_legend_handles_labels()
+            h2, l2 = ax2.get_legend_handles_labels()
+            ax.legend(h1 + h2, l1 + l2, loc="best")
+        else:
+            ax.legend(loc="best")
+        if title:
+            ax.set_title(title)
+    return fig
