@@ -29,4 +29,35 @@ __all__ = [
 ]
 
 # --- inference exports ---
+from .inference import (  # noqa: E402
+    ConvergenceWarning,
+    HalfSpaceCooling,
+    HotAxial,
+    Layer,
+    LayerResult,
+    PriorComparison,
+    UniformTemperature,
+    compare_priors,
+    default_hypotheses,
+    exact_layer,
+    invert_layer,
+    priors,
+    thermal_priors,
+)
+
+__all__ += [
+    "ConvergenceWarning",
+    "HalfSpaceCooling",
+    "HotAxial",
+    "Layer",
+    "LayerResult",
+    "PriorComparison",
+    "UniformTemperature",
+    "compare_priors",
+    "default_hypotheses",
+    "exact_layer",
+    "invert_layer",
+    "priors",
+    "thermal_priors",
+]
 # --- end inference exports ---

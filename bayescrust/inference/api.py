@@ -1,0 +1,283 @@
+"""Public entry points: :func:`invert_layer` (MCMC) and :func:`exact_layer` (exact reference)."""
+
+from __future__ import annotations
+
+import math
+import time
+
+import numpy as np
+
+from .evidence import evidence_from_posterior, log_mean_exp, prior_design, weigh_design
+from .hypotheses import default_hypotheses, indicators, validate_hypotheses
+from .model import DERIVED_QUANTITIES, SCALAR_PARAMETERS, LayerModel
+from .results import LayerResult, build_idata, hypothesis_table, probabilities_mcmc, summarize
+from .sampler import run_ensemble
+
+__all__ = ["invert_layer", "exact_layer", "resolve_rng"]
+
+_PREDICTED = ("vp", "vs", "density", "vp_vs")
+
+
+def resolve_rng(seed=None, rng=None) -> tuple[np.random.Generator, object]:
+    """SPEC 7: ``rng`` (Generator | int | None) or ``seed`` (int | None) -> Generator."""
+    if seed is not None and rng is not None:
+        raise ValueError("give either seed or rng, not both")
+    src = rng if rng is not None else seed
+    if isinstance(src, np.random.Generator):
+        return src, None
+    if src is not None and (isinstance(src, bool) or not isinstance(src, (int, np.integer))
+                            or src < 0):
+        raise ValueError(f"seed must be a non-negative integer or None; got {src!r}")
+    return np.random.default_rng(src), (None if src is None else int(src))
+
+
+def _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forward):
+    model = LayerModel.build(layer, rocks=rocks, priors=priors, model_error=model_error,
+                             likelihood=likelihood, nu=nu, forward=forward)
+    allowed = set(model.rock_names) | set(SCALAR_PARAMETERS) | set(DERIVED_QUANTITIES)
+    hyps = default_hypotheses(model.rock_names) if hypotheses is None else hypotheses
+    return model, validate_hypotheses(hyps, allowed)
+
+
+def _needs_prediction(hyps):
+    return any(q in _PREDICTED for r in hyps.values() for q in r)
+
+
+def _prior_probabilities(model, hyps, rng, n):
+    theta = model.sample_prior(rng, n)
+    q = model.quantities(theta, predict=_needs_prediction(hyps))
+    return {k: float(np.mean(v)) for k, v in indicators(hyps, q).items()}
+
+
+def _posterior_dict(model, q, shape):
+    names = list(model.rock_names) + list(SCALAR_PARAMETERS) + list(DERIVED_QUANTITIES)
+    return {k: np.asarray(q[k], float).reshape(shape) for k in names}
+
+
+def _attrs(model, seed, method, settings):
+    from .. import __version__
+
+    return {"bayescrust_version": __version__, "seed": -1 if seed is None else seed,
+            "method": method, "layer": model.layer.name, "settings": repr(settings)}
+
+
+def invert_layer(
+    layer,
+    *,
+    rocks=("gabbro", "harzburgite"),
+    priors=None,
+    hypotheses=None,
+    model_error=None,
+    likelihood="gaussian",
+    nu=4.0,
+    forward=None,
+    seed=None,
+    rng=None,
+    n_walkers=None,
+    min_ess=1000,
+    max_steps=20000,
+    tau_factor=50.0,
+    evidence=True,
+    n_evidence=8192,
+    n_prior=2000,
+    progress=False,
+) -> LayerResult:
+    """Posterior of one layer's rock fractions, temperature, porosity, melt and serpentinisation.
+
+    Parameters
+    ----------
+    layer : Layer
+        Depth range and observations.
+    rocks : sequence of str
+        End-member rocks (names from ``bayescrust.ROCKS``); fractions live on their simplex.
+    priors : dict, optional
+        ``{parameter: prior or number}``; a number fixes the parameter. Keys: ``fractions``
+        (a ``Dirichlet``), ``temperature_c`` (a 1-D prior or a thermal-state prior with
+        ``for_layer``), ``porosity``, ``aspect_ratio``, ``melt_fraction``,
+        ``melt_aspect_ratio``, ``serpentinization``; or every rock's name with a number to fix
+        the fractions. Defaults: :func:`bayescrust.inference.model.default_priors`.
+    hypotheses : dict, optional
+        ``{name: {quantity: (lo, hi)}}``; default :func:`bayescrust.default_hypotheses`.
+    model_error : float or dict, optional
+        Forward-model error as a fraction of the observed value (one number, or per quantity),
+        added in quadrature to each sigma. Default
+        :data:`bayescrust.inference.model.DEFAULT_MODEL_ERROR` (1 % velocities, 0.5 % density).
+    likelihood : {"gaussian", "student_t"}
+        ``student_t`` uses a t distribution with ``nu`` degrees of freedom and the total sigma
+        as scale.
+    nu : float
+        Degrees of freedom of the Student-t likelihood.
+    forward : dict or ForwardModel, optional
+        Forward-model settings (``mixing``, ``inclusion_scheme``, ``serpentine``, ...) or a
+        ready forward model.
+    seed : int, optional / rng : numpy.random.Generator or int, optional
+        Source of all randomness (SPEC 7); the same seed gives bit-identical results.
+    n_walkers : int, optional
+        Ensemble size (default ``max(32, 8 * ndim)``, rounded up to even).
+    min_ess, max_steps, tau_factor : see :func:`bayescrust.inference.sampler.run_ensemble`.
+    evidence : bool
+        Estimate the log-evidence by importance sampling (``n_evidence`` draws from a Student-t
+        fitted to the posterior mixed with the prior); else NaN.
+    n_prior : int
+        Prior draws stored in the ``prior`` group; prior probabilities of the hypotheses use
+        ten times as many.
+    progress : bool
+        tqdm progress bar.
+
+    Returns
+    -------
+    LayerResult
+    """
+    rng, seed_val = resolve_rng(seed, rng)
+    model, hyps = _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forward)
+    r_init, r_run, r_prior, r_ev, r_hyp = rng.spawn(5)
+    d = model.ndim
+    t0 = time.perf_counter()
+    if d == 0:
+        raise ValueError("every parameter is fixed: nothing to sample (use exact_layer)")
+    w = int(n_walkers) if n_walkers is not None else max(32, 8 * d)
+    if w < 2 * d + 2:
+        raise ValueError(f"n_walkers must be >= 2 * ndim + 2 = {2 * d + 2}; got {w}")
+    w += w % 2
+    # Initial walkers from the prior, kept where the posterior is finite.
+    cand = model.sample_prior(r_init, 4 * w)
+    lp = model.log_prob(cand)
+    good = np.flatnonzero(np.isfinite(lp))
+    if good.size < w:
+        raise ValueError(f"only {good.size} of {4 * w} prior draws have a finite posterior "
+                         "density; check the observations and priors")
+    init = cand[good[:w]]
+    run = run_ensemble(model.log_prob, init, rng=r_run, min_ess=min_ess, max_steps=max_steps,
+                       tau_factor=tau_factor, progress=progress)
+    nd, nw, _ = run.samples.shape
+    flat = run.samples.transpose(1, 0, 2).reshape(-1, d)   # walker-major: (chain, draw)
+    q = model.quantities(flat)
+    shape = (nw, nd)
+    post = _posterior_dict(model, q, shape)
+    ll = {k: v.reshape(shape) for k, v in model.log_likelihood_terms(q).items()}
+    qp = model.quantities(model.sample_prior(r_prior, n_prior))
+    prior = _posterior_dict(model, qp, (1, n_prior))
+    p_prior = _prior_probabilities(model, hyps, r_hyp, 10 * n_prior)
+    p_post, se_post = probabilities_mcmc(hyps, post)
+    if evidence:
+        log_z, log_z_err = evidence_from_posterior(
+            model.log_prob, model.log_prior, model.sample_prior, flat, r_ev, n=n_evidence)
+    else:
+        log_z, log_z_err = math.nan, math.nan
+    diagnostics = {
+        "method": "mcmc", "n_walkers": nw, "n_steps": run.n_steps, "burn": run.burn,
+        "thin": run.thin, "tau": dict(zip(model.parameter_names, run.tau.tolist())),
+        "ess_stopping": dict(zip(model.parameter_names, run.ess.tolist())),
+        "converged": run.converged, "acceptance": float(np.mean(run.acceptance)),
+        "n_checks": run.n_checks, "sampling_time_s": run.wall_time_s,
+        "total_time_s": time.perf_counter() - t0,
+    }
+    settings = {**model.settings, "method": "mcmc", "seed": seed_val,
+                "hypotheses": {k: {q_: list(v) for q_, v in r.items()} for k, r in hyps.items()},
+                "sampler": {"n_walkers": nw, "min_ess": min_ess, "max_steps": max_steps,
+                            "tau_factor": tau_factor, "moves": "DE 0.7, DE(gamma=1) 0.1, "
+                            "snooker 0.2"},
+                "evidence": {"method": "importance sampling (t + prior)", "n": n_evidence}
+                if evidence else None}
+    idata = build_idata(
+        posterior=post, prior=prior, log_likelihood=ll,
+        sample_stats={"lp": run.log_prob.T.copy()},
+        observed={k: v for k, (v, _) in model.observed.items()},
+        attrs=_attrs(model, seed_val, "mcmc", settings),
+    )
+    return LayerResult(
+        idata=idata, hypotheses=hypothesis_table(p_prior, p_post, se_post),
+        summary=summarize(_summary_vars(model, post)), log_evidence=log_z,
+        log_evidence_error=log_z_err, diagnostics=diagnostics, layer=layer, settings=settings,
+    )
+
+
+def _summary_vars(model, post):
+    keys = list(model.rock_names) + [p for p in SCALAR_PARAMETERS if p in model.free]
+    keys += [k for k in DERIVED_QUANTITIES if k in post]
+    return {k: post[k] for k in keys}
+
+
+def exact_layer(
+    layer,
+    *,
+    rocks=("gabbro", "harzburgite"),
+    priors=None,
+    hypotheses=None,
+    model_error=None,
+    likelihood="gaussian",
+    nu=4.0,
+    forward=None,
+    seed=None,
+    rng=None,
+    n_points=2**15,
+    n_draws=4000,
+    **_ignored_sampler_options,
+) -> LayerResult:
+    """Exact reference: posterior and evidence by randomised quasi-Monte Carlo integration.
+
+    Same arguments as :func:`invert_layer` (sampler options are accepted and ignored). Points
+    of a scrambled Sobol sequence (``n_points``, rounded up to a power of two) are mapped
+    through the prior's quantile transform and weighted by the likelihood; hypothesis
+    probabilities are self-normalised weighted means with delta-method standard errors; the
+    evidence is the mean likelihood with standard error ``sd(L) / (sqrt(n) mean(L))`` (the
+    plain Monte Carlo error, conservative for a randomised QMC design). The posterior group
+    holds ``n_draws`` weighted resamples. Practical up to ~4 free parameters; a
+    :class:`~bayescrust.inference.sampler.ConvergenceWarning` is issued when the weights'
+    effective size falls below 500.
+    """
+    import warnings
+
+    from .sampler import ConvergenceWarning
+
+    rng, seed_val = resolve_rng(seed, rng)
+    model, hyps = _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forward)
+    r_design, r_draw = rng.spawn(2)
+    t0 = time.perf_counter()
+    theta, q = prior_design(model, r_design, n_points)
+    loglik, ll_terms = weigh_design(model, q)
+    n = loglik.shape[0]
+    log_z = float(log_mean_exp(loglik))
+    m = np.max(loglik)
+    wts = np.exp(loglik - m) if np.isfinite(m) else np.zeros(n)
+    sw = wts.sum()
+    if not sw > 0:
+        raise ValueError("the likelihood is zero at every design point; check the observations")
+    mean_l = wts.mean()
+    log_z_err = float(wts.std(ddof=1) / (math.sqrt(n) * mean_l)) if n > 1 else 0.0
+    ess = float(sw**2 / np.sum(wts**2))
+    if ess < 500 and n > 1:
+        warnings.warn(f"exact reference resolved poorly: importance effective size {ess:.0f} "
+                      f"of {n} points; increase n_points", ConvergenceWarning, stacklevel=2)
+    ind = indicators(hyps, q)
+    p_prior = {k: float(np.mean(v)) for k, v in ind.items()}
+    p_post, se_post = {}, {}
+    for k, v in ind.items():
+        v = v.astype(float)
+        p = float(np.sum(wts * v) / sw)
+        p_post[k] = p
+        se_post[k] = float(np.sqrt(np.sum(wts**2 * (v - p) ** 2)) / sw)
+    idx = r_draw.choice(n, size=n_draws, p=wts / sw)
+    qd = {k: np.asarray(v)[idx] if np.ndim(v) else np.full(n_draws, v) for k, v in q.items()}
+    post = _posterior_dict(model, qd, (1, n_draws))
+    n_pr = min(n, n_draws)
+    prior = _posterior_dict(model, {k: np.asarray(v)[:n_pr] for k, v in q.items()}, (1, n_pr))
+    ll = {k: np.asarray(v)[idx].reshape(1, n_draws) for k, v in ll_terms.items()}
+    diagnostics = {"method": "exact", "n_points": n, "importance_ess": ess,
+                   "total_time_s": time.perf_counter() - t0, "converged": ess >= 500}
+    settings = {**model.settings, "method": "exact", "seed": seed_val,
+                "hypotheses": {k: {q_: list(v) for q_, v in r.items()} for k, r in hyps.items()},
+                "exact": {"design": "scrambled Sobol through the prior quantiles",
+                          "n_points": n, "n_draws": n_draws}}
+    idata = build_idata(
+        posterior=post, prior=prior, log_likelihood=ll,
+        sample_stats={"lp": (model.log_prior(theta[idx]) + loglik[idx]).reshape(1, n_draws)},
+        observed={k: v for k, (v, _) in model.observed.items()},
+        attrs=_attrs(model, seed_val, "exact", settings),
+    )
+    return LayerResult(
+        idata=idata, hypotheses=hypothesis_table(p_prior, p_post, se_post),
+        summary=summarize(_summary_vars(model, post), ess_override=ess, mcmc=False),
+        log_evidence=log_z, log_evidence_error=log_z_err, diagnostics=diagnostics,
+        layer=layer, settings=settings,
+    )

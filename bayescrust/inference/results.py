@@ -1,0 +1,160 @@
+"""The result of a layer inversion and the one place where its arviz object is built."""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+
+from .hypotheses import evidence_category, indicators
+
+__all__ = ["LayerResult", "HDI_PROB", "hypothesis_table", "build_idata", "summarize"]
+
+#: Probability mass of the highest-density intervals in ``LayerResult.summary`` (arviz default).
+HDI_PROB = 0.94
+
+
+@dataclass(frozen=True, eq=False)
+class LayerResult:
+    """Posterior of one layer (from MCMC or the exact reference).
+
+    Attributes
+    ----------
+    idata : arviz.InferenceData
+        Groups posterior, prior, observed_data, log_likelihood, sample_stats; posterior
+        variables are every parameter, every rock fraction and the derived quantities
+        (vp, vs, density, vp_vs, ultramafic_fraction, melt_fraction_effective,
+        serpentinization_effective, ...); provenance (package version, seed, method, settings)
+        in ``idata.attrs``.
+    hypotheses : pandas.DataFrame
+        Indexed by hypothesis: prior_probability, posterior_probability, posterior_mcse,
+        bayes_factor, log10_bayes_factor, evidence_category (Kass & Raftery 1995).
+    summary : pandas.DataFrame
+        Per quantity: mean, sd, median, hdi_low, hdi_high (94 % HDI), r_hat, ess_bulk.
+    log_evidence, log_evidence_error : float
+        Natural log of the marginal likelihood and its standard error.
+    diagnostics : dict
+        Sampler diagnostics (tau, n_steps, burn, thin, converged, acceptance, ...) or, for the
+        exact reference, the number of points and the importance-sampling effective size.
+    layer : Layer
+    settings : dict
+        Plain-dict echo of the resolved configuration (for run.toml).
+    """
+
+    idata: object
+    hypotheses: object
+    summary: object
+    log_evidence: float
+    log_evidence_error: float
+    diagnostics: dict
+    layer: object
+    settings: dict
+
+    def probability(self, name: str) -> float:
+        """Posterior probability of hypothesis ``name``."""
+        return float(self.hypotheses.loc[name, "posterior_probability"])
+
+    def __repr__(self) -> str:
+        return (f"LayerResult(layer={self.layer.name!r}, method={self.settings.get('method')!r}, "
+                f"log_evidence={self.log_evidence:.3f} +- {self.log_evidence_error:.3f}, "
+                f"hypotheses={list(self.hypotheses.index)})")
+
+
+def hypothesis_table(prior_p: dict, post_p: dict, post_se: dict):
+    """DataFrame of prior and posterior probabilities, Bayes factors and categories."""
+    import pandas as pd
+
+    rows = []
+    for name in post_p:
+        pi, p = float(prior_p[name]), float(post_p[name])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            bf = (p / (1 - p)) / (pi / (1 - pi)) if 0 < pi < 1 else math.nan
+            if 0 < pi < 1 and p in (0.0, 1.0):
+                bf = 0.0 if p == 0.0 else math.inf
+            lbf = math.log10(bf) if bf > 0 else (-math.inf if bf == 0 else math.nan)
+        rows.append({
+            "hypothesis": name, "prior_probability": pi, "posterior_probability": p,
+            "posterior_mcse": float(post_se[name]), "bayes_factor": bf,
+            "log10_bayes_factor": lbf, "evidence_category": evidence_category(lbf),
+        })
+    cols = ["prior_probability", "posterior_probability", "posterior_mcse", "bayes_factor",
+            "log10_bayes_factor", "evidence_category"]
+    if not rows:
+        return pd.DataFrame(columns=cols, index=pd.Index([], name="hypothesis"))
+    return pd.DataFrame(rows).set_index("hypothesis")[cols]
+
+
+def build_idata(*, posterior: dict, prior: dict, log_likelihood: dict, sample_stats: dict,
+                observed: dict, attrs: dict):
+    """Assemble the InferenceData; arrays are (chain, draw) shaped."""
+    import arviz as az
+
+    with warnings.catch_warnings():
+        # arviz warns when there are more chains (walkers) than draws; that is by design here.
+        warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
+        return az.from_dict(
+            posterior=posterior, prior=prior, log_likelihood=log_likelihood,
+            sample_stats=sample_stats,
+            observed_data={k: np.array([v]) for k, v in observed.items()},
+            attrs=attrs,
+        )
+
+
+def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool = True):
+    """Summary table from (chain, draw) arrays: mean, sd, median, HDI, r_hat, ess_bulk.
+
+    For the exact reference (``mcmc=False``) r_hat is NaN and ess_bulk is ``ess_override``
+    (the importance-sampling effective size).
+    """
+    import arviz as az
+    import pandas as pd
+
+    rows = []
+    for name, arr in posterior.items():
+        arr = np.asarray(arr, float)
+        flat = arr.ravel()
+        const = bool(np.ptp(flat) == 0)
+        if const:
+            lo = hi = float(flat[0])
+        else:
+            lo, hi = (float(v) for v in az.hdi(flat, hdi_prob=HDI_PROB))
+        if mcmc and not const:
+            with warnings.catch_warnings():
+                warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
+                r_hat = float(az.rhat(arr))
+                ess = float(az.ess(arr, method="bulk"))
+        else:
+            r_hat = math.nan
+            ess = math.nan if (const or ess_override is None) else float(ess_override)
+        rows.append({"quantity": name, "mean": float(flat.mean()), "sd": float(flat.std()),
+                     "median": float(np.median(flat)), "hdi_low": lo, "hdi_high": hi,
+                     "r_hat": r_hat, "ess_bulk": ess})
+    return pd.DataFrame(rows).set_index("quantity")
+
+
+def probabilities_mcmc(hyps: dict, q: dict):
+    """Posterior probability and MCSE of each hypothesis from (chain, draw) quantity arrays.
+
+    The MCSE is ``sqrt(p (1 - p) / ESS)`` with the ESS of the indicator (arviz, method "mean");
+    when no sample (or every sample) lies in the region the MCSE of a single hit,
+    ``sqrt((1/N)(1 - 1/N)/N)`` with N the number of kept draws, is reported instead of zero.
+    """
+    import arviz as az
+
+    ind = indicators(hyps, q)
+    p, se = {}, {}
+    for name, m in ind.items():
+        m = np.asarray(m, float)
+        n = m.size
+        pm = float(m.mean())
+        if 0.0 < pm < 1.0:
+            with warnings.catch_warnings():
+                warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
+                ess = float(az.ess(m, method="mean"))
+            se[name] = math.sqrt(pm * (1 - pm) / max(ess, 1.0))
+        else:
+            se[name] = math.sqrt((1 / n) * (1 - 1 / n) / n)
+        p[name] = pm
+    return p, se
