@@ -7,7 +7,13 @@ import time
 
 import numpy as np
 
-from .evidence import evidence_from_posterior, log_mean_exp, prior_design, weigh_design
+from .evidence import (
+    adaptive_design,
+    evidence_from_posterior,
+    log_mean_exp,
+    prior_design,
+    weigh_design,
+)
 from .hypotheses import default_hypotheses, indicators, validate_hypotheses
 from .model import DERIVED_QUANTITIES, SCALAR_PARAMETERS, LayerModel
 from .results import LayerResult, build_idata, hypothesis_table, probabilities_mcmc, summarize
@@ -192,6 +198,44 @@ def invert_layer(
     )
 
 
+def _weights(loglik, log_q):
+    """Evidence, its error, normalised-to-max weights and Kish effective size."""
+    logw = loglik - log_q
+    n = logw.shape[0]
+    log_z = float(log_mean_exp(logw))
+    m = np.max(logw)
+    w = np.exp(logw - m) if np.isfinite(m) else np.zeros(n)
+    err = float(w.std(ddof=1) / (math.sqrt(n) * w.mean())) if n > 1 and w.sum() > 0 else 0.0
+    ess = float(w.sum() ** 2 / np.sum(w**2)) if w.sum() > 0 else 0.0
+    return log_z, err, w, ess
+
+
+def _unit_of(model, theta):
+    """Inverse of ``model.from_unit`` (prior CDF coordinates) for the sampled points."""
+    from scipy import special
+
+    theta = np.atleast_2d(theta)
+    u = np.empty_like(theta)
+    k = model.n_fraction_dims
+    if k:
+        a = model.alpha
+        rest = np.ones(theta.shape[0])
+        for i in range(k):
+            frac = np.where(rest > 0, theta[:, i] / np.where(rest > 0, rest, 1.0), 0.0)
+            u[:, i] = special.betainc(a[i], a[i + 1:].sum(), np.clip(frac, 0.0, 1.0))
+            rest = rest - theta[:, i]
+    for j, p in enumerate(model.free):
+        u[:, k + j] = _cdf(model.scalar_priors[p], theta[:, k + j])
+    return u
+
+
+def _cdf(prior, x, n=2049):
+    """Prior CDF by inverting the quantile function on a fine grid (monotone interpolation)."""
+    g = np.linspace(0.0, 1.0, n)
+    xs = prior.ppf(np.clip(g, 1e-12, 1 - 1e-12))
+    return np.interp(x, xs, g)
+
+
 def _summary_vars(model, post):
     keys = list(model.rock_names) + [p for p in SCALAR_PARAMETERS if p in model.free]
     keys += [k for k in DERIVED_QUANTITIES if k in post]
@@ -212,6 +256,7 @@ def exact_layer(
     rng=None,
     n_points=2**15,
     n_draws=4000,
+    min_importance_ess=2000,
     **_ignored_sampler_options,
 ) -> LayerResult:
     """Exact reference: posterior and evidence by randomised quasi-Monte Carlo integration.
@@ -222,7 +267,12 @@ def exact_layer(
     probabilities are self-normalised weighted means with delta-method standard errors; the
     evidence is the mean likelihood with standard error ``sd(L) / (sqrt(n) mean(L))`` (the
     plain Monte Carlo error, conservative for a randomised QMC design). The posterior group
-    holds ``n_draws`` weighted resamples. Practical up to ~4 free parameters; a
+    holds ``n_draws`` weighted resamples. When the weights' effective size is below
+    ``min_importance_ess`` (a concentrated posterior), a second stage draws ``n_points`` from a
+    defensive mixture of the prior and a Gaussian kernel mixture fitted to the first stage (in
+    the prior's unit hypercube) and uses those weights instead (see
+    :func:`bayescrust.inference.evidence.adaptive_design`); prior probabilities always come
+    from the first-stage prior design. Practical up to ~4 free parameters; a
     :class:`~bayescrust.inference.sampler.ConvergenceWarning` is issued when the weights'
     effective size falls below 500.
     """
@@ -232,25 +282,35 @@ def exact_layer(
 
     rng, seed_val = resolve_rng(seed, rng)
     model, hyps = _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forward)
-    r_design, r_draw = rng.spawn(2)
+    r_design, r_draw, r_adapt = rng.spawn(3)
     t0 = time.perf_counter()
     theta, q = prior_design(model, r_design, n_points)
     loglik, ll_terms = weigh_design(model, q)
     n = loglik.shape[0]
-    log_z = float(log_mean_exp(loglik))
-    m = np.max(loglik)
-    wts = np.exp(loglik - m) if np.isfinite(m) else np.zeros(n)
+    ind = indicators(hyps, q)
+    p_prior = {k: float(np.mean(v)) for k, v in ind.items()}
+    log_z, log_z_err, wts, ess = _weights(loglik, np.zeros(n))
+    stages = 1
+    if ess < min_importance_ess and n > 1:
+        # Stage 2: adaptive importance sampling from a kernel mixture fitted to stage 1.
+        u1 = _unit_of(model, theta)
+        centres = u1[r_adapt.choice(n, size=min(256, n), p=wts / wts.sum())]
+        theta_in, q_in, log_q, inside = adaptive_design(model, r_adapt, centres, n)
+        ll_in, llt_in = weigh_design(model, q_in)
+        loglik_all = np.full(log_q.shape, -np.inf)
+        loglik_all[inside] = ll_in
+        log_z, log_z_err, w_all, ess = _weights(loglik_all, log_q)
+        theta, q, loglik, ll_terms = theta_in, q_in, ll_in, llt_in
+        wts = w_all[inside]
+        n = loglik.shape[0]
+        ind = indicators(hyps, q)
+        stages = 2
     sw = wts.sum()
     if not sw > 0:
         raise ValueError("the likelihood is zero at every design point; check the observations")
-    mean_l = wts.mean()
-    log_z_err = float(wts.std(ddof=1) / (math.sqrt(n) * mean_l)) if n > 1 else 0.0
-    ess = float(sw**2 / np.sum(wts**2))
     if ess < 500 and n > 1:
         warnings.warn(f"exact reference resolved poorly: importance effective size {ess:.0f} "
                       f"of {n} points; increase n_points", ConvergenceWarning, stacklevel=2)
-    ind = indicators(hyps, q)
-    p_prior = {k: float(np.mean(v)) for k, v in ind.items()}
     p_post, se_post = {}, {}
     for k, v in ind.items():
         v = v.astype(float)
@@ -263,7 +323,7 @@ def exact_layer(
     n_pr = min(n, n_draws)
     prior = _posterior_dict(model, {k: np.asarray(v)[:n_pr] for k, v in q.items()}, (1, n_pr))
     ll = {k: np.asarray(v)[idx].reshape(1, n_draws) for k, v in ll_terms.items()}
-    diagnostics = {"method": "exact", "n_points": n, "importance_ess": ess,
+    diagnostics = {"method": "exact", "n_points": n, "importance_ess": ess, "stages": stages,
                    "total_time_s": time.perf_counter() - t0, "converged": ess >= 500}
     settings = {**model.settings, "method": "exact", "seed": seed_val,
                 "hypotheses": {k: {q_: list(v) for q_, v in r.items()} for k, r in hyps.items()},

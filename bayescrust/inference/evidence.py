@@ -15,7 +15,8 @@ import math
 import numpy as np
 from scipy import special
 
-__all__ = ["evidence_from_posterior", "prior_design", "weigh_design", "log_mean_exp"]
+__all__ = ["evidence_from_posterior", "prior_design", "weigh_design", "log_mean_exp",
+           "adaptive_design"]
 
 
 def log_mean_exp(logw, axis=-1):
@@ -115,3 +116,43 @@ def weigh_design(model, q, observed=None):
     """Log-likelihood of each design point, shape (..., n) for observation arrays (...)."""
     ll = model.log_likelihood_terms(q, observed)
     return sum(ll.values()), ll
+
+
+def adaptive_design(model, rng, u_centres, n_points, *, uniform_weight=0.2):
+    """Second-stage importance sampling in the prior's unit hypercube.
+
+    The proposal is a defensive mixture: ``uniform_weight`` of the uniform density on the cube
+    (the prior in these coordinates) and a Gaussian kernel mixture centred on ``u_centres``
+    (points resampled from the first stage's posterior weights), with the covariance of the
+    centres times Silverman's bandwidth factor squared. Points outside the cube have zero prior
+    and are not evaluated.
+
+    Returns
+    -------
+    (theta, quantities, log_q, inside)
+        ``log_q`` (n,) is the proposal log density; ``theta`` and ``quantities`` cover the
+        ``inside`` points only.
+    """
+    c = np.asarray(u_centres, float)
+    m, d = c.shape
+    cov = np.atleast_2d(np.cov(c, rowvar=False)) + np.eye(d) * 1e-10
+    h = (4.0 / (d + 2.0)) ** (1.0 / (d + 4.0)) * m ** (-1.0 / (d + 4.0))
+    chol = np.linalg.cholesky(cov) * h
+    n_unif = int(rng.binomial(n_points, uniform_weight))
+    k = rng.integers(m, size=n_points - n_unif)
+    u = np.concatenate([c[k] + rng.standard_normal((n_points - n_unif, d)) @ chol.T,
+                        rng.random((n_unif, d))])
+    inside = np.all((u > 0.0) & (u < 1.0), axis=1)
+    # kernel-mixture log density, in blocks of points to bound memory
+    logdet = 2 * np.sum(np.log(np.diag(chol)))
+    const = -0.5 * d * math.log(2 * math.pi) - 0.5 * logdet - math.log(m)
+    yc = np.linalg.solve(chol, c.T).T  # centres in whitened coordinates
+    log_k = np.empty(n_points)
+    for s in range(0, n_points, 4096):  # blocks of points, not single samples
+        yu = np.linalg.solve(chol, u[s:s + 4096].T).T
+        d2 = (np.sum(yu**2, 1)[:, None] + np.sum(yc**2, 1)[None, :] - 2 * yu @ yc.T)
+        log_k[s:s + 4096] = special.logsumexp(-0.5 * np.maximum(d2, 0.0), axis=1) + const
+    log_q = np.logaddexp(math.log1p(-uniform_weight) + log_k,
+                         np.where(inside, math.log(uniform_weight), -np.inf))
+    theta = model.from_unit(np.clip(u[inside], 1e-12, 1 - 1e-12))
+    return theta, model.quantities(theta), log_q, inside

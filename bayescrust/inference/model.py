@@ -276,6 +276,8 @@ class LayerModel:
             "ultramafic_fraction": mantle_like.astype(float),
             "gabbroic_fraction": np.isin(names, _GABBROIC).astype(float),
             "basaltic_fraction": np.isin(names, _BASALTIC).astype(float),
+            "_peridotite": ultramafic.astype(float),
+            "_serpentinite": np.isin(names, _SERPENTINITES).astype(float),
         }
         observed = layer.observed
         me = _resolve_model_error(model_error, observed)
@@ -408,7 +410,8 @@ class LayerModel:
         out = {r: f[:, i] for i, r in enumerate(self.rock_names)}
         out.update(s)
         for fam, mask in self.families.items():
-            out[fam] = f @ mask
+            if not fam.startswith("_"):
+                out[fam] = f @ mask
         t = s["temperature_c"]
         sol = f @ self.rock_solidus_c
         out["solidus_c"] = sol
@@ -417,8 +420,8 @@ class LayerModel:
             t < self.serpentine_limit_c, s["serpentinization"], 0.0
         )
         out["serpentine_fraction"] = (
-            out["serpentinization_effective"] * (f @ self.ultramafic.astype(float))
-            + f @ np.isin(self.rock_names, _SERPENTINITES).astype(float)
+            out["serpentinization_effective"] * (f @ self.families["_peridotite"])
+            + f @ self.families["_serpentinite"]
         )
         if predict:
             vp, vs, rho = self._forward(f, out)
@@ -426,13 +429,17 @@ class LayerModel:
         return out
 
     def _forward(self, f, q):
-        # Points without pores or effective melt skip the inclusion scheme (much cheaper for
-        # differential effective-medium integration): one call per group, same results.
+        # With differential effective-medium integration (costly), points without pores or
+        # effective melt are evaluated in a separate call that skips the inclusion scheme.
         args = (q["temperature_c"], q["porosity"], q["aspect_ratio"],
                 q["melt_fraction_effective"], q["melt_aspect_ratio"],
                 q["serpentinization_effective"])
         incl = (args[1] > 0) | (args[3] > 0)
-        groups = [incl] if incl.all() else [~incl] if not incl.any() else [incl, ~incl]
+        split = getattr(self.forward, "inclusion_scheme", None) == "dem"
+        if not split or incl.all() or not incl.any():
+            groups = [slice(None)]
+        else:
+            groups = [incl, ~incl]
         out = np.empty((3, f.shape[0]))
         with np.errstate(all="ignore"):
             for g in groups:
