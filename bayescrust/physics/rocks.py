@@ -371,10 +371,13 @@ def _rock_fractions(rock) -> tuple[tuple, np.ndarray | None]:
         return (rock,), None
     if isinstance(rock, Mapping):
         keys = list(rock)
-        if keys and all(k in minerals.MINERALS for k in keys):
-            return (_custom_rock(rock),), None
-        for k in keys:
-            _resolve_rock(k)  # names an unknown rock or mineral clearly
+        if not keys:
+            raise ValueError("rock mapping is empty; name rocks or minerals with fractions")
+        if not all(k in ROCKS for k in keys):
+            if any(k in minerals.MINERALS for k in keys):
+                return (_custom_rock(rock),), None  # a mineral mix; names unknown minerals
+            for k in keys:
+                _resolve_rock(k)  # names the unknown rock
         arrays = [check_range(f"fraction of {k}", v, 0.0, 1.0) for k, v in rock.items()]
         fr = np.stack(np.broadcast_arrays(*arrays), axis=-1)
         total = fr.sum(-1)
