@@ -164,7 +164,7 @@ def invert_layer(
     qp = model.quantities(model.sample_prior(r_prior, n_prior))
     prior = _posterior_dict(model, qp, (1, n_prior))
     p_prior = _prior_probabilities(model, hyps, r_hyp, 10 * n_prior)
-    p_post, se_post = probabilities_mcmc(hyps, post)
+    p_post, se_post = probabilities_mcmc(hyps, post, ess_ref=float(np.min(run.ess)))
     if evidence:
         log_z, log_z_err = evidence_from_posterior(
             model.log_prob, model.log_prior, model.sample_prior, flat, r_ev, n=n_evidence)

@@ -134,12 +134,14 @@ def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool 
     return pd.DataFrame(rows).set_index("quantity")
 
 
-def probabilities_mcmc(hyps: dict, q: dict):
+def probabilities_mcmc(hyps: dict, q: dict, ess_ref: float | None = None):
     """Posterior probability and MCSE of each hypothesis from (chain, draw) quantity arrays.
 
-    The MCSE is ``sqrt(p (1 - p) / ESS)`` with the ESS of the indicator (arviz, method "mean");
-    when no sample (or every sample) lies in the region the MCSE of a single hit,
-    ``sqrt((1/N)(1 - 1/N)/N)`` with N the number of kept draws, is reported instead of zero.
+    The MCSE is ``sqrt(p~ (1 - p~) / ESS)`` with ``ESS`` the smaller of the indicator's
+    effective sample size (arviz, method "mean") and ``ess_ref`` (the sampler's
+    autocorrelation-based ESS, which stays reliable when an indicator has few hits), and
+    ``p~ = (ESS p + 2) / (ESS + 4)`` the Agresti & Coull (1998) adjusted proportion computed with
+    effective counts, so that rare (or absent) regions do not get a near-zero error.
     """
     import arviz as az
 
@@ -147,14 +149,16 @@ def probabilities_mcmc(hyps: dict, q: dict):
     p, se = {}, {}
     for name, m in ind.items():
         m = np.asarray(m, float)
-        n = m.size
         pm = float(m.mean())
+        ess = float(m.size) if ess_ref is None else float(ess_ref)
         if 0.0 < pm < 1.0:
             with warnings.catch_warnings():
                 warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
-                ess = float(az.ess(m, method="mean"))
-            se[name] = math.sqrt(pm * (1 - pm) / max(ess, 1.0))
-        else:
-            se[name] = math.sqrt((1 / n) * (1 - 1 / n) / n)
+                ess_i = float(az.ess(m, method="mean"))
+            if np.isfinite(ess_i):
+                ess = min(ess, ess_i)
+        ess = max(ess, 1.0)
+        pt = (ess * pm + 2.0) / (ess + 4.0)
+        se[name] = math.sqrt(pt * (1 - pt) / ess)
         p[name] = pm
     return p, se
