@@ -119,7 +119,7 @@ LAYER_KEYS = (
     "name", "top_km", "bottom_km", "pressure_gpa", "vp", "vs", "vp_vs", "density", "rocks",
     "priors", "hypotheses", "thermal_prior", "model_error",
 )
-SAMPLER_KEYS = ("method", "walkers", "min_steps", "max_steps", "min_ess")
+SAMPLER_KEYS = ("method", "walkers", "min_ess", "max_steps", "tau_factor", "exact_points")
 LIKELIHOOD_KINDS = ("gaussian", "student_t")
 
 
@@ -211,9 +211,19 @@ class SamplerSpec:
 
     method: str = "mcmc"
     walkers: int | None = None
-    min_steps: int | None = None
-    max_steps: int | None = None
     min_ess: float | None = None
+    max_steps: int | None = None
+    tau_factor: float | None = None
+    exact_points: int | None = None
+
+    def arguments(self, method: str | None = None) -> dict:
+        """Keyword arguments of ``invert_layer`` (mcmc) or ``exact_layer`` (exact)."""
+        m = method or self.method
+        if m == "exact":
+            return {} if self.exact_points is None else {"n_points": self.exact_points}
+        names = {"walkers": "n_walkers", "min_ess": "min_ess", "max_steps": "max_steps",
+                 "tau_factor": "tau_factor"}
+        return {api: getattr(self, k) for k, api in names.items() if getattr(self, k) is not None}
 
 
 @dataclass(frozen=True)
@@ -626,13 +636,15 @@ class _Reader:
             kw["method"] = self.string(f"{key}.method", table["method"], ("mcmc", "exact"))
         if "walkers" in table:
             kw["walkers"] = self.integer(f"{key}.walkers", table["walkers"], 8, 10000)
-        for k in ("min_steps", "max_steps"):
-            if k in table:
-                kw[k] = self.integer(f"{key}.{k}", table[k], 10, 10_000_000)
+        if "max_steps" in table:
+            kw["max_steps"] = self.integer(f"{key}.max_steps", table["max_steps"], 100, 10_000_000)
         if "min_ess" in table:
             kw["min_ess"] = self.number(f"{key}.min_ess", table["min_ess"], 10.0, 1e7)
-        if kw.get("min_steps") and kw.get("max_steps") and kw["min_steps"] > kw["max_steps"]:
-            self.got(f"{key}.max_steps", kw["max_steps"], f">= min_steps ({kw['min_steps']})")
+        if "tau_factor" in table:
+            kw["tau_factor"] = self.number(f"{key}.tau_factor", table["tau_factor"], 1.0, 1000.0)
+        if "exact_points" in table:
+            kw["exact_points"] = self.integer(f"{key}.exact_points", table["exact_points"],
+                                              256, 2**24)
         return SamplerSpec(**kw)
 
     def forward(self, key, value) -> dict[str, Any]:
@@ -923,7 +935,7 @@ def build_thermal_prior(spec: ThermalSpec | None):
     """Turn a :class:`ThermalSpec` into a thermal-state prior object (``None`` stays ``None``)."""
     if spec is None:
         return None
-    from bayescrust.inference import thermal_priors as T
+    from bayescrust.inference import thermal_priors as T  # noqa: N812
 
     kw = {k: (build_prior(v) if isinstance(v, PriorSpec) else v) for k, v in spec.params.items()}
     if spec.kind == "uniform":
@@ -937,7 +949,7 @@ def build_thermal_prior(spec: ThermalSpec | None):
 
 def build_layer(study: StudySpec, layer: LayerSpec):
     """The ``bayescrust.Layer`` of one layer of the study."""
-    from bayescrust.inference import Layer
+    from bayescrust.inference.layer import Layer
 
     obs = {q: (o.value, o.sigma) for q, o in layer.observations.items()}
     kw = {}
@@ -949,23 +961,32 @@ def build_layer(study: StudySpec, layer: LayerSpec):
 
 def layer_arguments(study: StudySpec, layer: LayerSpec, *, thermal: ThermalSpec | None = None,
                     with_thermal: bool = True) -> dict:
-    """Keyword arguments of ``invert_layer`` / ``exact_layer`` for one layer (without the layer).
+    """Keyword arguments of ``invert_layer`` / ``exact_layer`` for one layer (without the layer
+    and the sampler settings).
 
-    ``thermal`` overrides the layer's thermal prior; ``with_thermal=False`` leaves it out (for
-    ``compare_priors``, which takes the thermal priors separately).
+    The temperature prior is, in order: the layer's own ``priors.temperature_c``; else
+    ``thermal`` (if given) or the layer's selected thermal-state prior; else the study's
+    ``priors.temperature_c``; else the inference package's default. ``with_thermal=False``
+    leaves the thermal-state prior out.
     """
     kw: dict[str, Any] = {"rocks": study.rocks_for(layer)}
-    pri = study.priors_for(layer)
+    pri = {k: build_prior(v) for k, v in study.priors_for(layer).items()}
+    if with_thermal and "temperature_c" not in layer.priors:
+        th = thermal if thermal is not None else study.thermal_for(layer)
+        if th is not None:
+            pri["temperature_c"] = build_thermal_prior(th)
     if pri:
-        kw["priors"] = {k: build_prior(v) for k, v in pri.items()}
+        kw["priors"] = pri
     hy = study.hypotheses_for(layer)
     if hy is not None:
         kw["hypotheses"] = {h: dict(c) for h, c in hy.items()}
-    if with_thermal:
-        th = thermal if thermal is not None else study.thermal_for(layer)
-        if th is not None:
-            kw["thermal_prior"] = build_thermal_prior(th)
     me = study.model_error_for(layer)
     if me is not None:
-        kw["model_error"] = me
+        kw["model_error"] = dict(me) if isinstance(me, dict) else me
+    if study.likelihood != "gaussian":
+        kw["likelihood"] = study.likelihood
+    if study.student_t_nu is not None:
+        kw["nu"] = study.student_t_nu
+    if study.forward:
+        kw["forward"] = dict(study.forward)
     return kw
