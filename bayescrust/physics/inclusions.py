@@ -52,6 +52,9 @@ ASPECT_RANGE = (1e-4, 1e4)
 KT_MAX_POROSITY_OVER_ASPECT = 1.0
 #: Fixed-step RK4 steps of the DEM integration in t = -ln(1 - y) (accuracy measured in the tests).
 DEM_STEPS = 12
+#: Adaptive DEM (the default): largest log-modulus change per RK4 step, and the step cap.
+DEM_LOG_CHANGE_PER_STEP = 0.6
+DEM_MAX_STEPS = 32
 #: Fixed number of self-consistent fixed-point iterations.
 SC_ITERATIONS = 60
 #: Relative change of the last self-consistent iteration above which a warning is issued.
@@ -287,7 +290,7 @@ def _self_consistent(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_iter=SC_ITERATIONS)
     return k, g
 
 
-def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=DEM_STEPS):
+def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=None):
     k_m = np.asarray(k_m, dtype=float)
     g_m = np.asarray(g_m, dtype=float)
     shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), np.shape(k_i),
@@ -302,7 +305,6 @@ def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=DEM_STEPS):
     phi = frac_i.sum(axis=0)
     # inclusion mix added in fixed proportion w_i; integrate in t = -ln(1 - y), t in [0, T]
     w = frac_i / np.maximum(phi, np.finfo(float).tiny)
-    h = -np.log1p(-phi) / n_steps
 
     # floors on ln K, ln G: dry thin cracks far beyond phi/alpha ~ 1 drive both moduli to ~0 and
     # make the equations stiff; the floor (1e-12 of the matrix modulus) keeps the fixed-step
@@ -322,13 +324,33 @@ def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=DEM_STEPS):
 
     lk = np.broadcast_to(np.log(k_m), shape[:-1])
     lg = np.broadcast_to(np.log(g_m), shape[:-1])
-    for _ in range(n_steps):
-        a_k, a_g = rate(lk, lg)
+    a_k, a_g = rate(lk, lg)
+    if n_steps is None:
+        # per-element step count from the element's own stiffness: L = T max|d ln M/dt| at
+        # t = 0 is the log-change a single Euler step would make; RK4 with L/n <= 0.6 keeps the
+        # relative error below 1e-4 (measured against 1024 steps on 4000 random fluid-filled
+        # cases, phi <= 0.3, aspect 1e-3..1). Elements are independent of the batch around them.
+        t_end = -np.log1p(-phi)
+        stiff = t_end * np.maximum(np.abs(a_k), np.abs(a_g))
+        n_el = np.clip(np.ceil(stiff / DEM_LOG_CHANGE_PER_STEP), 1, DEM_MAX_STEPS)
+        h = t_end / n_el
+        n_loop = int(n_el.max()) if n_el.size else 1
+    else:
+        n_el, n_loop = None, n_steps
+        h = -np.log1p(-phi) / n_steps
+    for step in range(n_loop):
+        if step:
+            a_k, a_g = rate(lk, lg)
         b_k, b_g = rate(lk + 0.5 * h * a_k, lg + 0.5 * h * a_g)
         c_k, c_g = rate(lk + 0.5 * h * b_k, lg + 0.5 * h * b_g)
         d_k, d_g = rate(lk + h * c_k, lg + h * c_g)
-        lk = np.maximum(lk + h / 6.0 * (a_k + 2.0 * (b_k + c_k) + d_k), lk_min)
-        lg = np.maximum(lg + h / 6.0 * (a_g + 2.0 * (b_g + c_g) + d_g), lg_min)
+        nk = np.maximum(lk + h / 6.0 * (a_k + 2.0 * (b_k + c_k) + d_k), lk_min)
+        ng = np.maximum(lg + h / 6.0 * (a_g + 2.0 * (b_g + c_g) + d_g), lg_min)
+        if n_el is None:
+            lk, lg = nk, ng
+        else:  # elements that have taken their own number of steps stay where they are
+            active = step < n_el
+            lk, lg = np.where(active, nk, lk), np.where(active, ng, lg)
     return np.exp(lk), np.exp(lg)
 
 
@@ -504,10 +526,12 @@ def dem(k_m, g_m, k_i, g_i, aspect_i, frac_i):
     for :math:`\\ln K^*, \\ln G^*` (which keeps both moduli positive and makes the equations for
     fluid-filled cracks mildly stiff only):
     :math:`d\\ln K^*/dt = \\sum_i w_i (K_i/K^* - 1) P^{*i}`, likewise for G with Q, over
-    :math:`t \\in [0, -\\ln(1-\\phi)]` with ``DEM_STEPS`` (= 12) fixed classical Runge-Kutta
-    steps. Accuracy against 4096 steps (measured in the tests) for fluid-filled inclusions,
-    :math:`\\phi \\le 0.3`, aspect ratio :math:`\\ge 10^{-3}`: relative error < 1.5e-4 (8 steps:
-    1.3e-3, 10 steps: 4e-4). Both moduli are floored at 1e-12 of the matrix modulus; dry thin
+    :math:`t \\in [0, -\\ln(1-\\phi)]` with classical Runge-Kutta steps whose number is
+    chosen per element from its stiffness, :math:`n = \\lceil L/0.6 \\rceil` (1 to 32), with
+    :math:`L` the log-change of one Euler step over the whole range: relative error < 1e-4
+    against 1024 steps for fluid-filled inclusions, :math:`\\phi \\le 0.3`, aspect ratio
+    :math:`\\ge 10^{-3}` (measured in the tests); dilute or round inclusions take one or two
+    steps, crack-rich Layer 2 up to ~30. Both moduli are floored at 1e-12 of the matrix modulus; dry thin
     cracks far beyond :math:`\\phi/\\alpha \\sim 1` reach that floor (there the result means
     "zero", it is not accurate).
 
