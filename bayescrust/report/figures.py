@@ -10,7 +10,16 @@ from __future__ import annotations
 
 import numpy as np
 
-from .style import LINESTYLES, MARKERS, PALETTE, PRIOR_GREY, label, new_figure, style_context
+from .style import (
+    LINESTYLES,
+    MARKERS,
+    PALETTE,
+    PRIOR_GREY,
+    label,
+    new_figure,
+    short_label,
+    style_context,
+)
 
 __all__ = [
     "free_parameters",
@@ -24,6 +33,8 @@ __all__ = [
 ]
 
 #: Derived quantities (not sampled coordinates); shown in predictive checks, not in corner plots.
+_SCALARS = {"temperature_c", "porosity", "aspect_ratio", "melt_fraction", "melt_aspect_ratio",
+            "serpentinization"}
 _DERIVED = {"vp", "vs", "density", "vp_vs", "ultramafic_fraction", "gabbroic_fraction",
             "basaltic_fraction", "solidus_c", "melt_fraction_effective",
             "serpentinization_effective", "serpentine_fraction"}
@@ -54,6 +65,14 @@ def free_parameters(idata) -> list[str]:
     return out
 
 
+def _drop_last_fraction(idata, names):
+    """Rock fractions sum to one: the last varying fraction adds nothing to a corner plot."""
+    fr = [n for n in names if n not in _SCALARS]
+    if len(fr) >= 2:
+        names = [n for n in names if n != fr[-1]]
+    return names
+
+
 def _fig(fig, figsize):
     if fig is None:
         return new_figure(figsize=figsize)
@@ -76,7 +95,8 @@ def corner_figure(idata, *, var_names=None, fig=None, color=PALETTE[0], bins=30)
         import corner
     except ImportError as exc:  # pragma: no cover - corner is a dependency
         raise ImportError("corner plots need the 'corner' package: pip install corner") from exc
-    names = list(var_names) if var_names is not None else free_parameters(idata)
+    names = (list(var_names) if var_names is not None
+             else _drop_last_fraction(idata, free_parameters(idata)))
     if not names:
         raise ValueError("corner_figure: no varying posterior variable to plot")
     data = np.column_stack([_draws(idata, "posterior", n).ravel() for n in names])
@@ -92,7 +112,7 @@ def corner_figure(idata, *, var_names=None, fig=None, color=PALETTE[0], bins=30)
             return fig
         if not fig.axes:
             fig.subplots(k, k)
-        corner.corner(data, labels=[label(n) for n in names], fig=fig, color=color, bins=bins,
+        corner.corner(data, labels=[short_label(n) for n in names], fig=fig, color=color, bins=bins,
                       quantiles=[0.05, 0.5, 0.95], show_titles=True, title_fmt=".3g",
                       title_kwargs={"fontsize": 8}, label_kwargs={"fontsize": 8},
                       plot_datapoints=False, fill_contours=True, smooth=1.0)
@@ -219,48 +239,47 @@ def marginals_figure(idata, *, var_names=None, fig=None, ncols=3):
     return fig
 
 
-def probability_chart(table, *, ax=None, fig=None, observed=None, title=None):
-    """Probability of each interpretation against observed Vp, one line style per prior.
+def probability_chart(table, *, fig=None, observed=None, title=None):
+    """Probability of each interpretation against observed Vp; one panel per thermal prior.
 
     Parameters
     ----------
     table : pandas.DataFrame
         Long format with columns ``vp`` (km/s), ``hypothesis``, ``probability`` and optionally
-        ``thermal_prior`` and ``mcse``.
+        ``thermal_prior`` and ``mcse`` (drawn as a +-2 MCSE band).
     observed : (float, float), optional
-        The layer's observed Vp and 1-sigma error, drawn as a band.
+        The layer's observed Vp and 1-sigma error, drawn as a grey band.
     """
     priors = list(dict.fromkeys(table["thermal_prior"])) if "thermal_prior" in table else [None]
     hyps = list(dict.fromkeys(table["hypothesis"]))
+    n = len(priors)
     with style_context():
-        if ax is None:
-            fig = _fig(fig, (6.4, 4.0))
-            ax = fig.add_subplot()
-        else:
-            fig = ax.figure
-        if observed is not None:
-            v, s = observed
-            ax.axvspan(v - s, v + s, color="#000000", alpha=0.08, lw=0)
-            ax.axvline(v, color="#000000", lw=0.8, alpha=0.6)
-        for j, pr in enumerate(priors):
+        fig = _fig(fig, (2.9 * n + 2.2, 3.3))
+        axes = fig.subplots(1, n, squeeze=False, sharey=True)[0]
+        for j, (ax, pr) in enumerate(zip(axes, priors, strict=True)):
             sub = table if pr is None else table[table["thermal_prior"] == pr]
+            if observed is not None:
+                v, s = observed
+                ax.axvspan(v - s, v + s, color="#000000", alpha=0.08, lw=0)
+                ax.axvline(v, color="#000000", lw=0.8, alpha=0.6)
             for i, h in enumerate(hyps):
                 d = sub[sub["hypothesis"] == h].sort_values("vp")
                 if d.empty:
                     continue
-                lab = h if len(priors) == 1 else f"{h} | {pr}"
-                ax.plot(d["vp"], d["probability"], color=PALETTE[i % len(PALETTE)],
-                        ls=LINESTYLES[j % len(LINESTYLES)], label=lab)
-                if "mcse" in d and np.any(d["mcse"] > 0):
+                c = PALETTE[i % len(PALETTE)]
+                ax.plot(d["vp"], d["probability"], color=c, ls=LINESTYLES[i % len(LINESTYLES)],
+                        marker=MARKERS[i % len(MARKERS)], ms=2.5, label=h if j == 0 else None)
+                if "mcse" in d:
                     ax.fill_between(d["vp"], d["probability"] - 2 * d["mcse"],
-                                    d["probability"] + 2 * d["mcse"],
-                                    color=PALETTE[i % len(PALETTE)], alpha=0.12, lw=0)
-        ax.set_ylim(-0.02, 1.02)
-        ax.set_xlabel("observed Vp (km/s)")
-        ax.set_ylabel("posterior probability")
+                                    d["probability"] + 2 * d["mcse"], color=c, alpha=0.15, lw=0)
+            ax.set_ylim(-0.02, 1.02)
+            ax.set_xlabel("observed Vp (km/s)")
+            if pr is not None:
+                ax.set_title(f"thermal prior: {pr}")
+        axes[0].set_ylabel("posterior probability")
+        fig.legend(loc="outside right center")
         if title:
-            ax.set_title(title)
-        ax.legend(loc="center left", bbox_to_anchor=(1.01, 0.5))
+            fig.suptitle(title)
     return fig
 
 

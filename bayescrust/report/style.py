@@ -8,7 +8,7 @@ read in greyscale print.
 from __future__ import annotations
 
 __all__ = ["PALETTE", "LINESTYLES", "MARKERS", "label", "new_figure", "style_context",
-           "PRIOR_GREY"]
+           "PRIOR_GREY", "short_label"]
 
 #: Okabe & Ito colour-blind-safe colours, most distinct first (black last).
 PALETTE = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#F0E442",
@@ -55,6 +55,19 @@ _LABELS = {
     "serpentinization_effective": "serpentinisation, effective",
     "serpentine_fraction": "serpentine fraction (volume)",
 }
+
+
+_SHORT = {
+    "temperature_c": "T (°C)", "porosity": "porosity", "aspect_ratio": "aspect ratio",
+    "melt_fraction": "melt frac.", "melt_aspect_ratio": "melt aspect", "serpentinization":
+    "serpentinisation", "vp": "Vp (km/s)", "vs": "Vs (km/s)", "vp_vs": "Vp/Vs",
+    "density": "ρ (g/cm³)", "ultramafic_fraction": "ultramafic frac.",
+}
+
+
+def short_label(name: str) -> str:
+    """Compact axis label for crowded figures (corner plots)."""
+    return _SHORT.get(name, f"{name.replace('_', ' ')} frac.")
 
 
 def label(name: str) -> str:
