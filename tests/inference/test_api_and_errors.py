@@ -1,0 +1,191 @@
+"""Public interface: result structure, reproducibility, clear errors, priors."""
+
+import math
+import warnings
+
+import numpy as np
+import pytest
+from scipy import integrate, stats
+
+import bayescrust as bc
+from bayescrust.inference.model import LayerModel
+
+LOWER = dict(top_km=4.0, bottom_km=6.0, water_depth_km=3.0)
+FAST = dict(rocks=("gabbro", "harzburgite"), priors={"porosity": 0.0},
+            forward={"inclusion_scheme": "kuster_toksoz"})
+
+
+def _short_run(seed):
+    layer = bc.Layer("lc", vp=(7.1, 0.1), vs=(3.9, 0.1), **LOWER)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", bc.ConvergenceWarning)
+        return bc.invert_layer(layer, seed=seed, min_ess=200, max_steps=400, n_evidence=512,
+                               n_prior=200, **FAST)
+
+
+def test_same_seed_bit_identical_and_result_structure():
+    a, b, c = _short_run(5), _short_run(5), _short_run(6)
+    for var in ("temperature_c", "harzburgite", "vp"):
+        assert np.array_equal(a.idata.posterior[var].values, b.idata.posterior[var].values)
+    assert a.log_evidence == b.log_evidence
+    assert not np.array_equal(a.idata.posterior["temperature_c"].values,
+                              c.idata.posterior["temperature_c"].values)
+    idata = a.idata
+    for g in ("posterior", "prior", "observed_data", "log_likelihood", "sample_stats"):
+        assert hasattr(idata, g), g
+    for v in ("vp", "vs", "density", "vp_vs", "ultramafic_fraction", "melt_fraction_effective",
+              "serpentinization_effective"):
+        assert v in idata.posterior
+    assert set(idata.log_likelihood.data_vars) == {"vp", "vs"}
+    assert idata.attrs["seed"] == 5
+    assert list(a.hypotheses.columns) == ["prior_probability", "posterior_probability",
+                                          "posterior_mcse", "bayes_factor",
+                                          "log10_bayes_factor", "evidence_category"]
+    assert {"mean", "sd", "median", "hdi_low", "hdi_high", "r_hat", "ess_bulk"} <= set(
+        a.summary.columns)
+    assert a.settings["seed"] == 5 and a.settings["rocks"] == ["gabbro", "harzburgite"]
+    # effective values are zero where the constraint forbids them (the prior construction)
+    post = idata.posterior
+    hot = post["temperature_c"].values >= a.settings["serpentine_stability_c"]
+    assert np.all(post["serpentinization_effective"].values[hot] == 0)
+    cold = post["temperature_c"].values <= post["solidus_c"].values
+    assert np.all(post["melt_fraction_effective"].values[cold] == 0)
+
+
+def test_log_prob_vectorised_equals_looped_and_minus_inf_outside():
+    model = LayerModel.build(bc.Layer("lc", vp=(7.1, 0.1), **LOWER), **FAST)
+    rng = np.random.default_rng(0)
+    th = model.sample_prior(rng, 16)
+    th[3, 0] = 1.5          # fraction outside the simplex
+    th[5, 1] = -50.0        # temperature outside its prior
+    lp = model.log_prob(th)
+    looped = np.array([model.log_prob(t[None])[0] for t in th])
+    np.testing.assert_allclose(lp, looped, rtol=1e-12)
+    assert lp[3] == -np.inf and lp[5] == -np.inf
+    assert np.all(np.isfinite(np.delete(lp, [3, 5])))
+
+
+def test_bit_identical_exact():
+    layer = bc.Layer("lc", vp=(7.1, 0.1), **LOWER)
+    a = bc.exact_layer(layer, seed=3, **FAST)
+    b = bc.exact_layer(layer, seed=3, **FAST)
+    assert a.hypotheses.equals(b.hypotheses) and a.log_evidence == b.log_evidence
+
+
+@pytest.mark.parametrize(
+    "kwargs, match",
+    [
+        (dict(vp=(7.1, -0.1)), "vp sigma"),
+        (dict(vp=(math.nan, 0.1)), "vp must be"),
+        (dict(vp=(7.1, 0.1), top_km=6.0, bottom_km=4.0), "top_km must be < bottom_km"),
+        (dict(vp=(7.1, 0.1), water_depth_km=-1.0), "water_depth_km"),
+        (dict(), "observes nothing"),
+    ],
+)
+def test_bad_observations(kwargs, match):
+    args = {**LOWER, **kwargs}
+    with pytest.raises(ValueError, match=match):
+        bc.Layer("bad", **args)
+
+
+@pytest.mark.parametrize(
+    "priors, match",
+    [
+        ({"temprature_c": 100.0}, "unknown parameter"),
+        ({"porosity": bc.priors.Uniform(0.0, 0.9)}, "porosity"),
+        ({"temperature_c": "hot"}, "temperature_c"),
+        ({"melt_fraction": math.inf}, "melt_fraction"),
+    ],
+)
+def test_bad_priors(priors, match):
+    layer = bc.Layer("lc", vp=(7.1, 0.1), **LOWER)
+    with pytest.raises(ValueError, match=match):
+        bc.exact_layer(layer, rocks=("gabbro", "harzburgite"), priors=priors)
+
+
+def test_bad_prior_constructors_and_hypotheses():
+    with pytest.raises(ValueError, match="lower < upper"):
+        bc.priors.Uniform(5, 1)
+    with pytest.raises(ValueError, match="sigma must be > 0"):
+        bc.priors.Normal(0, -1)
+    with pytest.raises(ValueError, match="lower bound must be > 0"):
+        bc.priors.LogUniform(0, 1)
+    layer = bc.Layer("lc", vp=(7.1, 0.1), **LOWER)
+    with pytest.raises(ValueError, match="unknown quantity 'granite'"):
+        bc.exact_layer(layer, hypotheses={"x": {"granite": (0.5, 1)}})
+    with pytest.raises(ValueError, match="lo < hi"):
+        bc.exact_layer(layer, hypotheses={"x": {"temperature_c": (900, 100)}})
+    with pytest.raises(ValueError, match="unknown rock"):
+        bc.default_hypotheses(("gabbro", "granite"))
+    with pytest.raises(ValueError, match="model_error"):
+        bc.exact_layer(layer, model_error=-0.1)
+    with pytest.raises(ValueError, match="likelihood"):
+        bc.exact_layer(layer, likelihood="cauchy")
+
+
+@pytest.mark.parametrize("prior", [
+    bc.priors.Uniform(-1, 3), bc.priors.LogUniform(1e-3, 1), bc.priors.Normal(2, 0.5),
+    bc.priors.TruncatedNormal(1100, 100, 800, 1250), bc.priors.Beta(2, 5, 0, 0.3),
+])
+def test_priors_normalised_and_quantiles_match_scipy(prior):
+    lo, hi = prior.bounds
+    lo, hi = (max(lo, -10), min(hi, 10)) if not np.isfinite(lo + hi) else (lo, hi)
+    total, _ = integrate.quad(lambda x: np.exp(prior.logpdf(x)), lo, hi, limit=200,
+                              points=None if hi - lo < 100 else [1100])
+    assert total == pytest.approx(1.0, abs=1e-6)  # quadrature accuracy
+    u = np.array([0.05, 0.3, 0.5, 0.9])
+    ref = {
+        "Uniform": lambda: stats.uniform(-1, 4).ppf(u),
+        "LogUniform": lambda: stats.loguniform(1e-3, 1).ppf(u),
+        "Normal": lambda: stats.norm(2, 0.5).ppf(u),
+        "TruncatedNormal": lambda: stats.truncnorm(-3, 1.5, 1100, 100).ppf(u),
+        "Beta": lambda: stats.beta(2, 5, 0, 0.3).ppf(u),
+    }[type(prior).__name__]()
+    np.testing.assert_allclose(prior.ppf(u), ref, rtol=1e-9)
+
+
+def test_tabulated_ppf_inverts_cdf_and_dirichlet_transform():
+    g = np.linspace(0, 10, 11)
+    t = bc.priors.Tabulated(g, 1 + np.sin(g) ** 2)
+    x = t.ppf(np.array([0.1, 0.5, 0.97]))
+    cdf = [integrate.quad(lambda z: np.exp(t.logpdf(z)), 0, xi, points=g[1:-1])[0] for xi in x]
+    np.testing.assert_allclose(cdf, [0.1, 0.5, 0.97], atol=1e-8)
+    model = LayerModel.build(bc.Layer("lc", vp=(7.1, 0.1), **LOWER),
+                             rocks=("gabbro", "harzburgite", "basalt"),
+                             priors={"fractions": bc.priors.Dirichlet([2.0, 3.0, 5.0])},
+                             forward={"inclusion_scheme": "kuster_toksoz"})
+    f = model.fractions(model.sample_prior(np.random.default_rng(1), 40000))
+    # Dirichlet means alpha / sum(alpha) = (0.2, 0.3, 0.5); 40000 draws: sd of mean < 0.002
+    np.testing.assert_allclose(f.mean(axis=0), [0.2, 0.3, 0.5], atol=0.01)
+
+
+def test_half_space_prior_matches_direct_integration():
+    # The tabulated marginal density agrees with brute-force Monte Carlo of the same model.
+    from bayescrust.physics.thermal import half_space_temperature_c
+
+    hs = bc.HalfSpaceCooling(age_myr=bc.priors.Uniform(2, 20),
+                             mantle_temperature_c=bc.priors.Normal(1350, 50), scatter_c=50)
+    layer = bc.Layer("lc", vp=(7.1, 0.1), **LOWER)
+    prior = hs.for_layer(layer)
+    rng = np.random.default_rng(4)
+    n = 200000
+    t = half_space_temperature_c(5.0, rng.uniform(2, 20, n),
+                                 mantle_temperature_c=rng.normal(1350, 50, n))
+    t = t + 50 * rng.standard_normal(n)
+    t = t[(t >= 0) & (t <= 1600)]
+    # quartiles agree within 3 deg C (MC error of a quartile here ~0.5 deg C; table spacing 2 C)
+    np.testing.assert_allclose(prior.ppf(np.array([0.25, 0.5, 0.75])),
+                               np.quantile(t, [0.25, 0.5, 0.75]), atol=3.0)
+
+
+def test_student_t_likelihood_and_fixed_everything():
+    layer = bc.Layer("lc", vp=(7.1, 0.1), **LOWER)
+    res = bc.exact_layer(layer, likelihood="student_t", nu=4, seed=1, **FAST)
+    assert res.settings["likelihood"] == "student_t" and np.isfinite(res.log_evidence)
+    # all fixed: evidence is the likelihood at the fixed point (exact, no error)
+    fixed = {"gabbro": 1.0, "harzburgite": 0.0, "temperature_c": 100.0, "porosity": 0.0,
+             "melt_fraction": 0.0, "serpentinization": 0.0}
+    res = bc.exact_layer(layer, rocks=("gabbro", "harzburgite"), priors=fixed, model_error=0.0,
+                         forward={"inclusion_scheme": "kuster_toksoz"}, seed=1, n_draws=10)
+    vp = res.idata.posterior["vp"].values.ravel()[0]
+    assert res.log_evidence == pytest.approx(stats.norm(vp, 0.1).logpdf(7.1), rel=1e-12)

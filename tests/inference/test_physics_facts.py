@@ -1,0 +1,69 @@
+"""Facts of the trade (`common practice`) reproduced by the inversion (exact reference path).
+
+Design section 5: cold uppermost mantle ~8.0-8.2 km/s; lower crust ~6.7-7.2 km/s; peridotite
+near its solidus at low pressure can fall to ~7.1-7.4 km/s.
+"""
+
+import pytest
+
+import bayescrust as bc
+
+LOWER = dict(top_km=4.0, bottom_km=6.0, water_depth_km=3.0)
+KW = dict(rocks=("gabbro", "harzburgite"), seed=1)
+
+
+def _p(res, *names):
+    return sum(res.probability(n) for n in names)
+
+
+def test_vp_8_1_at_8_km_is_mantle():
+    # common practice: 8.1 km/s below the Moho is peridotite
+    layer = bc.Layer("uppermost mantle", top_km=7.5, bottom_km=8.5, water_depth_km=3.0,
+                     vp=(8.1, 0.1))
+    res = bc.exact_layer(layer, **KW)
+    mantle = res.idata.posterior["ultramafic_fraction"].values
+    assert (mantle >= 0.5).mean() > 0.95
+    assert res.probability("cold gabbro") < 0.01
+
+
+def test_vp_7_1_alone_is_ambiguous_under_uniform_temperature():
+    # common practice: 7.1 km/s fits cold gabbro, hot peridotite and serpentinised peridotite
+    res = bc.exact_layer(bc.Layer("lc", vp=(7.1, 0.1), **LOWER), **KW)
+    gabbro = res.probability("cold gabbro")
+    mantle = _p(res, "hot mantle", "serpentinised mantle")
+    assert 0.1 < gabbro < 0.9 and 0.1 < mantle < 0.9
+    # neither reading is decisive: |log10 BF| < 1 for both
+    assert abs(res.hypotheses.loc["cold gabbro", "log10_bayes_factor"]) < 1
+    assert abs(res.hypotheses.loc["hot mantle", "log10_bayes_factor"]) < 1
+
+
+def test_adding_vs_moves_probability_the_expected_way():
+    # common practice: high Vp/Vs (>~1.9) points to serpentinite or gabbro, low (~1.75) to
+    # unaltered peridotite
+    base = bc.exact_layer(bc.Layer("lc", vp=(7.1, 0.1), **LOWER), **KW)
+    low = bc.exact_layer(bc.Layer("lc", vp=(7.1, 0.1), vs=(7.1 / 1.76, 0.05), **LOWER), **KW)
+    high = bc.exact_layer(bc.Layer("lc", vp=(7.1, 0.1), vs=(7.1 / 1.92, 0.05), **LOWER), **KW)
+    peridotite = ("hot mantle", "cold mantle")
+    # margins well above the exact path's Monte Carlo errors (< 0.01)
+    assert _p(high, "serpentinised mantle") > _p(base, "serpentinised mantle") + 0.05
+    assert _p(high, *peridotite) < _p(low, *peridotite) - 0.05
+    assert (_p(high, "cold gabbro", "serpentinised mantle")
+            > _p(low, "cold gabbro", "serpentinised mantle") + 0.05)
+
+
+def test_cold_plate_and_hot_axis_priors_push_opposite_ways():
+    layer = bc.Layer("lc", vp=(7.1, 0.1), **LOWER)
+    cmp = bc.compare_priors(
+        layer,
+        thermal_priors={"uniform": bc.UniformTemperature(0, 1400),
+                        "cold plate": bc.HalfSpaceCooling(age_myr=bc.priors.Uniform(5, 20)),
+                        "hot axis": bc.HotAxial()},
+        method="exact", **KW)
+    p = cmp.probabilities
+    cold = p.loc["cold gabbro"] + p.loc["serpentinised mantle"]
+    assert cold["cold plate"] > 0.6 and cold["cold plate"] > cold["uniform"] + 0.1
+    assert p.loc["hot mantle", "hot axis"] > 0.6
+    assert p.loc["hot mantle", "hot axis"] > p.loc["hot mantle", "uniform"] + 0.1
+    assert set(cmp.evidence.columns) >= {"log_evidence", "log_evidence_error"}
+    assert cmp.bayes_factors.loc["uniform", "uniform"] == pytest.approx(0.0)
+    assert (cmp.evidence["log_evidence_error"] < 0.05).all()
