@@ -172,8 +172,8 @@ def invert_layer(
         log_z, log_z_err = math.nan, math.nan
     diagnostics = {
         "method": "mcmc", "n_walkers": nw, "n_steps": run.n_steps, "burn": run.burn,
-        "thin": run.thin, "tau": dict(zip(model.parameter_names, run.tau.tolist())),
-        "ess_stopping": dict(zip(model.parameter_names, run.ess.tolist())),
+        "thin": run.thin, "tau": dict(zip(model.parameter_names, run.tau.tolist(), strict=True)),
+        "ess_stopping": dict(zip(model.parameter_names, run.ess.tolist(), strict=True)),
         "converged": run.converged, "acceptance": float(np.mean(run.acceptance)),
         "n_checks": run.n_checks, "sampling_time_s": run.wall_time_s,
         "total_time_s": time.perf_counter() - t0,

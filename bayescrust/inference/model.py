@@ -23,7 +23,7 @@ import numpy as np
 from scipy import special
 
 from .layer import OBSERVABLES, Layer
-from .priors import Dirichlet, LogUniform, Prior, Uniform, as_prior
+from .priors import Dirichlet, Uniform, as_prior
 from .thermal_priors import UniformTemperature, resolve_temperature_prior
 
 __all__ = [
@@ -129,7 +129,8 @@ def _resolve_model_error(model_error, observed) -> dict[str, float]:
             raise ValueError(f"model_error[{k!r}] must be a number; got {v!r}") from exc
         if not math.isfinite(v) or not 0.0 <= v <= 0.5:
             raise ValueError(
-                f"model_error[{k!r}] must be in [0, 0.5] (fraction of the observed value); got {v!r}"
+                f"model_error[{k!r}] must be in [0, 0.5] (fraction of the observed value); "
+                f"got {v!r}"
             )
         out[k] = v
     return out
@@ -212,7 +213,8 @@ class LayerModel:
         frac = priors.get("fractions", defaults["fractions"])
         if rock_keys:
             if "fractions" in priors:
-                raise ValueError("priors: give either 'fractions' or per-rock fixed values, not both")
+                raise ValueError(
+                    "priors: give either 'fractions' or per-rock fixed values, not both")
             vals = {}
             for k in rock_keys:
                 v = as_prior(k, priors[k])

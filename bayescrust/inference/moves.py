@@ -17,7 +17,8 @@ def snooker_move(gamma_range=(1.2, 2.2)):
 
     For a walker ``x`` the move draws three distinct walkers ``z, z1, z2`` of the complementary
     sub-ensembles, projects ``z1 - z2`` onto the line through ``x`` and ``z`` and proposes
-    ``x' = x + gamma * proj(z1 - z2)`` with ``gamma ~ U(gamma_range)``; the proposal is accepted with
+    ``x' = x + gamma * proj(z1 - z2)`` with ``gamma ~ U(gamma_range)``; the proposal is accepted
+    with
     the Metropolis ratio times ``(|x' - z| / |x - z|) ** (ndim - 1)`` (ter Braak & Vrugt 2008,
     eq. 4). As emcee's red-blue scheme holds the complementary walkers fixed during an update,
     the move leaves the target invariant.

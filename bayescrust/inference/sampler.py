@@ -62,7 +62,8 @@ class EnsembleRun:
 
 
 def default_moves():
-    """The move mix: DE (70 %), DE with gamma = 1 for mode jumps (10 %), DE-snooker (20 %, the vectorised
+    """The move mix: DE (70 %), DE with gamma = 1 for mode jumps (10 %), DE-snooker (20 %, the
+    vectorised
     :func:`bayescrust.inference.moves.snooker_move`).
 
     Differential evolution proposals follow the ensemble's shape (good for correlated and

@@ -50,7 +50,8 @@ class UniformTemperature(ThermalPrior):
         Uniform(self.lo, self.hi)  # validates
         if self.lo < -5.0 or self.hi > 2000.0:
             raise ValueError(
-                f"UniformTemperature: bounds must be in [-5, 2000] deg C; got ({self.lo}, {self.hi})"
+                f"UniformTemperature: bounds must be in [-5, 2000] deg C; "
+                f"got ({self.lo}, {self.hi})"
             )
 
     def for_layer(self, layer) -> Prior:
@@ -118,11 +119,13 @@ class HalfSpaceCooling(ThermalPrior):
         object.__setattr__(self, "mantle_temperature_c",
                            as_prior("mantle_temperature_c", self.mantle_temperature_c))
         if not _finite("HalfSpaceCooling: scatter_c", self.scatter_c) > 0:
-            raise ValueError(f"HalfSpaceCooling: scatter_c must be > 0 deg C; got {self.scatter_c!r}")
+            raise ValueError(
+                f"HalfSpaceCooling: scatter_c must be > 0 deg C; got {self.scatter_c!r}")
         if not _finite("HalfSpaceCooling: diffusivity_m2_s", self.diffusivity_m2_s) > 0:
             raise ValueError("HalfSpaceCooling: diffusivity_m2_s must be > 0")
         if not 100.0 <= _finite("HalfSpaceCooling: t_max_c", self.t_max_c) <= 2500.0:
-            raise ValueError(f"HalfSpaceCooling: t_max_c must be in [100, 2500]; got {self.t_max_c}")
+            raise ValueError(
+                f"HalfSpaceCooling: t_max_c must be in [100, 2500]; got {self.t_max_c}")
 
     def _nodes(self, prior, n):
         if prior.fixed:

@@ -41,7 +41,8 @@ def test_mcmc_matches_exact(with_vs):
     # posterior means of the free parameters agree too (4 combined standard errors)
     for p in ("temperature_c", "harzburgite"):
         s_mc, s_ex = mc.summary.loc[p], ex.summary.loc[p]
-        se = np.hypot(s_mc["sd"] / np.sqrt(s_mc["ess_bulk"]), s_ex["sd"] / np.sqrt(s_ex["ess_bulk"]))
+        se = np.hypot(s_mc["sd"] / np.sqrt(s_mc["ess_bulk"]),
+                      s_ex["sd"] / np.sqrt(s_ex["ess_bulk"]))
         assert abs(s_mc["mean"] - s_ex["mean"]) <= 4 * se
 
 
