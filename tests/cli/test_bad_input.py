@@ -1,0 +1,139 @@
+"""Bad input: one clear message on stderr naming file and key, exit code 2, no output folder."""
+
+import textwrap
+
+import pytest
+
+from bayescrust.cli import main
+
+GOOD = textwrap.dedent("""\
+    water_depth_km = 3.0
+    [sampler]
+    method = "exact"
+    exact_points = 1024
+    [[layers]]
+    name = "deep"
+    top_km = 4.0
+    bottom_km = 6.0
+    vp = [7.1, 0.1]
+    """)
+
+
+def _run(tmp_path, capsys, text, *extra):
+    p = tmp_path / "bad.toml"
+    p.write_text(text, encoding="utf-8")
+    out = tmp_path / "out"
+    rc = main(["invert", str(p), "--out", str(out), "-q", "--no-figures", *extra])
+    err = capsys.readouterr().err
+    return rc, err, out
+
+
+CASES = [
+    # (description, text, words that must appear in the message)
+    ("syntax error", GOOD.replace('name = "deep"', 'name = "deep'), ["line 6", "syntax"]),
+    ("unknown key", GOOD.replace("bottom_km", "botom_km"), ["layers[0].botom_km", "bottom_km"]),
+    ("unknown top key", "water_depht_km = 3\n" + GOOD, ["water_depht_km", "water_depth_km"]),
+    ("wrong type", GOOD.replace("water_depth_km = 3.0", 'water_depth_km = "deep"'),
+     ["water_depth_km", "got 'deep'", "expected a number"]),
+    ("negative sigma", GOOD.replace("[7.1, 0.1]", "[7.1, -0.1]"),
+     ["layers[0].vp[1]", "got -0.1", "> 0"]),
+    ("porosity above 1", GOOD + "priors = { porosity = 1.5 }\n",
+     ["layers[0].priors.porosity", "got 1.5"]),
+    ("top below bottom", GOOD.replace("top_km = 4.0", "top_km = 7.0"),
+     ["layers[0].bottom_km", "greater than top_km"]),
+    ("unknown rock", 'rocks = ["gabro", "harzburgite"]\n' + GOOD,
+     ["rocks[0]", "gabro", "did you mean 'gabbro'"]),
+    ("inverted prior bounds", GOOD + 'priors = { temperature_c = { dist = "uniform", lo = 900, '
+     'hi = 100 } }\n', ["layers[0].priors.temperature_c.hi", "got 100"]),
+    ("unknown prior kind", GOOD + 'priors = { porosity = { dist = "unifrom", lo = 0, hi = 0.1 }'
+     ' }\n', ["layers[0].priors.porosity.dist", "'uniform'"]),
+    ("no layers", "water_depth_km = 3.0\n", ["layers", "missing"]),
+    ("no observation", GOOD.replace("vp = [7.1, 0.1]", ""), ["layers[0]", "no observation"]),
+    ("unknown thermal prior", 'thermal_prior = "hot"\n' + GOOD, ["thermal_prior", "'hot'"]),
+    ("hypothesis on unknown quantity", GOOD + "[hypotheses.x]\ntemprature_c = [0, 1]\n",
+     ["hypotheses.x.temprature_c", "temperature_c"]),
+]
+
+
+@pytest.mark.parametrize("desc,text,words", CASES, ids=[c[0] for c in CASES])
+def test_bad_study_file(tmp_path, capsys, desc, text, words):
+    rc, err, out = _run(tmp_path, capsys, text)
+    assert rc == 2, err
+    assert "Traceback" not in err
+    lines = err.strip().splitlines()
+    assert len(lines) == 1, err
+    assert "bad.toml" in lines[0]
+    for w in words:
+        assert w in lines[0], (w, lines[0])
+    assert not out.exists()
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".out")]
+
+
+def test_missing_file(tmp_path, capsys):
+    rc = main(["check", str(tmp_path / "nowhere.toml")])
+    err = capsys.readouterr().err
+    assert rc == 2 and "nowhere.toml" in err and "not found" in err
+
+
+def test_existing_results_refused_then_overwritten(tmp_path, capsys):
+    p = tmp_path / "s.toml"
+    p.write_text(GOOD)
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "keep.txt").write_text("earlier results")
+    rc = main(["invert", str(p), "--out", str(out), "-q", "--no-figures"])
+    err = capsys.readouterr().err
+    assert rc == 2 and "already holds results" in err and "--overwrite" in err
+    assert (out / "keep.txt").read_text() == "earlier results"
+    rc = main(["invert", str(p), "--out", str(out), "-q", "--no-figures", "--overwrite"])
+    assert rc == 0
+    assert not (out / "keep.txt").exists() and (out / "hypotheses.csv").is_file()
+    assert sorted(q.name for q in tmp_path.iterdir()) == ["out", "s.toml"]
+
+
+def test_unwritable_folder(tmp_path, capsys):
+    p = tmp_path / "s.toml"
+    p.write_text(GOOD)
+    blocker = tmp_path / "afile"
+    blocker.write_text("not a folder")
+    rc = main(["invert", str(p), "--out", str(blocker / "sub" / "out"), "-q", "--no-figures"])
+    err = capsys.readouterr().err
+    assert rc == 2 and "cannot write" in err and "--out" in err
+    assert blocker.read_text() == "not a folder"
+
+
+def test_out_is_a_file(tmp_path, capsys):
+    p = tmp_path / "s.toml"
+    p.write_text(GOOD)
+    f = tmp_path / "f"
+    f.write_text("x")
+    assert main(["invert", str(p), "--out", str(f), "-q"]) == 2
+    assert "not a folder" in capsys.readouterr().err
+
+
+def test_unknown_layer_suggests(tmp_path, capsys):
+    p = tmp_path / "s.toml"
+    p.write_text(GOOD)
+    assert main(["invert", str(p), "--out", str(tmp_path / "o"), "--layer", "dep", "-q"]) == 2
+    err = capsys.readouterr().err
+    assert "--layer" in err and "'deep'" in err
+
+
+@pytest.mark.parametrize("argv,words", [
+    (["forward", "--rock", "granite", "--temperature", "20", "--pressure", "0.1"],
+     ["--rock", "granite"]),
+    (["forward", "--rock", "gabbro", "--temperature", "abc", "--pressure", "0.1"],
+     ["--temperature", "abc"]),
+    (["forward", "--rock", "gabbro", "--temperature", "0:100:3", "--pressure", "0:1:3"],
+     ["only one option may be a range"]),
+    (["forward", "--rock", "gabbro", "--temperature", "20", "--pressure", "0.1",
+      "--porosity", "1.5"], ["porosity"]),
+    (["invert"], ["STUDY.toml"]),
+    (["frobnicate"], ["invalid choice"]),
+])
+def test_bad_options(capsys, argv, words):
+    rc = main(argv)
+    err = capsys.readouterr().err
+    assert rc == 2 and "Traceback" not in err
+    for w in words:
+        assert w in err
