@@ -16,12 +16,14 @@ except PackageNotFoundError:  # running from a source tree that is not installed
 
 from .physics.minerals import list_minerals, mineral_properties
 from .physics.rocks import ROCKS, ForwardModel, RockProperties, list_rocks, rock_properties
+from .physics.sources import citations
 
 __all__ = [
     "ROCKS",
     "ForwardModel",
     "RockProperties",
     "__version__",
+    "citations",
     "list_minerals",
     "list_rocks",
     "mineral_properties",

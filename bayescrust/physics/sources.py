@@ -1,0 +1,66 @@
+"""Citations of the data and methods a forward model uses, read from the package data files."""
+
+from __future__ import annotations
+
+import tomllib
+from collections.abc import Iterable
+from importlib import resources
+
+from .rocks import ROCKS, Rock
+
+__all__ = ["citations"]
+
+_DATA_FILES = ("methods", "fluids", "anelastic", "thermal")
+
+
+def _read(name: str) -> dict:
+    path = resources.files("bayescrust.physics").joinpath(f"data/{name}.toml")
+    return tomllib.loads(path.read_text("utf-8"))
+
+
+def _collect(node, out: list[str]) -> None:
+    """Append every value of a key starting with ``source`` in a nested TOML table."""
+    if isinstance(node, dict):
+        for key, value in node.items():
+            if key.startswith("source"):
+                for item in value if isinstance(value, list) else [value]:
+                    if isinstance(item, str):
+                        out.append(item)
+            else:
+                _collect(value, out)
+
+
+def citations(rocks: Iterable[str | Rock] | None = None) -> list[str]:
+    """List the sources behind a forward model: methods, minerals, rocks, fluids, solidi.
+
+    Parameters
+    ----------
+    rocks : iterable of str or Rock, optional
+        The end-member rocks used (default: all built-in rocks). Only the minerals of these
+        rocks, plus the serpentinites, are cited.
+
+    Returns
+    -------
+    list of str
+        Unique source strings in a stable order (methods first).
+
+    Examples
+    --------
+    >>> refs = citations(["gabbro"])
+    >>> any("Abramson" in r for r in refs) and any("Karato" in r for r in refs)
+    True
+    """
+    chosen = [ROCKS[r] if isinstance(r, str) else r for r in (rocks or ROCKS)]
+    chosen += [ROCKS["serpentinite"], ROCKS["antigorite_serpentinite"]]
+    minerals_used = {m for r in chosen for m in r.modes}
+    out: list[str] = []
+    _collect(_read("methods"), out)
+    mineral_table = _read("minerals")["minerals"]
+    for name in sorted(minerals_used):
+        _collect(mineral_table[name], out)
+    for rock in chosen:
+        if rock.source:
+            out.append(f"{rock.name}: {rock.source}")
+    for name in _DATA_FILES[1:]:
+        _collect(_read(name), out)
+    return list(dict.fromkeys(out))
