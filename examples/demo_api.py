@@ -13,14 +13,9 @@ import matplotlib
 matplotlib.use("Agg")
 
 import bayescrust as bc  # noqa: E402
-from bayescrust.inference import priors as P  # noqa: E402
-from bayescrust.inference.api import exact_layer, invert_layer  # noqa: E402
-from bayescrust.inference.layer import Layer  # noqa: E402
-from bayescrust.inference.thermal_priors import (  # noqa: E402
-    HalfSpaceCooling,
-    HotAxial,
-    UniformTemperature,
-)
+from bayescrust import HalfSpaceCooling, HotAxial, Layer, UniformTemperature  # noqa: E402
+from bayescrust import exact_layer, invert_layer  # noqa: E402
+from bayescrust import priors as P  # noqa: E402
 from bayescrust.report import figures, to_markdown  # noqa: E402
 from bayescrust.report.caution import CAUTION  # noqa: E402
 
