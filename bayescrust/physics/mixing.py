@@ -361,10 +361,36 @@ MIXING_RULES = {
     "hashin_shtrikman": hs_average,
 }
 
-#: The same rules without input validation, for the forward-model hot path.
+def _positive_voigt_reuss(f, k, g):
+    """Voigt and Reuss averages of K and G for strictly positive moduli (no zero-phase guard)."""
+    return (
+        np.einsum("...i,...i->...", f, k),
+        1.0 / np.einsum("...i,...i->...", f, 1.0 / k),
+        np.einsum("...i,...i->...", f, g),
+        1.0 / np.einsum("...i,...i->...", f, 1.0 / g),
+    )
+
+
+def _positive_hill(f, k, g):
+    kv, kr, gv, gr = _positive_voigt_reuss(f, k, g)
+    return 0.5 * (kv + kr), 0.5 * (gv + gr)
+
+
+def _positive_voigt(f, k, g):
+    kv, _, gv, _ = _positive_voigt_reuss(f, k, g)
+    return kv, gv
+
+
+def _positive_reuss(f, k, g):
+    _, kr, _, gr = _positive_voigt_reuss(f, k, g)
+    return kr, gr
+
+
+#: The same rules without input validation, for the forward-model hot path, where every phase
+#: is a mineral with strictly positive moduli (fluids enter through ``inclusions`` instead).
 _MIXING_KERNELS = {
-    "voigt": _voigt_rule,
-    "reuss": _reuss_rule,
-    "hill": _hill_rule,
+    "voigt": _positive_voigt,
+    "reuss": _positive_reuss,
+    "hill": _positive_hill,
     "hashin_shtrikman": _hs_average,
 }

@@ -207,3 +207,17 @@ def test_bad_moduli_raise(fn):
         fn([0.5, 0.6], [10.0, 1.0], [5.0, 5.0])
     with pytest.raises(ValueError, match="does not broadcast"):
         fn([0.5, 0.5], [10.0, 1.0, 3.0], [5.0, 5.0])
+
+
+def test_hot_path_kernels_equal_public_rules_for_positive_moduli():
+    # the forward model's unguarded kernels (minerals only: moduli > 0) equal the public rules
+    from bayescrust.physics.mixing import _MIXING_KERNELS, MIXING_RULES
+
+    rng = np.random.default_rng(3)
+    f = rng.dirichlet(np.ones(4), size=200)
+    f[:5, 0] = 0.0
+    f[:5] /= f[:5].sum(-1, keepdims=True)
+    k = rng.uniform(30, 200, (200, 4))
+    g = rng.uniform(10, 110, (200, 4))
+    for name, rule in MIXING_RULES.items():
+        np.testing.assert_allclose(_MIXING_KERNELS[name](f, k, g), rule(f, k, g), rtol=1e-12)
