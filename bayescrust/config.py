@@ -497,7 +497,8 @@ class _Reader:
             for b in ("lo", "hi"):
                 if b in spec.params:
                     self.number(f"{key}.{b}", spec.params[b], lo, hi, unit=unit)
-            if "lo" in spec.params and "hi" in spec.params and spec.params["lo"] >= spec.params["hi"]:
+            prm = spec.params
+            if "lo" in prm and "hi" in prm and prm["lo"] >= prm["hi"]:
                 self.got(f"{key}.hi", spec.params["hi"], f"a number > lo ({spec.params['lo']:g})")
             if spec.kind == "loguniform" and spec.params["lo"] <= 0:
                 self.got(f"{key}.lo", spec.params["lo"], "a number > 0 for a log-uniform prior")
@@ -544,13 +545,15 @@ class _Reader:
             out[k] = self.prior(f"{key}.{k}", v, k, rocks)
         fixed = [k for k in out if k in rocks]
         if fixed and "fractions" in out:
-            self.fail(f"{key}.fractions", "give either fractions or fixed per-rock values, not both")
+            self.fail(f"{key}.fractions",
+                      "give either fractions or fixed per-rock values, not both")
         if fixed and set(fixed) != set(rocks):
             missing = [r for r in rocks if r not in fixed]
             self.fail(f"{key}.{missing[0]}", f"missing; fixing rock fractions needs a value for "
                                            f"every rock ({', '.join(rocks)})")
         if fixed and abs(sum(out[k].params["value"] for k in fixed) - 1.0) > 1e-6:
-            self.got(key, {k: out[k].params["value"] for k in fixed}, "fixed fractions summing to 1")
+            self.got(key, {k: out[k].params["value"] for k in fixed},
+                     "fixed fractions summing to 1")
         return out
 
     def hypotheses(self, key, value, rocks_allowed) -> dict[str, dict[str, tuple[float, float]]]:
@@ -560,7 +563,8 @@ class _Reader:
         allowed = tuple(PARAMETER_RANGES) + tuple(rocks_allowed) + _derived()
         out = {}
         for hname, conds in table.items():
-            hkey = f"{key}.{hname!r}" if not re.fullmatch(r"[A-Za-z0-9_-]+", hname) else f"{key}.{hname}"
+            bare = re.fullmatch(r"[A-Za-z0-9_-]+", hname)
+            hkey = f"{key}.{hname}" if bare else f"{key}.{hname!r}"
             conds = self.table(hkey, conds)
             if not conds:
                 self.got(hkey, conds, "at least one condition such as temperature_c = [900, 1400]")
@@ -599,7 +603,8 @@ class _Reader:
                     continue
                 pk, v = f"{tkey}.{p}", body[p]
                 if what == "prior" and isinstance(v, dict):
-                    spec = self._dist(pk, v, ("uniform", "loguniform", "normal", "truncated_normal"))
+                    spec = self._dist(pk, v,
+                                      ("uniform", "loguniform", "normal", "truncated_normal"))
                     self._bounds(pk, spec, lo, hi, unit)
                     if p == "age_myr" and spec.kind in ("normal",):
                         self.got(f"{pk}.dist", spec.kind,
@@ -683,7 +688,8 @@ class _Reader:
         top = self.number(f"{key}.top_km", t["top_km"], 0.0, 100.0, unit="km")
         bottom = self.number(f"{key}.bottom_km", t["bottom_km"], 0.0, 100.0, unit="km")
         if bottom <= top:
-            self.got(f"{key}.bottom_km", t["bottom_km"], f"a depth greater than top_km ({top:g} km)")
+            self.got(f"{key}.bottom_km", t["bottom_km"],
+                     f"a depth greater than top_km ({top:g} km)")
         obs = {q: self.observation(f"{key}.{q}", t[q], q) for q in OBSERVABLES if q in t}
         if not obs:
             self.fail(key, "no observation; expected at least one of vp, vs, vp_vs, density "
@@ -742,14 +748,17 @@ class _Reader:
         elif names:
             tp = names[0]
         priors = self.priors("priors", data["priors"], rocks) if "priors" in data else {}
-        hyps = self.hypotheses("hypotheses", data["hypotheses"], rocks) if "hypotheses" in data else None
+        hyps = None
+        if "hypotheses" in data:
+            hyps = self.hypotheses("hypotheses", data["hypotheses"], rocks)
         sampler = self.sampler("sampler", data["sampler"]) if "sampler" in data else SamplerSpec()
         if "layers" not in data:
             self.fail("layers", "missing; expected at least one [[layers]] table")
         raw_layers = data["layers"]
         if not isinstance(raw_layers, list) or not raw_layers:
             self.got("layers", raw_layers, "one or more [[layers]] tables")
-        layers = tuple(self.layer(f"layers[{i}]", v, rocks, names) for i, v in enumerate(raw_layers))
+        layers = tuple(self.layer(f"layers[{i}]", v, rocks, names)
+                       for i, v in enumerate(raw_layers))
         seen = set()
         for i, lay in enumerate(layers):
             if lay.name in seen:
@@ -762,7 +771,8 @@ class _Reader:
             for hname, conds in (hy or {}).items():
                 for p in conds:
                     if p in known_rocks() and p not in use_rocks:
-                        where = f"layers[{i}].hypotheses" if lay.hypotheses is not None else "hypotheses"
+                        where = (f"layers[{i}].hypotheses" if lay.hypotheses is not None
+                                 else "hypotheses")
                         self.fail(f"{where}.{hname}.{p}",
                                   f"rock {p!r} is not among the rocks of layer {lay.name!r} "
                                   f"({', '.join(use_rocks)})")

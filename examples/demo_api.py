@@ -13,8 +13,14 @@ import matplotlib
 matplotlib.use("Agg")
 
 import bayescrust as bc  # noqa: E402
-from bayescrust import HalfSpaceCooling, HotAxial, Layer, UniformTemperature  # noqa: E402
-from bayescrust import exact_layer, invert_layer  # noqa: E402
+from bayescrust import (  # noqa: E402
+    HalfSpaceCooling,
+    HotAxial,
+    Layer,
+    UniformTemperature,
+    exact_layer,
+    invert_layer,
+)
 from bayescrust import priors as P  # noqa: E402
 from bayescrust.report import figures, to_markdown  # noqa: E402
 from bayescrust.report.caution import CAUTION  # noqa: E402
