@@ -69,11 +69,13 @@ def hypothesis_table(prior_p: dict, post_p: dict, post_se: dict):
     rows = []
     for name in post_p:
         pi, p = float(prior_p[name]), float(post_p[name])
-        with np.errstate(divide="ignore", invalid="ignore"):
-            bf = (p / (1 - p)) / (pi / (1 - pi)) if 0 < pi < 1 else math.nan
-            if 0 < pi < 1 and p in (0.0, 1.0):
-                bf = 0.0 if p == 0.0 else math.inf
-            lbf = math.log10(bf) if bf > 0 else (-math.inf if bf == 0 else math.nan)
+        if not 0 < pi < 1:
+            bf = math.nan  # a hypothesis the prior excludes (or is sure of) has no Bayes factor
+        elif p in (0.0, 1.0):
+            bf = 0.0 if p == 0.0 else math.inf  # python floats raise on division by zero
+        else:
+            bf = (p / (1 - p)) / (pi / (1 - pi))
+        lbf = math.log10(bf) if bf > 0 else (-math.inf if bf == 0 else math.nan)
         rows.append({
             "hypothesis": name, "prior_probability": pi, "posterior_probability": p,
             "posterior_mcse": float(post_se[name]), "bayes_factor": bf,

@@ -189,3 +189,14 @@ def test_student_t_likelihood_and_fixed_everything():
                          forward={"inclusion_scheme": "kuster_toksoz"}, seed=1, n_draws=10)
     vp = res.idata.posterior["vp"].values.ravel()[0]
     assert res.log_evidence == pytest.approx(stats.norm(vp, 0.1).logpdf(7.1), rel=1e-12)
+
+
+def test_hypothesis_table_handles_certain_posteriors():
+    # a posterior probability of exactly 0 or 1 gives a Bayes factor of 0 or infinity, not an error
+    from bayescrust.inference.results import hypothesis_table
+
+    t = hypothesis_table({"a": 0.3, "b": 0.7, "c": 0.0}, {"a": 1.0, "b": 0.0, "c": 0.0},
+                         {"a": 0.0, "b": 0.0, "c": 0.0})
+    assert t.loc["a", "bayes_factor"] == float("inf")
+    assert t.loc["b", "bayes_factor"] == 0.0
+    assert np.isnan(t.loc["c", "bayes_factor"])
