@@ -431,28 +431,14 @@ class LayerModel:
         return out
 
     def _forward(self, f, q):
-        # With differential effective-medium integration (costly), points without pores or
-        # effective melt are evaluated in a separate call that skips the inclusion scheme.
-        args = (q["temperature_c"], q["porosity"], q["aspect_ratio"],
-                q["melt_fraction_effective"], q["melt_aspect_ratio"],
-                q["serpentinization_effective"])
-        incl = (args[1] > 0) | (args[3] > 0)
-        split = getattr(self.forward, "inclusion_scheme", None) == "dem"
-        if not split or incl.all() or not incl.any():
-            groups = [slice(None)]
-        else:
-            groups = [incl, ~incl]
-        out = np.empty((3, f.shape[0]))
         with np.errstate(all="ignore"):
-            for g in groups:
-                t, phi, ar, melt, mar, serp = (a[g] for a in args)
-                vp, vs, rho = self.forward(
-                    np.clip(f[g], 0.0, 1.0), t, self.pressure_gpa, porosity=phi,
-                    aspect_ratio=ar, melt_fraction=melt, melt_aspect_ratio=mar,
-                    serpentinization=serp,
-                )
-                out[0, g], out[1, g], out[2, g] = vp, vs, rho
-        return out[0], out[1], out[2]
+            return self.forward(
+                np.clip(f, 0.0, 1.0), q["temperature_c"], self.pressure_gpa,
+                porosity=q["porosity"], aspect_ratio=q["aspect_ratio"],
+                melt_fraction=q["melt_fraction_effective"],
+                melt_aspect_ratio=q["melt_aspect_ratio"],
+                serpentinization=q["serpentinization_effective"],
+            )
 
     def log_likelihood_terms(self, pred: dict, observed: dict | None = None) -> dict:
         """Per-datum log-likelihood of predictions (arrays broadcasting together).

@@ -338,16 +338,26 @@ class ForwardModel:
         rho_s = np.einsum("ij,ij->i", x, rho_m)
         k_s, g_s = mixing._MIXING_KERNELS[self.mixing](x, k_m, g_m)
         rho = rho_s
-        if np.any(phi > 0) or np.any(melt > 0):
-            rho_w, k_w = fluids._seawater(t_c, p_pore, self.salinity)
-            rho_l, k_l = fluids._basaltic_melt(t_c, p)
+        has = (phi > 0) | (melt > 0)
+        if has.any():
+            # the inclusion scheme runs on the rows that have pores or melt only
+            i = slice(None) if has.all() else np.flatnonzero(has)
+            if np.any(phi[i] > 0):
+                rho_w, k_w = fluids._seawater(t_c[i], p_pore[i], self.salinity)
+            else:  # melt only: the water phase has zero volume, its properties are unused
+                rho_w = k_w = np.ones_like(t_c[i])
+            if np.any(melt[i] > 0):
+                rho_l, k_l = fluids._basaltic_melt(t_c[i], p[i])
+            else:
+                rho_l = k_l = np.ones_like(t_c[i])
             k_i = np.stack([k_w, k_l], axis=-1)
-            frac = np.stack([phi, melt], axis=-1)
-            aspect = np.stack([ar, mar], axis=-1)
-            k_s, g_s = inclusions._INCLUSION_KERNELS[self.inclusion_scheme](
-                k_s, g_s, k_i, np.zeros_like(k_i), aspect, frac
+            frac = np.stack([phi[i], melt[i]], axis=-1)
+            aspect = np.stack([ar[i], mar[i]], axis=-1)
+            k_s, g_s, rho = k_s.copy(), g_s.copy(), rho_s.copy()
+            k_s[i], g_s[i] = inclusions._INCLUSION_KERNELS[self.inclusion_scheme](
+                k_s[i], g_s[i], k_i, np.zeros_like(k_i), aspect, frac
             )
-            rho = (1.0 - phi - melt) * rho_s + phi * rho_w + melt * rho_l
+            rho[i] = (1.0 - phi[i] - melt[i]) * rho_s[i] + phi[i] * rho_w + melt[i] * rho_l
         vp = np.sqrt((k_s + 4.0 / 3.0 * g_s) / rho)
         vs = np.sqrt(g_s / rho)
         if self.anelastic:
