@@ -20,14 +20,12 @@ Numbers live in ``physics/data/anelastic.toml``.
 
 from __future__ import annotations
 
-import tomllib
 from collections.abc import Callable
-from importlib import resources
-from types import MappingProxyType
 
 import numpy as np
 
 from bayescrust.physics._checks import as_float_array, check_range
+from bayescrust.physics._data import load_table
 
 __all__ = [
     "ANELASTIC_DATA",
@@ -38,13 +36,8 @@ __all__ = [
 ]
 
 
-def _load() -> MappingProxyType:
-    text = resources.files("bayescrust.physics").joinpath("data/anelastic.toml").read_text("utf-8")
-    return MappingProxyType(tomllib.loads(text))
-
-
 #: Parsed ``data/anelastic.toml`` (read-only mapping).
-ANELASTIC_DATA = _load()
+ANELASTIC_DATA = load_table("anelastic")
 
 _R = float(ANELASTIC_DATA["constants"]["gas_constant_j_mol_k"])
 _Q_INV_MAX = float(ANELASTIC_DATA["constants"]["q_inv_max"])

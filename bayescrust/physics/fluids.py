@@ -11,24 +11,16 @@ nearest edge of the fitted range, and the result is always finite.
 
 from __future__ import annotations
 
-import tomllib
-from importlib import resources
-from types import MappingProxyType
-
 import numpy as np
 
 from bayescrust.physics._checks import check_range
+from bayescrust.physics._data import load_table
 
 __all__ = ["FLUID_DATA", "basaltic_melt", "seawater"]
 
 
-def _load() -> MappingProxyType:
-    text = resources.files("bayescrust.physics").joinpath("data/fluids.toml").read_text("utf-8")
-    return MappingProxyType(tomllib.loads(text))
-
-
 #: Parsed ``data/fluids.toml`` (read-only mapping).
-FLUID_DATA = _load()
+FLUID_DATA = load_table("fluids")
 
 _BW = FLUID_DATA["batzle_wang_1992"]
 _RHO_W = np.asarray(_BW["water_density_coeffs"], dtype=float)  # [T power, P power]

@@ -531,9 +531,9 @@ def dem(k_m, g_m, k_i, g_i, aspect_i, frac_i):
     :math:`L` the log-change of one Euler step over the whole range: relative error < 1e-4
     against 1024 steps for fluid-filled inclusions, :math:`\\phi \\le 0.3`, aspect ratio
     :math:`\\ge 10^{-3}` (measured in the tests); dilute or round inclusions take one or two
-    steps, crack-rich Layer 2 up to ~30. Both moduli are floored at 1e-12 of the matrix modulus; dry thin
-    cracks far beyond :math:`\\phi/\\alpha \\sim 1` reach that floor (there the result means
-    "zero", it is not accurate).
+    steps, crack-rich Layer 2 up to ~30. Both moduli are floored at 1e-12 of the matrix
+    modulus; dry thin cracks far beyond :math:`\\phi/\\alpha \\sim 1` reach that floor (there
+    the result means "zero", it is not accurate).
 
     References
     ----------

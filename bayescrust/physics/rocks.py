@@ -16,15 +16,14 @@ Serpentinisation replaces, by volume, a fraction of each ultramafic rock by serp
 from __future__ import annotations
 
 import difflib
-import tomllib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
-from importlib import resources
 
 import numpy as np
 
 from . import anelastic, fluids, inclusions, minerals, mixing
 from ._checks import as_float_array, check_range
+from ._data import load_table
 
 __all__ = [
     "ROCKS",
@@ -68,8 +67,7 @@ class Rock:
 
 
 def _load_rocks() -> dict[str, Rock]:
-    text = resources.files("bayescrust.physics").joinpath("data/rocks.toml").read_text("utf-8")
-    table = tomllib.loads(text)["rocks"]
+    table = load_table("rocks")["rocks"]
     out = {}
     for name, row in table.items():
         modes = {str(k): float(v) for k, v in row["modes"].items()}

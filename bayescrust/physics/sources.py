@@ -2,10 +2,9 @@
 
 from __future__ import annotations
 
-import tomllib
-from collections.abc import Iterable
-from importlib import resources
+from collections.abc import Iterable, Mapping
 
+from ._data import load_table
 from .rocks import ROCKS, Rock
 
 __all__ = ["citations"]
@@ -13,14 +12,9 @@ __all__ = ["citations"]
 _DATA_FILES = ("methods", "fluids", "anelastic", "thermal")
 
 
-def _read(name: str) -> dict:
-    path = resources.files("bayescrust.physics").joinpath(f"data/{name}.toml")
-    return tomllib.loads(path.read_text("utf-8"))
-
-
 def _collect(node, out: list[str]) -> None:
     """Append every value of a key starting with ``source`` in a nested TOML table."""
-    if isinstance(node, dict):
+    if isinstance(node, Mapping):
         for key, value in node.items():
             if key.startswith("source"):
                 for item in value if isinstance(value, list) else [value]:
@@ -54,13 +48,13 @@ def citations(rocks: Iterable[str | Rock] | None = None) -> list[str]:
     chosen += [ROCKS["serpentinite"], ROCKS["antigorite_serpentinite"]]
     minerals_used = {m for r in chosen for m in r.modes}
     out: list[str] = []
-    _collect(_read("methods"), out)
-    mineral_table = _read("minerals")["minerals"]
+    _collect(load_table("methods"), out)
+    mineral_table = load_table("minerals")["minerals"]
     for name in sorted(minerals_used):
         _collect(mineral_table[name], out)
     for rock in chosen:
         if rock.source:
             out.append(f"{rock.name}: {rock.source}")
     for name in _DATA_FILES[1:]:
-        _collect(_read(name), out)
+        _collect(load_table(name), out)
     return list(dict.fromkeys(out))

@@ -7,14 +7,11 @@ read from that file.
 
 from __future__ import annotations
 
-import tomllib
-from importlib import resources
-from types import MappingProxyType
-
 import numpy as np
 from scipy.special import erf, erfc
 
 from bayescrust.physics._checks import check_range
+from bayescrust.physics._data import load_table
 
 __all__ = [
     "THERMAL_DATA",
@@ -27,13 +24,8 @@ __all__ = [
 ]
 
 
-def _load() -> MappingProxyType:
-    text = resources.files("bayescrust.physics").joinpath("data/thermal.toml").read_text("utf-8")
-    return MappingProxyType(tomllib.loads(text))
-
-
 #: Parsed ``data/thermal.toml`` (read-only mapping).
-THERMAL_DATA = _load()
+THERMAL_DATA = load_table("thermal")
 
 _PER = THERMAL_DATA["peridotite_solidus"]
 _GAB = THERMAL_DATA["gabbro_solidus"]
