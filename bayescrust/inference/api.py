@@ -119,7 +119,8 @@ def invert_layer(
     seed : int, optional / rng : numpy.random.Generator or int, optional
         Source of all randomness (SPEC 7); the same seed gives bit-identical results.
     n_walkers : int, optional
-        Ensemble size (default ``max(32, 8 * ndim)``, rounded up to even).
+        Ensemble size (default ``max(64, 16 * ndim)``, rounded up to even; a larger ensemble
+        gives the KDE move a better density to propose from).
     min_ess, max_steps, tau_factor : see :func:`bayescrust.inference.sampler.run_ensemble`.
     evidence : bool
         Estimate the log-evidence by importance sampling (``n_evidence`` draws from a Student-t
@@ -141,7 +142,7 @@ def invert_layer(
     t0 = time.perf_counter()
     if d == 0:
         raise ValueError("every parameter is fixed: nothing to sample (use exact_layer)")
-    w = int(n_walkers) if n_walkers is not None else max(32, 8 * d)
+    w = int(n_walkers) if n_walkers is not None else max(64, 16 * d)
     if w < 2 * d + 2:
         raise ValueError(f"n_walkers must be >= 2 * ndim + 2 = {2 * d + 2}; got {w}")
     w += w % 2

@@ -80,6 +80,22 @@ def test_snooker_move_alone_targets_the_posterior():
     _check_moments(run, mean, cov)
 
 
+def test_kde_move_alone_targets_the_posterior():
+    # The KDE independence move is ours too (emcee's draws from numpy's global state): on its
+    # own it must leave the Gaussian invariant, and a degenerate ensemble must not crash it.
+    from bayescrust.inference.moves import kde_move
+
+    mean, cov, _, log_prob, _, sample_prior = _problem()
+    rng = np.random.default_rng(9)
+    run = run_ensemble(log_prob, sample_prior(rng, 32), rng=rng, min_ess=2000,
+                       moves=[kde_move()])
+    _check_moments(run, mean, cov)
+    flat = np.repeat(sample_prior(rng, 1), 32, axis=0)  # all walkers equal: singular KDE
+    move = kde_move()
+    q, factor = move.get_proposal(flat[:16], [flat[16:]], np.random.RandomState(0))
+    assert np.array_equal(q, flat[:16]) and np.all(factor == -np.inf)
+
+
 def test_max_steps_gives_convergence_warning():
     _, _, _, log_prob, _, sample_prior = _problem()
     rng = np.random.default_rng(3)
