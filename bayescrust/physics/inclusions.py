@@ -91,20 +91,23 @@ def _theta_f(alpha):
     alpha = np.asarray(alpha, dtype=float)
     u = 1.0 - alpha * alpha
     near = np.abs(u) < _SERIES_U
-    us = np.where(near, u, 0.0)
-    theta_s = alpha * np.polyval(_G_COEF, us)
-    f_s = alpha * alpha * np.polyval(_H_COEF, us)
-    # closed forms away from the sphere
-    uo = np.where(u >= _SERIES_U, u, 1.0)
-    ao = np.where(u >= _SERIES_U, alpha, 0.0)
-    theta_o = ao / uo**1.5 * (np.arccos(ao) - ao * np.sqrt(uo))
-    up = np.where(u <= -_SERIES_U, -u, 1.0)
-    ap = np.where(u <= -_SERIES_U, alpha, math.sqrt(2.0))
-    sp = np.sqrt(up)
-    theta_p = ap / up**1.5 * (ap * sp - np.arccosh(ap))
-    theta = np.where(near, theta_s, np.where(u > 0.0, theta_o, theta_p))
+    oblate = u >= _SERIES_U
+    # closed forms away from the sphere (oblate: the usual case of pores, cracks and melt films)
+    uo = np.where(oblate, u, 1.0)
+    ao = np.where(oblate, alpha, 0.0)
+    theta = ao / uo**1.5 * (np.arccos(ao) - ao * np.sqrt(uo))
+    # the series and prolate branches cost ~60 array operations: only when some element needs them
+    if not np.all(oblate):
+        up = np.where(u <= -_SERIES_U, -u, 1.0)
+        ap = np.where(u <= -_SERIES_U, alpha, math.sqrt(2.0))
+        theta_p = ap / up**1.5 * (ap * np.sqrt(up) - np.arccosh(ap))
+        theta = np.where(oblate, theta, theta_p)
     uc = np.where(near, 1.0, u)
-    f = np.where(near, f_s, alpha * alpha * (3.0 * theta - 2.0) / uc)
+    f = alpha * alpha * (3.0 * theta - 2.0) / uc
+    if np.any(near):
+        us = np.where(near, u, 0.0)
+        theta = np.where(near, alpha * np.polyval(_G_COEF, us), theta)
+        f = np.where(near, alpha * alpha * np.polyval(_H_COEF, us), f)
     return theta, f
 
 
