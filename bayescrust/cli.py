@@ -581,6 +581,13 @@ def cmd_forward(args) -> int:
               "aspect_ratio": ("--aspect-ratio", args.aspect_ratio),
               "melt_fraction": ("--melt-fraction", args.melt_fraction),
               "serpentinization": ("--serpentinization", args.serpentinization)}
+    if args.list:
+        _print_catalogue()
+        return 0
+    for opt, v in (("--rock", args.rock), ("--temperature", args.temperature),
+                   ("--pressure", args.pressure)):
+        if v is None:
+            raise InputError(f"forward: {opt} is required (or use --list)")
     vals = {k: _values(opt, v) for k, (opt, v) in inputs.items() if v is not None}
     ranged = [k for k, v in vals.items() if v.size > 1]
     if len(ranged) > 1:
@@ -588,16 +595,18 @@ def cmd_forward(args) -> int:
                          f"{inputs[ranged[0]][0]} already is")
     from .config import known_rocks
 
-    if args.rock not in known_rocks():
+    minerals = [m["name"] for m in bc.list_minerals()]
+    if args.rock not in known_rocks() and args.rock not in minerals:
         import difflib
 
-        hint = difflib.get_close_matches(args.rock, known_rocks(), n=1)
+        hint = difflib.get_close_matches(args.rock, [*known_rocks(), *minerals], n=1)
         extra = f" (did you mean {hint[0]!r}?)" if hint else ""
-        raise InputError(f"--rock: unknown rock {args.rock!r}{extra}; known rocks: "
-                         f"{', '.join(known_rocks())}")
+        raise InputError(f"--rock: unknown rock or mineral {args.rock!r}{extra}; known rocks: "
+                         f"{', '.join(known_rocks())}; minerals: {', '.join(minerals)}")
+    rock = args.rock if args.rock in known_rocks() else {args.rock: 1.0}  # one-mineral rock
     kw = {k: (v if v.size > 1 else float(v[0])) for k, v in vals.items()}
     try:
-        props = bc.rock_properties(args.rock, **kw)
+        props = bc.rock_properties(rock, **kw)
     except ValueError as exc:
         raise InputError(f"forward: {exc}") from None
     n = max([v.size for v in vals.values()] + [1])
@@ -637,6 +646,20 @@ def cmd_forward(args) -> int:
         for r in rows:
             print("  ".join(f"{r[c]:14.5g}" for c in cols))
     return 0
+
+
+def _print_catalogue() -> None:
+    """Print the built-in minerals and rocks with their sources (``forward --list``)."""
+    import bayescrust as bc
+
+    print("# minerals: name, density (g/cm^3), Ks, G (GPa) at 25 C and 1 bar; source [tag]")
+    for m in bc.list_minerals():
+        print(f"{m['name']:<24} {m['rho']:6.3f} {m['ks']:7.1f} {m['g']:6.1f}  "
+              f"{m['source']} [{m['tag']}]")
+    print("\n# rocks: name, modal mineralogy by volume; source [tag]")
+    for r in bc.list_rocks():
+        modes = ", ".join(f"{k} {v:.2f}" for k, v in r["modes"].items())
+        print(f"{r['name']:<24} {modes}\n{'':<24} {r['source']} [{r['tag']}]")
 
 
 # ---------------------------------------------------------------------------------------------
@@ -797,9 +820,11 @@ def _parser() -> argparse.ArgumentParser:
     sp = sub.add_parser("forward", help="forward model: Vp, Vs, density of one rock",
                         description="Values are numbers or ranges start:stop:count (one range "
                                     "at most), e.g. --temperature 0:1200:13.")
-    sp.add_argument("--rock", required=True, help="rock name (see bayescrust check docs)")
-    sp.add_argument("--temperature", required=True, metavar="C", help="temperature (deg C)")
-    sp.add_argument("--pressure", required=True, metavar="GPA", help="pressure (GPa)")
+    sp.add_argument("--rock", help="rock or mineral name (see --list)")
+    sp.add_argument("--temperature", metavar="C", help="temperature (deg C)")
+    sp.add_argument("--pressure", metavar="GPA", help="pressure (GPa)")
+    sp.add_argument("--list", action="store_true",
+                    help="list the built-in minerals and rocks with their sources, then exit")
     sp.add_argument("--porosity", metavar="FRAC", help="seawater-filled porosity (fraction)")
     sp.add_argument("--aspect-ratio", metavar="A", help="pore aspect ratio")
     sp.add_argument("--melt-fraction", metavar="FRAC", help="melt volume fraction")

@@ -169,3 +169,17 @@ def test_run_failure_exit_1_no_output(small_study, tmp_path, monkeypatch, capsys
     assert "simulated failure" in err and "Traceback" not in err
     assert not out.exists()
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".failed")]
+
+
+def test_forward_lists_catalogue_and_accepts_a_mineral(capsys):
+    # issue: "a user can ask for one mineral at (P, T), and list the minerals and rocks with
+    # their sources"; olivine Fo90 at 25 C, 1 bar: Vp 8.341 (Abramson et al. 1997, verified)
+    assert main(["forward", "--list"]) == 0
+    out = capsys.readouterr().out
+    assert "Abramson" in out and "harzburgite" in out and "[verified]" in out
+    assert main(["forward", "--rock", "olivine", "--temperature", "25", "--pressure", "0",
+                 "--json"]) == 0
+    rows = json.loads(capsys.readouterr().out)["rows"]
+    assert abs(rows[0]["vp"] - 8.341) < 0.005
+    assert main(["forward", "--rock", "olivin", "--temperature", "25", "--pressure", "0"]) == 2
+    assert "did you mean 'olivine'" in capsys.readouterr().err
