@@ -55,11 +55,11 @@ AMBIENT = [
     ),
     (
         "clinopyroxene",
-        7.49,
-        4.34,
-        0.01,
-        "augite mid-range rho 3.35, K 104, G 63 [from memory, low "
-        "confidence]; 0.01 for the 2-figure inputs",
+        7.917,
+        4.590,
+        0.005,
+        "0.8 diopside (Sang et al. 2011, verified) + 0.2 hedenbergite (Kandelin & Weidner "
+        "1988 Cij, verified; Hill average computed): rho 3.347, K 115.8, G 70.5 [computed]",
     ),
     (
         "diopside",
