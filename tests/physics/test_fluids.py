@@ -18,9 +18,9 @@ def sound_speed_km_s(rho, k):
 
 def test_seawater_0c_density_vs_eos80():
     # EOS-80 one-atmosphere density (Millero & Poisson 1981), S = 35, 0 C: 1.0281 g/cm^3
-    # (reference sheet 1c, verified; also 1028.106 kg/m^3 recomputed from the published
-    # coefficients). Tolerance 0.5 %: Batzle & Wang treat the salt as NaCl, which is ~0.4 %
-    # lighter than sea salt at equal weight fraction.
+    # [verified; also 1028.106 kg/m^3 computed from the published EOS-80 coefficients].
+    # Tolerance 0.5 %: Batzle & Wang treat the salt as NaCl, which is ~0.4 % lighter than sea
+    # salt at equal weight fraction.
     rho, _ = seawater(0.0, ATM_GPA, 0.035)
     assert rho == pytest.approx(1.0281, rel=5e-3)
 
@@ -40,18 +40,19 @@ def test_pure_water_20c_sound_speed():
 
 
 def test_pure_water_25c_density_and_modulus():
-    # Pure water 25 C, 1 atm: rho 0.997 g/cm^3, K 2.25 GPa (reference sheet 1c, common practice).
+    # Pure water 25 C, 1 atm: rho 0.997 g/cm^3, K 2.25 GPa [common practice].
     # Tolerance 0.3 % in rho (B&W eq. 27a fit accuracy) and 1 % in K.
     rho, k = seawater(25.0, ATM_GPA, 0.0)
     assert rho == pytest.approx(0.997, rel=3e-3)
     assert k == pytest.approx(2.25, rel=1e-2)
 
 
-def test_c20_seawater_2c_surface_and_in_situ():
-    # Reference sheet C20 [computed from EOS-80 + Mackenzie]: S 35, 2 C, 1 atm: rho 1.0280,
-    # K 2.185 GPa; in situ at 4000 m (p ~ 41 MPa): K ~ 2.44 GPa (+-2 %).
-    # Tolerances: rho 0.5 % and K 1 % at 1 atm (NaCl vs sea salt, see above); 2 % in situ as
-    # stated on the sheet (its value is itself a +-1-2 % integration).
+def test_seawater_2c_surface_and_in_situ():
+    # [computed: K = rho c^2 from EOS-80 density (Millero & Poisson 1981) and Mackenzie (1981)
+    # sound speed]: S 35, 2 C, 1 atm: rho 1.0280, K 2.185 GPa; in situ at 4000 m
+    # (p ~ 41 MPa): K ~ 2.44 GPa. Tolerances: rho 0.5 % and K 1 % at 1 atm (NaCl vs sea salt,
+    # see above); 2 % in situ (the expected value itself carries +-1-2 % from combining the
+    # two fits at depth).
     rho, k = seawater(2.0, ATM_GPA, 0.035)
     assert rho == pytest.approx(1.0280, rel=5e-3)
     assert k == pytest.approx(2.185, rel=1e-2)
@@ -69,7 +70,8 @@ def test_brine_modulus_maximum_between_40_and_80c():
 
 def test_basaltic_melt_reference_values():
     # Rigden, Ahrens & Stolper (1984) abstract [verified]: Ks ~ 23 GPa (230 kbar), K' ~ 4.
-    # Density 2.65-2.75 g/cm^3 near 1200 C at 1 bar (reference sheet 1c, from memory).
+    # Density 2.65-2.75 g/cm^3 near 1200 C at 1 bar [from memory; of the order given by the
+    # Lange & Carmichael 1987 GCA 51:2931 partial molar volumes for basaltic liquids].
     rho, k = basaltic_melt(1200.0, 0.0)
     assert k == pytest.approx(23.0)
     assert 2.65 <= rho <= 2.75

@@ -1,10 +1,11 @@
 """Tests of bayescrust.physics.inclusions: P/Q limits, reference values, identities, DEM accuracy.
 
-Reference values are from the project's physics reference sheet, section 5 and check cases C6,
-C9-C11, all tagged [computed] there: matrix K 80, G 40 GPa; water K 2.3, G 0; dry pores K = G = 0.
-The shape-specific P, Q formulas below (sphere, needle, penny crack) are the sheet's transcription
-of Berryman (1980) / Mavko, Mukerji & Dvorkin (2009) Table 4.8.1; they are independent of the
-general-spheroid code they check.
+Reference values are [computed] from the Kuster & Toksöz (1974), Berryman (1980) self-consistent
+and Norris (1985) / Berryman, Pride & Wang (2002) DEM formulas as given in Mavko, Mukerji &
+Dvorkin 2009 (Rock Physics Handbook, §4.7-4.11), with matrix K 80, G 40 GPa; water K 2.3, G 0;
+dry pores K = G = 0. The shape-specific P, Q formulas below (sphere, needle, penny crack) are
+transcribed from Berryman (1980) / Mavko, Mukerji & Dvorkin (2009) Table 4.8.1; they are
+independent of the general-spheroid code they check.
 """
 
 import numpy as np
@@ -28,7 +29,7 @@ SCHEMES = sorted(INCLUSION_SCHEMES)
 
 
 # ---------------------------------------------------------------------------------------------
-# shape-specific formulas (Mavko et al. 2009 Table 4.8.1, as on the reference sheet)
+# shape-specific formulas (Berryman 1980; Mavko et al. 2009 Table 4.8.1)
 # ---------------------------------------------------------------------------------------------
 def _beta(k, g):
     return g * (3 * k + g) / (3 * k + 4 * g)
@@ -122,9 +123,10 @@ def test_pq_broadcasts():
 # ---------------------------------------------------------------------------------------------
 # Kuster-Toksoz
 # ---------------------------------------------------------------------------------------------
-def test_c6_kt_spheres_equal_hs_upper():
-    # reference sheet C6 [computed]: quartz (36, 45) + 20 % water spheres; KT with spheres is the
-    # HS bound with the matrix as host (Berryman 1995 identity); quoted to 0.001 GPa
+def test_kt_spheres_equal_hs_upper():
+    # [computed from the Mavko, Mukerji & Dvorkin 2009 (Rock Physics Handbook) formulas with
+    # quartz K 36, G 45 + 20 % water spheres K 2.2, G 0]; KT with spheres is the HS bound with
+    # the matrix as host (Berryman 1995 identity); quoted to 0.001 GPa
     k, g = kuster_toksoz(36.0, 45.0, [2.2], [0.0], [1.0], [0.2])
     assert (k, g) == pytest.approx((26.589, 29.483), abs=0.001)
     _, k_up, _, g_up = hashin_shtrikman([0.8, 0.2], [36.0, 2.2], [45.0, 0.0])
@@ -144,7 +146,8 @@ def test_kt_spheres_equal_hs_bound_random():
     np.testing.assert_allclose(g, g_up, rtol=1e-12)
 
 
-# reference sheet §5 KT table [computed], matrix 80/40; quoted to 0.01 GPa
+# [computed from the Kuster & Toksöz 1974 equations with the Table 4.8.1 sphere and needle P, Q
+# of Mavko, Mukerji & Dvorkin 2009], matrix 80/40; quoted to 0.01 GPa
 @pytest.mark.parametrize(
     "aspect, phi, dry, wet",
     [
@@ -162,14 +165,15 @@ def test_kt_sphere_needle_reference_values(aspect, phi, dry, wet):
 @pytest.mark.parametrize(
     "aspect, phi, dry, wet",
     [
-        (0.01, 0.01, (32.93, 28.44), (62.95, 31.05)),  # reference sheet C9, +-0.02
-        (0.1, 0.01, (73.10, 38.61), (74.62, 38.68)),  # §5 table, penny alpha = 0.1, 1 %
-        (0.1, 0.05, (51.42, 33.48), (56.85, 33.77)),  # §5 table, penny alpha = 0.1, 5 %
+        (0.01, 0.01, (32.93, 28.44), (62.95, 31.05)),  # penny alpha = 0.01, 1 %, +-0.02
+        (0.1, 0.01, (73.10, 38.61), (74.62, 38.68)),  # penny alpha = 0.1, 1 %
+        (0.1, 0.05, (51.42, 33.48), (56.85, 33.77)),  # penny alpha = 0.1, 5 %
     ],
 )
-def test_c9_kt_penny_reference_values(aspect, phi, dry, wet):
-    # The sheet's penny values use the penny-crack P, Q (first order in alpha). Check the
-    # module's KT solve with those P, Q to 0.02 GPa (C9's tolerance) ...
+def test_kt_penny_reference_values(aspect, phi, dry, wet):
+    # [computed from the Kuster & Toksöz 1974 equations with the penny-crack P, Q of Mavko,
+    # Mukerji & Dvorkin 2009 Table 4.8.1] (first order in alpha). Check the module's KT solve
+    # with those P, Q to 0.02 GPa (the expected values are rounded to 0.01) ...
     for moduli, ref in ((DRY, dry), (WATER, wet)):
         p, q = pq_penny(KM, GM, *moduli, aspect)
         k, g = inclusions._kt_from_pq(KM, GM, moduli[0], moduli[1], p, q, phi)
@@ -182,8 +186,9 @@ def test_c9_kt_penny_reference_values(aspect, phi, dry, wet):
             assert (k, g) == pytest.approx(ref, rel=0.01)
 
 
-def test_c10_kt_rejects_non_dilute_cracks():
-    # reference sheet C10: dry penny alpha = 0.01, phi = 0.05 gives K < 0 (phi/alpha = 5)
+def test_kt_rejects_non_dilute_cracks():
+    # [computed from the Kuster & Toksöz 1974 equations with penny-crack P, Q]: dry penny
+    # alpha = 0.01, phi = 0.05 gives K < 0 (phi/alpha = 5), beyond the dilute limit
     with pytest.raises(ValueError, match="dilute"):
         kuster_toksoz(KM, GM, [0.0], [0.0], [0.01], [0.05])
 
@@ -198,9 +203,11 @@ def test_kt_rejects_negative_modulus(monkeypatch):
 # ---------------------------------------------------------------------------------------------
 # self-consistent and DEM
 # ---------------------------------------------------------------------------------------------
-def test_c11_sc_and_dem_spheres_water():
-    # reference sheet C11 [computed] (DEM there: RK4, 2e4 steps); quoted to 0.05 GPa; both must
-    # lie inside the HS bounds (K 29.75-71.30, G 0-36.32)
+def test_sc_and_dem_spheres_water():
+    # [computed from the Berryman 1980 self-consistent and Norris 1985 / Berryman, Pride & Wang
+    # 2002 DEM equations (Mavko, Mukerji & Dvorkin 2009 eqs. 4.11.1, 4.9.1); expected DEM by RK4,
+    # 2e4 steps]; quoted to 0.05 GPa; both must lie inside the HS bounds (K 29.75-71.30,
+    # G 0-36.32)
     k_sc, g_sc = self_consistent(KM, GM, [2.3], [0.0], [1.0], [0.05])
     k_dem, g_dem = dem(KM, GM, [2.3], [0.0], [1.0], [0.05])
     assert (k_sc, g_sc) == pytest.approx((70.84, 36.15), abs=0.05)
@@ -211,13 +218,15 @@ def test_c11_sc_and_dem_spheres_water():
 
 
 def test_dem_dry_spheres_reference_value():
-    # reference sheet §5 "DEM dry spheres, 10 %" [computed]: 61.75 / 32.65; quoted to 0.01 GPa
+    # [computed from the Norris 1985 / Berryman, Pride & Wang 2002 DEM equations with sphere P, Q]:
+    # dry spheres, 10 %: 61.75 / 32.65; quoted to 0.01 GPa
     assert dem(KM, GM, [0.0], [0.0], [1.0], [0.1]) == pytest.approx((61.75, 32.65), abs=0.01)
 
 
 def test_dem_penny_reference_value_with_penny_factors():
-    # The sheet's "DEM penny alpha = 0.1, 5 % water: 57.59 / 33.60" uses the penny-crack P, Q;
-    # with the exact spheroid P, Q the DEM result is softer (O(alpha) = several % in Q here).
+    # "DEM penny alpha = 0.1, 5 % water: 57.59 / 33.60" [computed from the same DEM equations
+    # with the penny-crack P, Q of Mavko et al. 2009 Table 4.8.1]; with the exact spheroid P, Q
+    # the DEM result is softer (O(alpha) = several % in Q here).
     k, g = dem(KM, GM, [2.3], [0.0], [0.1], [0.05])
     assert 0.95 * 57.59 < k < 57.59 and 0.9 * 33.60 < g < 33.60
 

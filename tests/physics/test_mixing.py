@@ -1,9 +1,8 @@
 """Tests of bayescrust.physics.mixing: worked examples, bound orderings and identities.
 
-Check values come from the project's physics reference sheet (section 5 and check cases C6-C8),
-which computed them from the inputs of the Rock Physics Handbook's Voigt-Reuss and
-Hashin-Shtrikman examples (Mavko, Mukerji & Dvorkin 2009, §4.1-4.2: quartz K 36, G 45; calcite
-K 75, G 31; water K 2.2, G 0 GPa; quartz 80 % of the solid).
+Check values are [computed] from the Voigt-Reuss and Hashin-Shtrikman formulas of Mavko, Mukerji
+& Dvorkin 2009 (Rock Physics Handbook, §4.1-4.2) with the inputs of the Handbook's worked
+examples: quartz K 36, G 45; calcite K 75, G 31; water K 2.2, G 0 GPa; quartz 80 % of the solid.
 """
 
 import numpy as np
@@ -30,10 +29,11 @@ def handbook_fractions(phi):
 
 
 # ---------------------------------------------------------------------------------------------
-# published / reference-sheet values
+# values computed from the Handbook formulas and example inputs
 # ---------------------------------------------------------------------------------------------
-def test_c7_voigt_reuss_handbook_example():
-    # reference sheet C7 [computed], Handbook example setup, phi = 0.27; quoted to 0.01 GPa
+def test_voigt_reuss_handbook_example():
+    # [computed from the Mavko, Mukerji & Dvorkin 2009 (Rock Physics Handbook) Voigt and Reuss
+    # formulas], Handbook example inputs at phi = 0.27; quoted to 0.01 GPa
     f = handbook_fractions(0.27)
     assert voigt(f, K3) == pytest.approx(32.57, abs=0.01)
     assert reuss(f, K3) == pytest.approx(7.10, abs=0.01)
@@ -41,9 +41,10 @@ def test_c7_voigt_reuss_handbook_example():
     assert reuss(f, G3) == 0.0  # exactly: a fluid is present
 
 
-def test_c8_hashin_shtrikman_handbook_example():
-    # reference sheet C8 [computed]; Handbook result "K_HS+ ~ 26.9, K_HS- ~ 7.1" [from memory];
-    # quoted to 0.01 GPa
+def test_hashin_shtrikman_handbook_example():
+    # [computed from the Hashin & Shtrikman 1963 bounds as given by Mavko, Mukerji & Dvorkin
+    # 2009 (Rock Physics Handbook)], Handbook example inputs at phi = 0.27; the Handbook's own
+    # result "K_HS+ ~ 26.9, K_HS- ~ 7.1" [from memory]; quoted to 0.01 GPa
     k_lo, k_up, g_lo, g_up = hashin_shtrikman(handbook_fractions(0.27), K3, G3)
     assert k_up == pytest.approx(26.91, abs=0.01)
     assert k_lo == pytest.approx(7.10, abs=0.01)
@@ -52,7 +53,8 @@ def test_c8_hashin_shtrikman_handbook_example():
 
 
 def test_hashin_shtrikman_handbook_mixture_phi_020():
-    # reference sheet §5 "HS, phi = 0.20" row [computed]; quoted to 0.01 GPa
+    # [computed from the Mavko, Mukerji & Dvorkin 2009 (Rock Physics Handbook) Voigt, Reuss and
+    # Hashin-Shtrikman formulas], Handbook example inputs at phi = 0.20; quoted to 0.01 GPa
     f = handbook_fractions(0.20)
     k_lo, k_up, g_lo, g_up = hashin_shtrikman(f, K3, G3)
     assert (k_up, k_lo, g_up, g_lo) == pytest.approx((30.36, 9.02, 28.40, 0.0), abs=0.01)
@@ -61,8 +63,9 @@ def test_hashin_shtrikman_handbook_mixture_phi_020():
     assert reuss(f, K3) == pytest.approx(9.02, abs=0.01)
 
 
-def test_c6_hs_upper_quartz_water():
-    # reference sheet C6 [computed]: quartz (36, 45) + 20 % water (2.2, 0); quoted to 0.001 GPa
+def test_hs_upper_quartz_water():
+    # [computed from the Hashin-Shtrikman formulas of Mavko, Mukerji & Dvorkin 2009 (Rock
+    # Physics Handbook) with quartz K 36, G 45 + 20 % water K 2.2, G 0]; quoted to 0.001 GPa
     _, k_up, g_lo, g_up = hashin_shtrikman([0.8, 0.2], [36.0, 2.2], [45.0, 0.0])
     assert k_up == pytest.approx(26.589, abs=0.001)
     assert g_up == pytest.approx(29.483, abs=0.001)
@@ -70,8 +73,8 @@ def test_c6_hs_upper_quartz_water():
 
 
 def test_two_phase_hs_matches_closed_form():
-    # two-phase Hashin-Shtrikman (1963) form, reference sheet §5; the N-phase Berryman form must
-    # agree to rounding (1e-12 relative)
+    # two-phase Hashin-Shtrikman (1963) form (Mavko et al. 2009 §4.1); the N-phase Berryman
+    # (1995) form must agree to rounding (1e-12 relative)
     k1, g1, k2, g2, f1 = 80.0, 40.0, 20.0, 10.0, 0.7
     f2 = 1.0 - f1
     k_hs = k1 + f2 / (1.0 / (k2 - k1) + f1 / (k1 + 4.0 * g1 / 3.0))

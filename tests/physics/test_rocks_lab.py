@@ -47,7 +47,7 @@ def test_cold_peridotite_near_8_km_s():
 
 def test_lower_crust_gabbro_in_layer_3_range():
     # Layer 3: 6.7-7.2 km/s (Carlson & Miller 2004 JGR 109, 6.7-7.0, verified; White,
-    # McKenzie & O'Nions 1992 JGR 97:19683, from memory; issue brief: common practice).
+    # McKenzie & O'Nions 1992 JGR 97:19683, from memory; the 6.7-7.2 range: common practice).
     # 4-6 km below the seafloor under 3 km of water: ~0.15-0.2 GPa; 200-700 C off axis.
     for t in (200.0, 450.0, 700.0):
         vp, _, _ = _vp_vs("gabbro", temperature_c=t, pressure_gpa=0.18)
@@ -56,7 +56,7 @@ def test_lower_crust_gabbro_in_layer_3_range():
 
 def test_peridotite_near_solidus_with_melt_near_7_1_to_7_4():
     # Peridotite near its solidus at low pressure with a few percent of melt falls towards
-    # 7.1-7.4 km/s (design brief, common practice); ~3.6 % Vp per 1 % melt in realistic films
+    # 7.1-7.4 km/s (common practice); ~3.6 % Vp per 1 % melt in realistic films
     # (Hammond & Humphreys 2000 JGR 105:10975, from memory). Melt-free near the solidus the
     # uppermost mantle near the axis is ~7.5-7.9 km/s (Vaddineni et al. 2021 JGR 126, 7.8;
     # MAR 45 N median valley 7.5, verified).

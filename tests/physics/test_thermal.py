@@ -1,4 +1,4 @@
-"""Tests for bayescrust.physics.thermal: check cases C16-C19, identities, limits, errors."""
+"""Tests for bayescrust.physics.thermal: published solidi, geotherms, identities, limits, errors."""
 
 import numpy as np
 import pytest
@@ -17,17 +17,19 @@ from bayescrust.physics.thermal import (
 SEC_PER_MYR = 3.15576e13
 
 
-# --- reference-sheet check cases -----------------------------------------------------------------
+# --- published and computed values -------------------------------------------------------------
 
 
-def test_c16_hirschmann_solidus():
-    # C16: Hirschmann (2000) [verified abstract] at 1 / 3 GPa: 1248.5 / 1473.4 C (+-0.1).
+def test_hirschmann_solidus():
+    # Hirschmann (2000) G3 1:1042 [verified abstract polynomial, values computed] at 1 / 3 GPa:
+    # 1248.5 / 1473.4 C (+-0.1).
     assert peridotite_solidus_c([1.0, 3.0]) == pytest.approx([1248.5, 1473.4], abs=0.1)
 
 
-def test_c17_half_space():
-    # C17 [computed]: Tm 1350, kappa 1e-6, 10 Myr, z = 10 / 20 km -> 417.7 / 774.9 C (+-0.5,
-    # the sheet's stated tolerance; the residual reflects the year length used for Myr).
+def test_half_space():
+    # [computed from the Turcotte & Schubert (Geodynamics) half-space formula]: Tm 1350,
+    # kappa 1e-6, 10 Myr, z = 10 / 20 km -> 417.7 / 774.9 C (+-0.5: the residual reflects the
+    # year length used for Myr).
     t = half_space_temperature_c([10.0, 20.0], 10.0)
     assert t == pytest.approx([417.7, 774.9], abs=0.5)
 
@@ -36,20 +38,23 @@ def test_c17_half_space():
     ("z", "age", "expected"), [(5.0, 1.0, 635.7), (30.0, 50.0, 549.0)]
 )
 def test_half_space_worked_values(z, age, expected):
-    # Reference sheet section 7 worked values [computed], quoted to 0.1 C; tolerance 0.5 C.
+    # [computed from the same half-space formula, Tm 1350, kappa 1e-6], quoted to 0.1 C;
+    # tolerance 0.5 C.
     assert half_space_temperature_c(z, age) == pytest.approx(expected, abs=0.5)
 
 
-def test_c18_plate_gdh1():
-    # C18 [computed; GDH1 a = 95 km, Tm = 1450 C, Stein & Stein 1992, partly from memory]:
-    # 100 Myr, 50 km -> 792 +- 1 C; and section 7: 10 Myr -> 448.6 / 832.3 C at 10 / 20 km.
+def test_plate_gdh1():
+    # [computed from the cooling-plate series with GDH1 a = 95 km, Tm = 1450 C, Stein & Stein
+    # 1992, partly from memory; kappa 1e-6]: 100 Myr, 50 km -> 792 +- 1 C; 10 Myr -> 448.6 /
+    # 832.3 C at 10 / 20 km.
     assert plate_temperature_c(50.0, 100.0) == pytest.approx(792.0, abs=1.0)
     assert plate_temperature_c([10.0, 20.0], 10.0) == pytest.approx([448.6, 832.3], abs=0.5)
 
 
-def test_c19_lithostatic_pressure():
-    # C19 [computed]: 4.5 km water (1.03) + 6 km crust (2.9) -> 216.2 MPa at the Moho (+-0.1);
-    # section 8: +10 km mantle (3.3) -> 539.9 MPa; 2.5 km water + 6 km crust -> 196.0 MPa.
+def test_lithostatic_pressure():
+    # [computed: P = g sum(rho h), densities common practice]: 4.5 km water (1.03) + 6 km
+    # crust (2.9) -> 216.2 MPa at the Moho (+-0.1); +10 km mantle (3.3) -> 539.9 MPa;
+    # 2.5 km water + 6 km crust -> 196.0 MPa.
     p = lithostatic_pressure_gpa([6.0, 16.0], water_depth_km=4.5)
     assert p * 1e3 == pytest.approx([216.2, 539.9], abs=0.1)
     assert lithostatic_pressure_gpa(6.0, water_depth_km=2.5) * 1e3 == pytest.approx(196.0, abs=0.1)
