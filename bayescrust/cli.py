@@ -240,7 +240,10 @@ def _run_toml(study, extra: dict) -> str:
     from . import __version__
 
     data = study_to_dict(study)
-    data = {"bayescrust_version": __version__, "study_file": str(study.source), **extra, **data}
+    if extra.get("seed") is not None:
+        data["seed"] = extra["seed"]  # the seed actually used (--seed overrides the study's)
+    # provenance goes under [run], which study files may carry and the reader ignores
+    data["run"] = {"bayescrust_version": __version__, "study_file": str(study.source), **extra}
     return dumps_toml(data, header="Resolved configuration of this run, written by bayescrust.\n"
                                    "Re-run with: bayescrust invert run.toml --out NEW_FOLDER")
 

@@ -113,7 +113,7 @@ FORWARD_KEYS: dict[str, Any] = {
 TOP_KEYS = (
     "title", "description", "water_depth_km", "seed", "rocks", "model_error",
     "likelihood", "student_t_nu", "thermal_prior", "priors", "thermal", "hypotheses", "layers",
-    "sampler", "forward",
+    "sampler", "forward", "run",
 )
 LAYER_KEYS = (
     "name", "top_km", "bottom_km", "pressure_gpa", "vp", "vs", "vp_vs", "density", "rocks",

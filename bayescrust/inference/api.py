@@ -17,7 +17,7 @@ from .evidence import (
 from .hypotheses import default_hypotheses, indicators, validate_hypotheses
 from .model import DERIVED_QUANTITIES, SCALAR_PARAMETERS, LayerModel
 from .results import LayerResult, build_idata, hypothesis_table, probabilities_mcmc, summarize
-from .sampler import run_ensemble
+from .sampler import MOVES_DESCRIPTION, run_ensemble
 
 __all__ = ["invert_layer", "exact_layer", "resolve_rng"]
 
@@ -105,7 +105,7 @@ def invert_layer(
     hypotheses : dict, optional
         ``{name: {quantity: (lo, hi)}}``; default :func:`bayescrust.default_hypotheses`.
     model_error : float or dict, optional
-        Forward-model error as a fraction of the observed value (one number, or per quantity),
+        Forward-model error as a fraction of the predicted value (one number, or per quantity),
         added in quadrature to each sigma. Default
         :data:`bayescrust.inference.model.DEFAULT_MODEL_ERROR` (1 % velocities, 0.5 % density).
     likelihood : {"gaussian", "student_t"}
@@ -165,6 +165,7 @@ def invert_layer(
     qp = model.quantities(model.sample_prior(r_prior, n_prior))
     prior = _posterior_dict(model, qp, (1, n_prior))
     p_prior = _prior_probabilities(model, hyps, r_hyp, 10 * n_prior)
+    n_prior_draws = {k: 10 * n_prior for k in p_prior}
     p_post, se_post = probabilities_mcmc(hyps, post, ess_ref=float(np.min(run.ess)))
     if evidence:
         log_z, log_z_err = evidence_from_posterior(
@@ -182,8 +183,7 @@ def invert_layer(
     settings = {**model.settings, "method": "mcmc", "seed": seed_val,
                 "hypotheses": {k: {q_: list(v) for q_, v in r.items()} for k, r in hyps.items()},
                 "sampler": {"n_walkers": nw, "min_ess": min_ess, "max_steps": max_steps,
-                            "tau_factor": tau_factor, "moves": "DE 0.7, DE(gamma=1) 0.1, "
-                            "snooker 0.2"},
+                            "tau_factor": tau_factor, "moves": MOVES_DESCRIPTION},
                 "evidence": {"method": "importance sampling (t + prior)", "n": n_evidence}
                 if evidence else None}
     idata = build_idata(
@@ -193,7 +193,7 @@ def invert_layer(
         attrs=_attrs(model, seed_val, "mcmc", settings),
     )
     return LayerResult(
-        idata=idata, hypotheses=hypothesis_table(p_prior, p_post, se_post),
+        idata=idata, hypotheses=hypothesis_table(p_prior, p_post, se_post, n_prior_draws),
         summary=summarize(_summary_vars(model, post)), log_evidence=log_z,
         log_evidence_error=log_z_err, diagnostics=diagnostics, layer=layer, settings=settings,
     )
@@ -290,6 +290,8 @@ def exact_layer(
     n = loglik.shape[0]
     ind = indicators(hyps, q)
     p_prior = {k: float(np.mean(v)) for k, v in ind.items()}
+    n_prior_draws = {k: n for k in ind}
+    q_prior = q  # the stage-1 design is a prior sample; stage 2 replaces q below
     log_z, log_z_err, wts, ess = _weights(loglik, np.zeros(n))
     stages = 1
     if ess < min_importance_ess and n > 1:
@@ -321,8 +323,9 @@ def exact_layer(
     idx = r_draw.choice(n, size=n_draws, p=wts / sw)
     qd = {k: np.asarray(v)[idx] if np.ndim(v) else np.full(n_draws, v) for k, v in q.items()}
     post = _posterior_dict(model, qd, (1, n_draws))
-    n_pr = min(n, n_draws)
-    prior = _posterior_dict(model, {k: np.asarray(v)[:n_pr] for k, v in q.items()}, (1, n_pr))
+    n_pr = min(len(next(iter(q_prior.values()))), n_draws)
+    prior = _posterior_dict(model, {k: np.asarray(v)[:n_pr] if np.ndim(v) else v
+                                    for k, v in q_prior.items()}, (1, n_pr))
     ll = {k: np.asarray(v)[idx].reshape(1, n_draws) for k, v in ll_terms.items()}
     diagnostics = {"method": "exact", "n_points": n, "importance_ess": ess, "stages": stages,
                    "total_time_s": time.perf_counter() - t0, "converged": ess >= 500}
@@ -337,7 +340,7 @@ def exact_layer(
         attrs=_attrs(model, seed_val, "exact", settings),
     )
     return LayerResult(
-        idata=idata, hypotheses=hypothesis_table(p_prior, p_post, se_post),
+        idata=idata, hypotheses=hypothesis_table(p_prior, p_post, se_post, n_prior_draws),
         summary=summarize(_summary_vars(model, post), ess_override=ess, mcmc=False),
         log_evidence=log_z, log_evidence_error=log_z_err, diagnostics=diagnostics,
         layer=layer, settings=settings,

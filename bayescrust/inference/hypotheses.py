@@ -130,7 +130,7 @@ def evidence_category(log10_bf: float) -> str:
     Uses their scale on ``2 ln B``: 0-2 not worth more than a bare mention, 2-6 positive,
     6-10 strong, > 10 very strong; negative values are labelled "against: ...".
     """
-    if not math.isfinite(log10_bf) and math.isnan(log10_bf):
+    if math.isnan(log10_bf):
         return "undefined"
     two_ln_b = 2.0 * math.log(10.0) * log10_bf
     mag = abs(two_ln_b)

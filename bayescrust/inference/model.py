@@ -80,6 +80,7 @@ DEFAULT_MODEL_ERROR = {"vp": 0.01, "vs": 0.01, "vp_vs": 0.01, "density": 0.005}
 _GABBROIC = ("gabbro", "olivine_gabbro", "troctolite")
 _BASALTIC = ("basalt", "diabase")
 _SERPENTINITES = ("serpentinite", "antigorite_serpentinite")
+_SERPENTINITE_KIND = {"serpentinite": "lizardite", "antigorite_serpentinite": "antigorite"}
 
 _DEPTH_POROUS_KM = 1.5  # mid-depth below which the default porosity prior is narrow (Layer 2/3)
 
@@ -129,7 +130,7 @@ def _resolve_model_error(model_error, observed) -> dict[str, float]:
             raise ValueError(f"model_error[{k!r}] must be a number; got {v!r}") from exc
         if not math.isfinite(v) or not 0.0 <= v <= 0.5:
             raise ValueError(
-                f"model_error[{k!r}] must be in [0, 0.5] (fraction of the observed value); "
+                f"model_error[{k!r}] must be in [0, 0.5] (fraction of the predicted value); "
                 f"got {v!r}"
             )
         out[k] = v
@@ -155,7 +156,7 @@ class LayerModel:
     rock_solidus_c: np.ndarray
     serpentine_limit_c: float
     observed: dict
-    total_sigma: dict
+    model_error: dict
     likelihood: str
     nu: float
     ultramafic: np.ndarray
@@ -272,6 +273,21 @@ class LayerModel:
         gab_sol = float(thermal.gabbro_solidus_c(pressure))
         serp_kind = getattr(fm, "serpentine", "lizardite")
         serp_lim = float(thermal.serpentine_stability_c(pressure, kind=serp_kind))
+        # A serpentinite end member exists only below its own stability limit: its fraction
+        # cannot be switched off with temperature (as `serpentinization` is), so the
+        # temperature prior must stay below the limit (Evans 2010; Ulmer & Trommsdorff 1995).
+        t_hi = scalar_priors["temperature_c"].bounds[1]
+        for rock, kind in _SERPENTINITE_KIND.items():
+            if rock in names and (fixed_fractions is None or
+                                  fixed_fractions[list(names).index(rock)] > 0):
+                limit = float(thermal.serpentine_stability_c(pressure, kind=kind))
+                if t_hi > limit:
+                    raise ValueError(
+                        f"rocks: {rock!r} ({kind}) is stable only below {limit:.0f} deg C at "
+                        f"{pressure:.3f} GPa, but priors['temperature_c'] reaches {t_hi:.0f} "
+                        f"deg C; restrict the temperature prior to <= {limit:.0f} deg C, or "
+                        "model serpentine as `serpentinization` of a peridotite (switched off "
+                        "above the stability limit)")
         mantle_like = ultramafic | np.isin(names, _SERPENTINITES)
         rock_solidus = np.where(mantle_like, per_sol, gab_sol)
         families = {
@@ -283,7 +299,6 @@ class LayerModel:
         }
         observed = layer.observed
         me = _resolve_model_error(model_error, observed)
-        total_sigma = {k: math.hypot(s, me[k] * abs(v)) for k, (v, s) in observed.items()}
         if likelihood not in ("gaussian", "student_t"):
             raise ValueError(f"likelihood must be 'gaussian' or 'student_t'; got {likelihood!r}")
         nu = float(nu)
@@ -314,7 +329,7 @@ class LayerModel:
             layer=layer, forward=fm, rock_names=names, alpha=alpha,
             fixed_fractions=fixed_fractions, scalar_priors=scalar_priors, free=tuple(free),
             fixed=fixed, pressure_gpa=pressure, rock_solidus_c=rock_solidus,
-            serpentine_limit_c=serp_lim, observed=observed, total_sigma=total_sigma,
+            serpentine_limit_c=serp_lim, observed=observed, model_error=me,
             likelihood=likelihood, nu=nu, ultramafic=ultramafic, families=families,
             settings=settings,
         )
@@ -440,6 +455,16 @@ class LayerModel:
                 serpentinization=q["serpentinization_effective"],
             )
 
+    def total_sigma(self, name: str, predicted) -> np.ndarray:
+        """Likelihood scale of observable ``name``: measurement and forward-model error in
+        quadrature, ``sqrt(sigma_obs^2 + (model_error * predicted)^2)``.
+
+        The model error is a fraction of the *predicted* value, so the likelihood is a proper
+        density in the observation (evidences and charts over observed values compare).
+        """
+        s = self.observed[name][1]
+        return np.sqrt(s * s + (self.model_error[name] * np.asarray(predicted)) ** 2)
+
     def log_likelihood_terms(self, pred: dict, observed: dict | None = None) -> dict:
         """Per-datum log-likelihood of predictions (arrays broadcasting together).
 
@@ -449,14 +474,14 @@ class LayerModel:
         obs = {k: v for k, (v, _) in self.observed.items()} if observed is None else observed
         out = {}
         for k, y in obs.items():
-            sig = self.total_sigma[k]
+            sig = self.total_sigma(k, pred[k])
             z = (np.asarray(y) - pred[k]) / sig
             if self.likelihood == "gaussian":
-                ll = -0.5 * z * z - math.log(sig) - 0.5 * math.log(2 * math.pi)
+                ll = -0.5 * z * z - np.log(sig) - 0.5 * math.log(2 * math.pi)
             else:
                 nu = self.nu
                 c = (special.gammaln(0.5 * (nu + 1)) - special.gammaln(0.5 * nu)
-                     - 0.5 * math.log(nu * math.pi) - math.log(sig))
+                     - 0.5 * math.log(nu * math.pi) - np.log(sig))
                 ll = c - 0.5 * (nu + 1) * np.log1p(z * z / nu)
             out[k] = np.where(np.isfinite(ll), ll, -np.inf)
         return out

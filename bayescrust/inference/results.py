@@ -62,13 +62,23 @@ class LayerResult:
                 f"hypotheses={list(self.hypotheses.index)})")
 
 
-def hypothesis_table(prior_p: dict, post_p: dict, post_se: dict):
-    """DataFrame of prior and posterior probabilities, Bayes factors and categories."""
+def hypothesis_table(prior_p: dict, post_p: dict, post_se: dict, n_prior: dict | None = None):
+    """DataFrame of prior and posterior probabilities, Bayes factors, their errors and categories.
+
+    ``n_prior`` gives the number of independent prior draws behind each prior probability
+    (binomial error ``sqrt(pi (1 - pi) / n)``). The Monte Carlo error of ``log10 B`` follows by
+    the delta method from the errors of both probabilities (independent estimates):
+    ``ln B = logit(p) - logit(pi)``, so
+    ``se(log10 B) = sqrt((se_p / (p (1 - p)))^2 + (se_pi / (pi (1 - pi)))^2) / ln 10``.
+    """
     import pandas as pd
 
     rows = []
     for name in post_p:
         pi, p = float(prior_p[name]), float(post_p[name])
+        se_p = float(post_se[name])
+        n_pi = (n_prior or {}).get(name)
+        se_pi = math.sqrt(pi * (1.0 - pi) / n_pi) if n_pi else math.nan
         if not 0 < pi < 1:
             bf = math.nan  # a hypothesis the prior excludes (or is sure of) has no Bayes factor
         elif p in (0.0, 1.0):
@@ -76,13 +86,18 @@ def hypothesis_table(prior_p: dict, post_p: dict, post_se: dict):
         else:
             bf = (p / (1 - p)) / (pi / (1 - pi))
         lbf = math.log10(bf) if bf > 0 else (-math.inf if bf == 0 else math.nan)
+        if 0 < p < 1 and 0 < pi < 1:
+            lbf_se = math.hypot(se_p / (p * (1 - p)), se_pi / (pi * (1 - pi))) / math.log(10.0)
+        else:
+            lbf_se = math.nan
         rows.append({
-            "hypothesis": name, "prior_probability": pi, "posterior_probability": p,
-            "posterior_mcse": float(post_se[name]), "bayes_factor": bf,
-            "log10_bayes_factor": lbf, "evidence_category": evidence_category(lbf),
+            "hypothesis": name, "prior_probability": pi, "prior_mcse": se_pi,
+            "posterior_probability": p, "posterior_mcse": se_p, "bayes_factor": bf,
+            "log10_bayes_factor": lbf, "log10_bayes_factor_mcse": lbf_se,
+            "evidence_category": evidence_category(lbf),
         })
-    cols = ["prior_probability", "posterior_probability", "posterior_mcse", "bayes_factor",
-            "log10_bayes_factor", "evidence_category"]
+    cols = ["prior_probability", "prior_mcse", "posterior_probability", "posterior_mcse",
+            "bayes_factor", "log10_bayes_factor", "log10_bayes_factor_mcse", "evidence_category"]
     if not rows:
         return pd.DataFrame(columns=cols, index=pd.Index([], name="hypothesis"))
     return pd.DataFrame(rows).set_index("hypothesis")[cols]

@@ -86,6 +86,10 @@ def default_moves():
     ]
 
 
+#: Human-readable record of :func:`default_moves` (stored in each run's settings).
+MOVES_DESCRIPTION = "KDE independence 0.5, DE 0.3, DE(gamma=1) 0.1, DE-snooker 0.1"
+
+
 def _tau(chain: np.ndarray) -> np.ndarray:
     import emcee
 

@@ -74,6 +74,20 @@ def test_invert_same_seed_same_tables(small_study, tmp_path):
     assert (a / "hypotheses.csv").read_text() == (b / "hypotheses.csv").read_text()
 
 
+def test_run_toml_records_the_seed_used_and_reruns(small_study, tmp_path):
+    # run.toml echoes the resolved study with the seed actually used (--seed overrides the
+    # file's), keeps provenance under [run], and is itself a valid study file
+    a, b = tmp_path / "a", tmp_path / "b"
+    assert main(["invert", str(small_study), "--out", str(a), "-q", "--no-figures",
+                 "--layer", "lower crust", "--seed", "11"]) == 0
+    run = tomllib.loads((a / "run.toml").read_text())
+    assert run["seed"] == 11 and run["run"]["seed"] == 11
+    assert "bayescrust_version" in run["run"]
+    assert main(["invert", str(a / "run.toml"), "--out", str(b), "-q", "--no-figures",
+                 "--layer", "lower crust"]) == 0
+    assert (a / "hypotheses.csv").read_text() == (b / "hypotheses.csv").read_text()
+
+
 def test_invert_mcmc_small_run(small_study, tmp_path):
     text = small_study.read_text().replace(
         'method = "exact"\nexact_points = 2048',

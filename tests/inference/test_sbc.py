@@ -27,7 +27,7 @@ CONFIG = dict(rocks=("gabbro", "harzburgite"),
 def _simulate(model, rng, m):
     theta = model.sample_prior(rng, m)
     q = model.quantities(theta)
-    y = {k: q[k] + model.total_sigma[k] * rng.standard_normal(m) for k in model.observed}
+    y = {k: q[k] + model.total_sigma(k, q[k]) * rng.standard_normal(m) for k in model.observed}
     return theta, y
 
 
