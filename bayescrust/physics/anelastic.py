@@ -25,7 +25,7 @@ from collections.abc import Callable
 import numpy as np
 
 from bayescrust.physics._checks import as_float_array, check_range
-from bayescrust.physics._data import load_table
+from bayescrust.physics._data import CELSIUS_TO_KELVIN, load_table
 
 __all__ = [
     "ANELASTIC_DATA",
@@ -51,7 +51,6 @@ _J02_PREF = float(_J02["reference_pressure_gpa"])
 
 _UM_PER_MM = 1.0e3
 _PA_PER_GPA = 1.0e9
-_C_TO_K = 273.15
 
 # Numerical guards of the kernel (not literature numbers): temperatures and grain sizes are kept
 # strictly positive so that exp() and d^-1 stay finite.
@@ -80,7 +79,15 @@ def _half_cot(alpha):
 
 
 def _factors(q_s_inv, alpha, vp, vs):
-    """Clip Q_S^-1, derive Q_P^-1 (no bulk loss) and return (fp, fs, q_s_inv); no checks."""
+    """Clip Q_S^-1, derive Q_P^-1 (no bulk loss) and return (fp, fs, q_s_inv); no checks.
+
+    Q_S^-1 is clipped at ``q_inv_max`` of ``data/anelastic.toml``. Q_P^-1 follows from Q_S^-1
+    with no bulk dissipation, Q_P^-1 = (4/3)(Vs/Vp)^2 Q_S^-1 (Anderson, Ben-Menahem & Archambeau
+    1965, J. Geophys. Res. 70, 1441-1448; Anderson & Given 1982, Absorption band Q model for
+    the Earth, J. Geophys. Res. 87). Each factor is Karato's (1993, Geophys. Res. Lett. 20,
+    1623-1626, eq. 3) first-order absorption-band dispersion,
+    V/V0 = 1 - cot(alpha pi/2) Q^-1 / 2.
+    """
     q_s_inv = np.minimum(q_s_inv, _Q_INV_MAX)
     vp = np.asarray(vp, dtype=float)
     vs = np.asarray(vs, dtype=float)
@@ -190,7 +197,7 @@ def q_shear(temperature_c, pressure_gpa, *, frequency_hz, grain_size_mm, law="ja
     p = check_range("pressure_gpa", pressure_gpa, 0.0, 15.0, unit="GPa")
     f = check_range("frequency_hz", frequency_hz, 1e-5, 1e3, unit="Hz")
     d = check_range("grain_size_mm", grain_size_mm, 0.0, 100.0, lo_open=True, unit="mm")
-    q_s_inv, _ = _SHEAR_Q[law](t + _C_TO_K, p, f, d)
+    q_s_inv, _ = _SHEAR_Q[law](t + CELSIUS_TO_KELVIN, p, f, d)
     return np.minimum(q_s_inv, _Q_INV_MAX)
 
 

@@ -99,7 +99,13 @@ def _seawater(temperature_c, pressure_gpa, salinity):
 def _basaltic_melt(temperature_c, pressure_gpa):
     """Kernel: density (g/cm^3) and adiabatic bulk modulus (GPa) of dry basaltic melt; no checks.
 
-    Temperature is held inside ``temperature_window_c`` of ``data/fluids.toml`` and pressure at
+    One-bar density rho0(T) = rho_r exp[-alpha (T - T_r)], with rho_r = 2.61 g/cm^3 at 1400 C
+    (Rigden, Ahrens & Stolper 1989, J. Geophys. Res. 94, 9508-9522, molten diopside; from
+    memory for the An36Di64 liquid) and alpha ~ 1e-4 /K (Lange & Carmichael 1987, Geochim.
+    Cosmochim. Acta 51, 2931-2946); Murnaghan compression rho = rho0 (1 + K' P/K0)^(1/K'),
+    K = K0 + K' P with K0 = 23 GPa, K' = 4 of An36Di64 model basalt (Rigden, Ahrens & Stolper
+    1984, Science 226, 1071-1074). Numbers and tags in ``[basaltic_melt]`` of
+    ``data/fluids.toml``. Temperature is held inside ``temperature_window_c`` and pressure at
     >= 0, so the result is finite for any finite input. Arguments broadcast.
     """
     t = np.clip(np.asarray(temperature_c, dtype=float), *_MELT_T_WINDOW_C)

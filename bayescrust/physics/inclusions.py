@@ -136,6 +136,12 @@ def _geometry(aspect):
 def _pq(rk, rg, r, geo):
     """P and Q from the modulus ratios rk = K_i/K, rg = G_i/G and R = 3G/(3K + 4G) of the host.
 
+    Kernel of :func:`spheroid_pq`, no checks. Evaluates the polarisation factors of a spheroidal
+    inclusion of Berryman (1980), J. Acoust. Soc. Am. 68, 1820-1831, eqs. (A1)-(A6) (from Wu's
+    1966 strain tensor), in the form of the functions F1-F9 tabulated by Mavko, Mukerji &
+    Dvorkin (2009), *The Rock Physics Handbook*, 2nd ed., Table 4.8.2: with A = rg - 1,
+    B = (rk - rg)/3 and the aspect-only terms ``geo`` of :func:`_geometry` (built from θ and f
+    of the spheroid), P = F1/F2 and Q = [2/F3 + 1/F4 + (F4 F5 + F6 F7 - F8 F9)/(F2 F4)]/5.
     ``r`` must carry a trailing length-1 axis so it broadcasts against the inclusion axis.
     """
     c1, c2, c3, c4, c5, c6, c7, c8, c9, c10, c11, c12, c13, f, t = geo
@@ -252,7 +258,15 @@ def _kuster_toksoz(k_m, g_m, k_i, g_i, aspect_i, frac_i):
 
 
 def _sc_iterate(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_iter):
-    """Fixed-point iteration of the self-consistent equations; also returns the last change."""
+    """Fixed-point iteration of the self-consistent equations; also returns the last change.
+
+    Kernel of :func:`self_consistent`, no checks. Solves the self-consistent (coherent
+    potential) equations of Berryman (1980), J. Acoust. Soc. Am. 68, 1820-1831, eqs. (26)-(27)
+    (Mavko, Mukerji & Dvorkin 2009, eq. 4.11.1), sum_j x_j (M_j - M*) P*j = 0 for K and the
+    same with Q for G, the matrix being one more phase of spherical grains. Starting from the
+    Voigt average it applies K <- sum x_j K_j P*j / sum x_j P*j (likewise G with Q) ``n_iter``
+    times with P, Q from :func:`_pq` in the current estimate; G is floored at 1e-12 ``g_m``.
+    """
     k_m = np.asarray(k_m, dtype=float)
     g_m = np.asarray(g_m, dtype=float)
     shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), np.shape(k_i),
@@ -294,6 +308,16 @@ def _self_consistent(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_iter=SC_ITERATIONS)
 
 
 def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=None):
+    """Differential effective medium moduli; kernel of :func:`dem`, no checks.
+
+    Integrates the DEM equations of Norris (1985), Mech. Mater. 4, 1-16, and Berryman, Pride &
+    Wang (2002), Geophys. J. Int. 151, 597-611, eq. (3) (Mavko, Mukerji & Dvorkin 2009,
+    eq. 4.9.1), all inclusion phases added together in fixed proportions, as
+    d ln K*/dt = sum_i w_i (K_i/K* - 1) P*i and likewise for G with Q, in t = -ln(1 - y).
+    Classical RK4; with ``n_steps=None`` each element takes n = ceil(L/0.6) steps (1 to 32),
+    L being the log-change of one Euler step over the whole range (the adaptive rule described
+    in :func:`dem`); an integer ``n_steps`` forces that fixed number of steps for every element.
+    """
     k_m = np.asarray(k_m, dtype=float)
     g_m = np.asarray(g_m, dtype=float)
     shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), np.shape(k_i),

@@ -18,6 +18,7 @@ from types import MappingProxyType
 import numpy as np
 
 from bayescrust.physics._checks import check_range
+from bayescrust.physics._data import CELSIUS_TO_KELVIN
 
 __all__ = [
     "MINERALS",
@@ -59,7 +60,6 @@ _NEWTON_STEPS = 4
 # Public validation ranges (deg C, GPa).
 _T_RANGE_C = (-20.0, 1800.0)
 _P_RANGE_GPA = (0.0, 10.0)
-_CELSIUS_TO_K = 273.15
 
 
 @dataclass(frozen=True)
@@ -142,7 +142,7 @@ def _parse_mineral(name: str, entry: Mapping) -> Mineral:
     ):
         _fail(f"{where}.alpha", f"got {alpha!r}, expected [a0, a1, a2]")
     alpha_t = tuple(float(a) for a in alpha)
-    temps = np.linspace(_T_RANGE_C[0] + _CELSIUS_TO_K, _T_RANGE_C[1] + _CELSIUS_TO_K, 64)
+    temps = np.linspace(_T_RANGE_C[0] + CELSIUS_TO_KELVIN, _T_RANGE_C[1] + CELSIUS_TO_KELVIN, 64)
     if np.any(alpha_t[0] + alpha_t[1] * temps + alpha_t[2] / temps**2 <= 0.0):
         _fail(f"{where}.alpha", "alpha(T) must be positive over the supported temperature range")
     description = entry.get("description")
@@ -511,7 +511,7 @@ def mineral_properties(name: str, *, temperature_c, pressure_gpa) -> MineralProp
         raise ValueError(
             f"temperature_c (shape {t_c.shape}) and pressure_gpa (shape {p.shape}) do not broadcast"
         ) from exc
-    rho, ks, g = _mineral_state(mineral_table((name,)), t_c + _CELSIUS_TO_K, p)
+    rho, ks, g = _mineral_state(mineral_table((name,)), t_c + CELSIUS_TO_KELVIN, p)
     rho, ks, g = (a[..., 0].reshape(shape) for a in (rho, ks, g))
     vp = np.sqrt((ks + 4.0 / 3.0 * g) / rho)
     vs = np.sqrt(g / rho)

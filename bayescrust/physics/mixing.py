@@ -361,29 +361,40 @@ MIXING_RULES = {
     "hashin_shtrikman": hs_average,
 }
 
-def _positive_voigt_reuss(f, k, g):
-    """Voigt and Reuss averages of K and G for strictly positive moduli (no zero-phase guard)."""
-    return (
-        np.einsum("...i,...i->...", f, k),
-        1.0 / np.einsum("...i,...i->...", f, 1.0 / k),
-        np.einsum("...i,...i->...", f, g),
-        1.0 / np.einsum("...i,...i->...", f, 1.0 / g),
-    )
 
-
-def _positive_hill(f, k, g):
-    kv, kr, gv, gr = _positive_voigt_reuss(f, k, g)
-    return 0.5 * (kv + kr), 0.5 * (gv + gr)
-
-
+# Kernels for strictly positive moduli (no zero-phase guard): Voigt (1910, reprinted 1928)
+# arithmetic mean sum f_i M_i, Reuss (1929) harmonic mean (sum f_i / M_i)^-1 and their Hill
+# (1952) mean, Mavko, Mukerji & Dvorkin (2009) eqs. 4.1.1-4.1.3. Each computes only what it
+# returns.
 def _positive_voigt(f, k, g):
-    kv, _, gv, _ = _positive_voigt_reuss(f, k, g)
-    return kv, gv
+    """Voigt averages (K_V, G_V) = (sum f_i K_i, sum f_i G_i); Voigt 1910 (reprinted 1928)."""
+    return np.einsum("...i,...i->...", f, k), np.einsum("...i,...i->...", f, g)
 
 
 def _positive_reuss(f, k, g):
-    _, kr, _, gr = _positive_voigt_reuss(f, k, g)
-    return kr, gr
+    """Reuss averages (K_R, G_R) = ((sum f_i/K_i)^-1, (sum f_i/G_i)^-1); Reuss 1929."""
+    return (1.0 / np.einsum("...i,...i->...", f, 1.0 / k),
+            1.0 / np.einsum("...i,...i->...", f, 1.0 / g))
+
+
+def _positive_voigt_reuss(f, k, g):
+    """Voigt and Reuss averages of K and G for strictly positive moduli (no zero-phase guard).
+
+    Returns (K_V, K_R, G_V, G_R): the Voigt (1910, reprinted 1928; *Lehrbuch der
+    Kristallphysik*) iso-strain mean sum_i f_i M_i and the Reuss (1929; *Z. Angew. Math.
+    Mech.* 9, 49-58) iso-stress mean (sum_i f_i / M_i)^-1, the upper and lower bounds whose
+    arithmetic mean is the Hill (1952; *Proc. Phys. Soc. A* 65, 349-354) estimate (Mavko,
+    Mukerji & Dvorkin 2009, eqs. 4.1.1-4.1.3). Used by :func:`_positive_hill`.
+    """
+    kv, gv = _positive_voigt(f, k, g)
+    kr, gr = _positive_reuss(f, k, g)
+    return kv, kr, gv, gr
+
+
+def _positive_hill(f, k, g):
+    """Hill (1952) mean of the Voigt and Reuss averages, (K_VRH, G_VRH)."""
+    kv, kr, gv, gr = _positive_voigt_reuss(f, k, g)
+    return 0.5 * (kv + kr), 0.5 * (gv + gr)
 
 
 #: The same rules without input validation, for the forward-model hot path, where every phase

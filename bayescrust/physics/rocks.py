@@ -18,12 +18,13 @@ from __future__ import annotations
 import difflib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+from types import MappingProxyType
 
 import numpy as np
 
 from . import anelastic, fluids, inclusions, minerals, mixing
 from ._checks import as_float_array, check_range
-from ._data import load_table
+from ._data import CELSIUS_TO_KELVIN, load_table
 
 __all__ = [
     "ROCKS",
@@ -34,10 +35,11 @@ __all__ = [
     "rock_properties",
 ]
 
-#: Fraction of olivine + pyroxenes + spinel above which a custom mineral mix counts as
-#: ultramafic (IUGS: ultramafic rocks hold > 90 % mafic minerals; Le Maitre et al. 2002).
-_ULTRAMAFIC_MINERALS = ("olivine", "orthopyroxene", "clinopyroxene", "diopside", "spinel")
-_ULTRAMAFIC_THRESHOLD = 0.9
+_ROCK_DATA = load_table("rocks")
+#: Mafic minerals, and the fraction of them at or above which a custom mineral mix counts as
+#: ultramafic (``[classification]`` of ``data/rocks.toml``: IUGS, Le Maitre et al. 2002).
+_ULTRAMAFIC_MINERALS = tuple(str(m) for m in _ROCK_DATA["classification"]["ultramafic_minerals"])
+_ULTRAMAFIC_THRESHOLD = float(_ROCK_DATA["classification"]["ultramafic_threshold"])
 _SERPENTINITE_OF = {"lizardite": "serpentinite", "antigorite": "antigorite_serpentinite"}
 _CHUNK = 4096  # elements per block: cache-sized temporaries; at batch 1e5 this ran 1.5-1.7x
 # faster than one whole-batch pass (solid rock 1.1e6 vs 0.66e6 evals/s, with pores 3.1e5 vs 2.3e5)
@@ -51,8 +53,9 @@ class Rock:
     ----------
     name : str
         Identifier.
-    modes : dict of str to float
-        Mineral name -> volume fraction (sums to 1).
+    modes : mapping of str to float
+        Mineral name -> volume fraction (sums to 1); a read-only mapping, so a recipe cannot be
+        changed after construction (a plain dict passed in is copied).
     ultramafic : bool
         Whether ``serpentinization`` applies to this rock.
     description, source, tag : str
@@ -60,15 +63,27 @@ class Rock:
     """
 
     name: str
-    modes: dict
+    modes: Mapping[str, float]
     ultramafic: bool
     description: str = ""
     source: str = ""
     tag: str = ""
 
+    def __post_init__(self):
+        object.__setattr__(self, "modes", MappingProxyType(dict(self.modes)))
+
+    def __reduce__(self):
+        # a mappingproxy does not pickle: rebuild from a plain copy (forward models are pickled
+        # to worker processes)
+        return (
+            type(self),
+            (self.name, dict(self.modes), self.ultramafic, self.description, self.source,
+             self.tag),
+        )
+
 
 def _load_rocks() -> dict[str, Rock]:
-    table = load_table("rocks")["rocks"]
+    table = _ROCK_DATA["rocks"]
     out = {}
     for name, row in table.items():
         modes = {str(k): float(v) for k, v in row["modes"].items()}
@@ -331,7 +346,7 @@ class ForwardModel:
         return out[0].reshape(shape), out[1].reshape(shape), out[2].reshape(shape)
 
     def _evaluate(self, f, t_c, p, phi, ar, melt, mar, serp, p_pore):
-        t_k = t_c + 273.15
+        t_k = t_c + CELSIUS_TO_KELVIN
         x = self.mineral_fractions(f, serp)
         rho_m, k_m, g_m = minerals._mineral_state(self._table, t_k, p)
         rho_s = np.einsum("ij,ij->i", x, rho_m)

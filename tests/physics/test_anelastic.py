@@ -4,15 +4,13 @@ import numpy as np
 import pytest
 
 from bayescrust.physics import anelastic
+from bayescrust.physics._data import CELSIUS_TO_KELVIN
 from bayescrust.physics.anelastic import (
     ATTENUATION_LAWS,
     dispersion_factor,
     q_shear,
     qp_inverse_from_qs,
 )
-
-C_TO_K = 273.15
-
 
 # --- values from the published laws ------------------------------------------------------------
 
@@ -75,7 +73,7 @@ def test_dispersion_factor_tends_to_one():
 def test_cold_rock_unaffected():
     # [common practice] anelastic dispersion is negligible in cold rock: at 400 C the factors
     # exceed 0.999 (grain size 0.1-10 mm, 0.1-10 Hz; the law gives Q^-1 ~ 1e-6 or less there).
-    t_k = 400.0 + C_TO_K
+    t_k = 400.0 + CELSIUS_TO_KELVIN
     d = np.array([0.1, 1.0, 10.0])[:, None]
     f = np.array([0.1, 1.0, 10.0])[None, :]
     fp, fs, _ = anelastic._anelastic_factors(t_k, 0.3, f, d, 7.0, 3.9)
@@ -115,7 +113,7 @@ def test_kernel_is_finite_at_extremes():
 
 def test_kernel_matches_public_functions():
     t_c, p, f, d, vp, vs = 1250.0, 1.5, 0.5, 2.0, 8.0, 4.5
-    fp, fs, q = anelastic._anelastic_factors(t_c + C_TO_K, p, f, d, vp, vs)
+    fp, fs, q = anelastic._anelastic_factors(t_c + CELSIUS_TO_KELVIN, p, f, d, vp, vs)
     q_pub = q_shear(t_c, p, frequency_hz=f, grain_size_mm=d)
     alpha = anelastic.ANELASTIC_DATA["jackson2002"]["alpha"]
     assert q == pytest.approx(q_pub, rel=1e-14)

@@ -9,6 +9,7 @@ import pytest
 from scipy.optimize import brentq
 
 from bayescrust.physics import minerals as M
+from bayescrust.physics._data import CELSIUS_TO_KELVIN
 from bayescrust.physics.minerals import (
     MINERALS,
     _eulerian_strain,
@@ -210,7 +211,7 @@ def test_vectorised_equals_looped():
     rng = np.random.default_rng(20240611)
     names = sorted(MINERALS)
     table = mineral_table(names)
-    t_k = rng.uniform(T_MIN_C + 273.15, T_MAX_C + 273.15, size=(7, 5))
+    t_k = rng.uniform(T_MIN_C + CELSIUS_TO_KELVIN, T_MAX_C + CELSIUS_TO_KELVIN, size=(7, 5))
     p = rng.uniform(0.0, P_MAX, size=(7, 5))
     rho, ks, g = _mineral_state(table, t_k, p)
     assert rho.shape == ks.shape == g.shape == (7, 5, len(names))
@@ -235,7 +236,7 @@ def test_kernel_broadcasts_batch_shapes():
 
 def test_finite_and_positive_over_documented_range():
     table = mineral_table(sorted(MINERALS))
-    t_k = np.linspace(T_MIN_C, T_MAX_C, 91)[:, None] + 273.15
+    t_k = np.linspace(T_MIN_C, T_MAX_C, 91)[:, None] + CELSIUS_TO_KELVIN
     p = np.linspace(0.0, P_MAX, 51)[None, :]
     for arr in _mineral_state(table, t_k, p):
         assert np.all(np.isfinite(arr))
@@ -294,7 +295,7 @@ def test_olivine_high_temperature_moduli_near_linear_trend():
     # Isaak 1992 [from memory]: Fo90 Ks and G fall nearly linearly to 1500 K. Constant
     # Anderson-Grueneisen parameters curve slightly; at 1300 K the model must lie within 5 % of
     # the linear extrapolation (G_lin = 64.5, K_lin = 113.4 GPa).
-    p = mineral_properties("olivine", temperature_c=1300.0 - 273.15, pressure_gpa=0.0)
+    p = mineral_properties("olivine", temperature_c=1300.0 - CELSIUS_TO_KELVIN, pressure_gpa=0.0)
     assert float(p.shear_modulus) == pytest.approx(78.0 - 0.0135 * (1300 - 298.15), rel=0.05)
     assert float(p.bulk_modulus) == pytest.approx(129.4 - 0.016 * (1300 - 298.15), rel=0.05)
 
