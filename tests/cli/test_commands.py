@@ -43,7 +43,8 @@ def test_invert_writes_every_output(small_study, tmp_path):
         for ext in ("csv", "md", "tex"):
             assert (out / f"{name}.{ext}").is_file()
     run = tomllib.loads((out / "run.toml").read_text())
-    assert run["command"] == "invert" and run["seed"] == 7 and run["method"] == "exact"
+    assert run["run"]["command"] == "invert" and run["seed"] == 7
+    assert run["run"]["method"] == "exact"
     assert "Caution" in (out / "report.md").read_text()
     hyp = pd.read_csv(out / "hypotheses.csv")
     assert {"layer", "hypothesis", "prior_probability", "posterior_probability",
