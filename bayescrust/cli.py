@@ -103,8 +103,9 @@ class AtomicFolder:
 
 
 def _slug(name: str) -> str:
-    s = re.sub(r"[^A-Za-z0-9]+", "_", name).strip("_").lower()
-    return s or "layer"
+    from .config import layer_slug
+
+    return layer_slug(name)
 
 
 def _say(args, msg: str):

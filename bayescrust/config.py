@@ -18,6 +18,12 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from .inference.layer import DEPTH_RANGE_KM, WATER_DEPTH_RANGE_KM
+from .inference.layer import OBSERVABLES as _LAYER_OBSERVABLES
+from .inference.model import DERIVED_QUANTITIES
+from .inference.model import PARAMETER_RANGES as _MODEL_RANGES
+from .physics.rocks import ROCKS
+
 __all__ = [
     "StudyError",
     "Observation",
@@ -41,32 +47,29 @@ __all__ = [
 # Tables of allowed keys and ranges (ranges are input sanity limits, not literature values)
 # --------------------------------------------------------------------------------------------
 
-#: Free parameters of a layer other than the rock fractions: (lo, hi, unit).
+#: Units of the free parameters of a layer other than the rock fractions.
+_PARAMETER_UNITS = {
+    "temperature_c": "deg C",
+    "porosity": "volume fraction",
+    "aspect_ratio": "",
+    "melt_fraction": "volume fraction",
+    "melt_aspect_ratio": "",
+    "serpentinization": "fraction of the ultramafic volume",
+}
+
+#: Free parameters: (lo, hi, unit); the ranges are the inference package's own.
 PARAMETER_RANGES: dict[str, tuple[float, float, str]] = {
-    "temperature_c": (-5.0, 2000.0, "deg C"),
-    "porosity": (0.0, 0.5, "volume fraction"),
-    "aspect_ratio": (1e-4, 1.0, ""),
-    "melt_fraction": (0.0, 0.3, "volume fraction"),
-    "melt_aspect_ratio": (1e-4, 1.0, ""),
-    "serpentinization": (0.0, 1.0, "fraction of the ultramafic volume"),
+    k: (float(lo), float(hi), _PARAMETER_UNITS.get(k, ""))
+    for k, (lo, hi) in _MODEL_RANGES.items()
 }
 
 #: Observable quantities of a layer: (lo, hi, unit) for the value; sigma must be > 0.
 OBSERVABLES: dict[str, tuple[float, float, str]] = {
-    "vp": (1.0, 10.0, "km/s"),
-    "vs": (0.3, 6.0, "km/s"),
-    "vp_vs": (1.3, 4.0, ""),
-    "density": (1.0, 4.5, "g/cm^3"),
+    k: (float(lo), float(hi), unit) for k, ((lo, hi), unit) in _LAYER_OBSERVABLES.items()
 }
 
 #: Derived quantities a hypothesis may constrain besides parameters and rock fractions.
-DERIVED = ("vp", "vs", "vp_vs", "density", "ultramafic_fraction")
-
-#: Rock names of the forward model, used only if the physics package cannot be imported.
-_FALLBACK_ROCKS = (
-    "gabbro", "olivine_gabbro", "troctolite", "basalt", "diabase", "harzburgite",
-    "lherzolite", "dunite", "serpentinite", "antigorite_serpentinite",
-)
+DERIVED = tuple(DERIVED_QUANTITIES)
 
 DEFAULT_ROCKS = ("basalt", "gabbro", "harzburgite")
 
@@ -282,30 +285,14 @@ class StudySpec:
 # --------------------------------------------------------------------------------------------
 
 
-def _parameter_ranges() -> dict[str, tuple[float, float, str]]:
-    """Allowed ranges of the scalar parameters, from the inference package when available."""
-    try:
-        from bayescrust.inference.model import PARAMETER_RANGES as R
-    except ImportError:
-        return PARAMETER_RANGES
-    return {k: (float(lo), float(hi), PARAMETER_RANGES.get(k, (0, 0, ""))[2])
-            for k, (lo, hi) in R.items()}
-
-
-def _derived() -> tuple[str, ...]:
-    try:
-        from bayescrust.inference.model import DERIVED_QUANTITIES
-    except ImportError:
-        return DERIVED
-    return tuple(DERIVED_QUANTITIES)
+def layer_slug(name: str) -> str:
+    """Folder-safe form of a layer name (letters and digits; other runs become ``_``)."""
+    s = re.sub(r"[^A-Za-z0-9]+", "_", name).strip("_").lower()
+    return s or "layer"
 
 
 def known_rocks() -> tuple[str, ...]:
     """Names of the end-member rocks of the forward model."""
-    try:
-        from bayescrust.physics.rocks import ROCKS
-    except ImportError:  # physics not installed yet in this checkout
-        return _FALLBACK_ROCKS
     return tuple(ROCKS)
 
 
@@ -480,7 +467,7 @@ class _Reader:
 
     def prior(self, key, value, pname, rocks) -> PriorSpec:
         """A prior: a number (fixed value) or a table with ``dist`` and its parameters."""
-        rng = _parameter_ranges().get(pname)
+        rng = PARAMETER_RANGES.get(pname)
         if pname == "fractions":
             if isinstance(value, dict):
                 spec = self._dist(key, value, ("dirichlet",))
@@ -560,7 +547,7 @@ class _Reader:
         table = self.table(key, value)
         if not table:
             self.got(key, value, "at least one named interpretation")
-        allowed = tuple(PARAMETER_RANGES) + tuple(rocks_allowed) + _derived()
+        allowed = tuple(PARAMETER_RANGES) + tuple(rocks_allowed) + DERIVED
         out = {}
         for hname, conds in table.items():
             bare = re.fullmatch(r"[A-Za-z0-9_-]+", hname)
@@ -685,8 +672,8 @@ class _Reader:
         for req in ("top_km", "bottom_km"):
             if req not in t:
                 self.fail(f"{key}.{req}", "missing; depth below the seafloor in km")
-        top = self.number(f"{key}.top_km", t["top_km"], 0.0, 100.0, unit="km")
-        bottom = self.number(f"{key}.bottom_km", t["bottom_km"], 0.0, 100.0, unit="km")
+        top = self.number(f"{key}.top_km", t["top_km"], *DEPTH_RANGE_KM, unit="km")
+        bottom = self.number(f"{key}.bottom_km", t["bottom_km"], *DEPTH_RANGE_KM, unit="km")
         if bottom <= top:
             self.got(f"{key}.bottom_km", t["bottom_km"],
                      f"a depth greater than top_km ({top:g} km)")
@@ -723,7 +710,8 @@ class _Reader:
         self.keys("", data, TOP_KEYS)
         if "water_depth_km" not in data:
             self.fail("water_depth_km", "missing; water depth above the seafloor in km")
-        water = self.number("water_depth_km", data["water_depth_km"], 0.0, 11.5, unit="km")
+        water = self.number("water_depth_km", data["water_depth_km"], *WATER_DEPTH_RANGE_KM,
+                             unit="km")
         title = self.string("title", data["title"]) if "title" in data else Path(self.source).stem
         desc = data.get("description", "")
         if not isinstance(desc, str):
@@ -759,11 +747,13 @@ class _Reader:
             self.got("layers", raw_layers, "one or more [[layers]] tables")
         layers = tuple(self.layer(f"layers[{i}]", v, rocks, names)
                        for i, v in enumerate(raw_layers))
-        seen = set()
+        seen = {}
         for i, lay in enumerate(layers):
-            if lay.name in seen:
-                self.got(f"layers[{i}].name", lay.name, "a name not used by another layer")
-            seen.add(lay.name)
+            slug = layer_slug(lay.name)  # each layer writes into a folder named after it
+            if slug in seen:
+                self.got(f"layers[{i}].name", lay.name,
+                         f"a name distinct from layer {seen[slug]!r} (both give folder {slug!r})")
+            seen[slug] = lay.name
         # hypotheses must refer to rocks used by the layer
         for i, lay in enumerate(layers):
             hy = lay.hypotheses if lay.hypotheses is not None else hyps

@@ -5,7 +5,12 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-__all__ = ["Layer", "OBSERVABLES"]
+__all__ = ["Layer", "OBSERVABLES", "DEPTH_RANGE_KM", "WATER_DEPTH_RANGE_KM"]
+
+#: Allowed depth below the seafloor of a layer's top and bottom, km (input sanity limits).
+DEPTH_RANGE_KM = (0.0, 100.0)
+#: Allowed water depth, km (the deepest ocean trench is ~11 km).
+WATER_DEPTH_RANGE_KM = (0.0, 11.0)
 
 #: Observable quantities: name -> (allowed value range, unit).
 OBSERVABLES = {
@@ -83,8 +88,8 @@ class Layer:
     def __post_init__(self):
         n = str(self.name)
         object.__setattr__(self, "name", n)
-        for key, lo, hi in (("top_km", 0.0, 100.0), ("bottom_km", 0.0, 100.0),
-                            ("water_depth_km", 0.0, 11.0)):
+        for key, (lo, hi) in (("top_km", DEPTH_RANGE_KM), ("bottom_km", DEPTH_RANGE_KM),
+                              ("water_depth_km", WATER_DEPTH_RANGE_KM)):
             v = getattr(self, key)
             try:
                 v = float(v)

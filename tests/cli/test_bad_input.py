@@ -52,6 +52,10 @@ CASES = [
     ("unknown thermal prior", 'thermal_prior = "hot"\n' + GOOD, ["thermal_prior", "'hot'"]),
     ("hypothesis on unknown quantity", GOOD + "[hypotheses.x]\ntemprature_c = [0, 1]\n",
      ["hypotheses.x.temprature_c", "temperature_c"]),
+    ("layer names sharing a folder", GOOD + GOOD[GOOD.index("[[layers]]"):].replace(
+        'name = "deep"', 'name = "Deep!"'), ["layers[1].name", "folder 'deep'"]),
+    ("water deeper than any ocean", GOOD.replace("water_depth_km = 3.0", "water_depth_km = 11.2"),
+     ["water_depth_km", "got 11.2"]),
 ]
 
 
