@@ -44,6 +44,7 @@ from .inference import (  # noqa: E402
     exact_layer,
     invert_layer,
     priors,
+    probability_chart,
     thermal_priors,
 )
 
@@ -60,6 +61,7 @@ __all__ += [
     "exact_layer",
     "invert_layer",
     "priors",
+    "probability_chart",
     "thermal_priors",
 ]
 # --- end inference exports ---

@@ -449,9 +449,10 @@ def probability_table(study, layer, vp_values, *, thermals=None, method="exact",
                       progress=False, warn=None):
     """Interpretation probabilities for a range of observed Vp (same depth, same error).
 
-    Computed through the public API: one inversion per (thermal prior, Vp) with the layer's
-    other observations unchanged. Returns a long DataFrame: thermal_prior, vp, hypothesis,
-    probability, mcse.
+    Computed through the public API: with the exact method one prior design per thermal prior,
+    weighed against every Vp (:func:`bayescrust.probability_chart`); with MCMC one inversion per
+    (thermal prior, Vp). The layer's other observations are unchanged. Returns a long
+    DataFrame: thermal_prior, vp, hypothesis, probability, mcse.
     """
     import pandas as pd
 
@@ -459,6 +460,24 @@ def probability_table(study, layer, vp_values, *, thermals=None, method="exact",
         raise InputError(f"{study.source}: layer {layer.name!r}: chart needs an observed vp")
     sigma = layer.observations["vp"].sigma
     thermals = thermals if thermals is not None else _thermal_set(study)
+    if method == "exact":
+        from .inference import UniformTemperature, probability_chart
+
+        frames = []
+        ctx = warn.catch(f"chart of {layer.name!r}") if warn else contextlib.nullcontext()
+        with ctx:
+            for th in thermals:
+                lay, kw = _build(study, layer, thermal=th)
+                pri = dict(kw.pop("priors", {}))
+                tp = pri.pop("temperature_c", UniformTemperature(0.0, 1400.0))
+                try:
+                    frames.append(probability_chart(
+                        lay, vp_values, thermal_priors={th.name: tp}, seed=seed, priors=pri,
+                        **kw, **study.sampler.arguments("exact")))
+                except ValueError as exc:
+                    raise InputError(f"{study.source}: layer {layer.name!r}: {exc}") from None
+        return pd.concat(frames, ignore_index=True)[
+            ["thermal_prior", "vp", "hypothesis", "probability", "mcse"]]
     rows = []
     total = len(thermals) * len(vp_values)
     bar = None

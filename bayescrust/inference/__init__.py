@@ -6,7 +6,7 @@ emcee, arviz and pandas are imported inside the functions that use them.
 
 from . import priors, thermal_priors
 from .api import exact_layer, invert_layer
-from .compare import PriorComparison, compare_priors
+from .compare import PriorComparison, compare_priors, probability_chart
 from .hypotheses import default_hypotheses
 from .layer import Layer
 from .model import LayerModel
@@ -28,6 +28,7 @@ __all__ = [
     "exact_layer",
     "invert_layer",
     "priors",
+    "probability_chart",
     "run_ensemble",
     "thermal_priors",
 ]

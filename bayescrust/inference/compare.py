@@ -7,7 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["PriorComparison", "compare_priors"]
+__all__ = ["PriorComparison", "compare_priors", "probability_chart"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -82,3 +82,79 @@ def compare_priors(layer, *, thermal_priors: dict, method: str = "exact", **kwar
     bayes_factors = pd.DataFrame(bf, index=pd.Index(names, name="prior"), columns=names)
     return PriorComparison(results=results, probabilities=probs, errors=errs, evidence=evidence,
                            bayes_factors=bayes_factors)
+
+
+def probability_chart(layer, vp_values, *, thermal_priors: dict, seed=None, n_points=2**15,
+                      **kwargs):
+    """Probability of each interpretation as a function of observed Vp, under each prior.
+
+    For each thermal-state prior one scrambled-Sobol prior design (``n_points``) is evaluated by
+    the forward model once and then weighed against every observed Vp at the layer's Vp error
+    (other observations of the layer unchanged): the exact reference of
+    :func:`bayescrust.exact_layer` (first stage), batched over observed values.
+
+    Parameters
+    ----------
+    layer : Layer
+        Must have an observed Vp (its sigma is used for every value).
+    vp_values : array_like
+        Observed Vp values, km/s.
+    thermal_priors : dict
+        ``{name: thermal-state prior or 1-D temperature prior}``.
+    seed : int or numpy.random.Generator, optional
+        Seeds the designs (the same stream for each prior).
+    n_points : int
+        Design size per prior (rounded up to a power of two).
+    **kwargs
+        Model arguments of :func:`bayescrust.exact_layer` (``rocks``, ``priors``,
+        ``hypotheses``, ``model_error``, ``likelihood``, ``nu``, ``forward``).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Long table: ``thermal_prior, vp, hypothesis, probability, mcse, importance_ess``.
+    """
+    import pandas as pd
+
+    from .api import _setup, resolve_rng
+    from .evidence import prior_design, weigh_design
+    from .hypotheses import indicators
+
+    if layer.vp is None:
+        raise ValueError(f"layer {layer.name!r}: a probability chart needs an observed vp")
+    vp = np.atleast_1d(np.asarray(vp_values, float))
+    if vp.ndim != 1 or not np.all(np.isfinite(vp)) or np.any(vp <= 0):
+        raise ValueError(f"vp_values must be finite positive velocities; got {vp_values!r}")
+    if not isinstance(thermal_priors, dict) or not thermal_priors:
+        raise ValueError("thermal_priors must be a non-empty dict {name: prior}")
+    model_keys = ("rocks", "priors", "hypotheses", "model_error", "likelihood", "nu", "forward")
+    unknown = set(kwargs) - set(model_keys)
+    if unknown:
+        raise ValueError(f"unknown arguments {sorted(unknown)}; allowed {list(model_keys)}")
+    base = dict(kwargs.pop("priors", None) or {})
+    resolve_rng(seed)  # validates the seed
+    rows = []
+    for name, tp in thermal_priors.items():
+        if isinstance(seed, np.random.Generator):
+            rng = seed.spawn(1)[0]
+        else:  # the design stream exact_layer(seed=...) uses for its first stage
+            rng = resolve_rng(seed)[0].spawn(3)[0]
+        model, hyps = _setup(layer, kwargs.get("rocks", ("gabbro", "harzburgite")),
+                             {**base, "temperature_c": tp}, kwargs.get("hypotheses"),
+                             kwargs.get("model_error"), kwargs.get("likelihood", "gaussian"),
+                             kwargs.get("nu", 4.0), kwargs.get("forward"))
+        _, q = prior_design(model, rng, n_points)
+        observed = {k: v for k, (v, _) in model.observed.items()}
+        observed["vp"] = vp[:, None]
+        loglik, _ = weigh_design(model, q, observed)          # (n_vp, n)
+        w = np.exp(loglik - np.max(loglik, axis=1, keepdims=True))
+        sw = w.sum(axis=1)
+        ess = sw**2 / np.sum(w * w, axis=1)
+        for h, ind in indicators(hyps, q).items():
+            v = ind.astype(float)
+            p = (w @ v) / sw
+            se = np.sqrt(np.sum(w**2 * (v[None, :] - p[:, None]) ** 2, axis=1)) / sw
+            rows += [{"thermal_prior": name, "vp": float(x), "hypothesis": h,
+                      "probability": float(pi), "mcse": float(si), "importance_ess": float(e)}
+                     for x, pi, si, e in zip(vp, p, se, ess, strict=True)]
+    return pd.DataFrame(rows)
