@@ -359,10 +359,10 @@ def _thermal_set(study):
 
 
 def _do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=None):
-    import math
 
     import pandas as pd
 
+    from .inference import UniformTemperature, compare_priors
     from .report.caution import caution_text
     from .report.tables import to_markdown
 
@@ -370,30 +370,37 @@ def _do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=N
     chosen = _select_layers(study, layer_names)
     thermals = _thermal_set(study)
     warn = _Warnings(args)
-    prob_rows, ev_rows = [], []
+    prob_rows, ev_frames = [], []
     for i, layer in chosen:
-        s = _layer_seed(seed, i)
+        _say(args, f"layer {layer.name!r} under {len(thermals)} thermal-state priors ({method})")
+        lay, kw = _build(study, layer, thermal=thermals[0])
+        pri = dict(kw.pop("priors", {}))
+        pri.pop("temperature_c", None)
+        tps = {th.name: _build(study, layer, thermal=th)[1].get("priors", {}).get(
+            "temperature_c", UniformTemperature(0.0, 1400.0)) for th in thermals}
+        kw.update(study.sampler.arguments(method))
+        if method == "mcmc":
+            kw["progress"] = not args.quiet
+        with warn.catch(f"layer {layer.name!r}"):
+            try:
+                cmp = compare_priors(lay, thermal_priors=tps, method=method, priors=pri,
+                                     seed=_layer_seed(seed, i), **kw)
+            except ValueError as exc:
+                raise InputError(f"{study.source}: layer {layer.name!r}: {exc}") from None
         for th in thermals:
-            _say(args, f"layer {layer.name!r} under thermal prior {th.name!r} ({method})")
-            with warn.catch(f"layer {layer.name!r}, prior {th.name!r}"):
-                res = _run_one(study, layer, method=method, seed=s, progress=not args.quiet,
-                               thermal=th)
-            for h, row in res.hypotheses.iterrows():
+            for h, row in cmp.results[th.name].hypotheses.iterrows():
                 prob_rows.append({"layer": layer.name, "thermal_prior": th.name, "hypothesis": h,
                                   "prior_probability": row["prior_probability"],
                                   "posterior_probability": row["posterior_probability"],
                                   "posterior_mcse": row["posterior_mcse"]})
-            ev_rows.append({"layer": layer.name, "thermal_prior": th.name, "kind": th.kind,
-                            "log_evidence": res.log_evidence,
-                            "log_evidence_error": res.log_evidence_error})
+        e = cmp.evidence.rename(columns={"posterior_probability":
+                                         "posterior_probability_equal_odds"})
+        e = e.rename_axis("thermal_prior").reset_index()
+        e.insert(0, "layer", layer.name)
+        e.insert(2, "kind", [th.kind for th in thermals])
+        ev_frames.append(e)
     probs = pd.DataFrame(prob_rows)
-    ev = pd.DataFrame(ev_rows)
-    best = ev.groupby("layer")["log_evidence"].transform("max")
-    ev["log10_bayes_factor_vs_best"] = (ev["log_evidence"] - best) / math.log(10.0)
-    tot = ev.groupby("layer")["log_evidence"].transform(
-        lambda x: float(x.max() + math.log(sum(math.exp(v - x.max()) for v in x))))
-    ev["posterior_probability_equal_odds"] = [math.exp(a - b) for a, b in
-                                              zip(ev["log_evidence"], tot, strict=True)]
+    ev = pd.concat(ev_frames, ignore_index=True)
     _write_table(dest, "comparison", probs.set_index("layer"),
                  caption="Interpretation probabilities under each thermal-state prior")
     _write_table(dest, "evidence", ev.set_index("layer"),

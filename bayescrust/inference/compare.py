@@ -23,8 +23,9 @@ class PriorComparison:
     errors : pandas.DataFrame
         Their Monte Carlo standard errors.
     evidence : pandas.DataFrame
-        Per prior: log_evidence, log_evidence_error, and posterior_probability of the prior
-        itself when all priors are given equal prior weight.
+        Per prior: log_evidence, log_evidence_error, log10_bayes_factor_vs_best (against the
+        prior with the highest evidence), and posterior_probability of the prior itself when
+        all priors are given equal prior weight.
     bayes_factors : pandas.DataFrame
         ``log10`` Bayes factor of the row prior against the column prior.
     """
@@ -77,6 +78,7 @@ def compare_priors(layer, *, thermal_priors: dict, method: str = "exact", **kwar
         post = post / np.nansum(post)
     names = list(results)
     evidence = pd.DataFrame({"log_evidence": lz, "log_evidence_error": le,
+                             "log10_bayes_factor_vs_best": (lz - np.nanmax(lz)) / math.log(10.0),
                              "posterior_probability": post}, index=pd.Index(names, name="prior"))
     bf = (lz[:, None] - lz[None, :]) / math.log(10.0)
     bayes_factors = pd.DataFrame(bf, index=pd.Index(names, name="prior"), columns=names)
