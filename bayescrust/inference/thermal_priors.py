@@ -23,7 +23,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..physics.thermal import THERMAL_DATA
 from .priors import Normal, Prior, Tabulated, TruncatedNormal, Uniform, _finite
+
+_HS = THERMAL_DATA["half_space"]  # conventional half-space constants, with their source
 
 __all__ = ["ThermalPrior", "UniformTemperature", "HalfSpaceCooling", "HotAxial",
            "resolve_temperature_prior"]
@@ -98,10 +101,11 @@ class HalfSpaceCooling(ThermalPrior):
     """
 
     age_myr: object = field(default_factory=lambda: Uniform(2.0, 20.0))
-    mantle_temperature_c: object = field(default_factory=lambda: Normal(1350.0, 50.0))
+    mantle_temperature_c: object = field(
+        default_factory=lambda: Normal(float(_HS["mantle_temperature_c"]), 50.0))
     scatter_c: float = 50.0
-    surface_temperature_c: float = 0.0
-    diffusivity_m2_s: float = 1e-6
+    surface_temperature_c: float = float(_HS["surface_temperature_c"])
+    diffusivity_m2_s: float = float(_HS["diffusivity_m2_s"])
     t_max_c: float = 1600.0
     n_age: int = 64
     n_mantle: int = 16
