@@ -211,32 +211,6 @@ def _weights(loglik, log_q):
     return log_z, err, w, ess
 
 
-def _unit_of(model, theta):
-    """Inverse of ``model.from_unit`` (prior CDF coordinates) for the sampled points."""
-    from scipy import special
-
-    theta = np.atleast_2d(theta)
-    u = np.empty_like(theta)
-    k = model.n_fraction_dims
-    if k:
-        a = model.alpha
-        rest = np.ones(theta.shape[0])
-        for i in range(k):
-            frac = np.where(rest > 0, theta[:, i] / np.where(rest > 0, rest, 1.0), 0.0)
-            u[:, i] = special.betainc(a[i], a[i + 1:].sum(), np.clip(frac, 0.0, 1.0))
-            rest = rest - theta[:, i]
-    for j, p in enumerate(model.free):
-        u[:, k + j] = _cdf(model.scalar_priors[p], theta[:, k + j])
-    return u
-
-
-def _cdf(prior, x, n=2049):
-    """Prior CDF by inverting the quantile function on a fine grid (monotone interpolation)."""
-    g = np.linspace(0.0, 1.0, n)
-    xs = prior.ppf(np.clip(g, 1e-12, 1 - 1e-12))
-    return np.interp(x, xs, g)
-
-
 def _summary_vars(model, post):
     keys = list(model.rock_names) + [p for p in SCALAR_PARAMETERS if p in model.free]
     keys += [k for k in DERIVED_QUANTITIES if k in post]
@@ -285,7 +259,7 @@ def exact_layer(
     model, hyps = _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forward)
     r_design, r_draw, r_adapt = rng.spawn(3)
     t0 = time.perf_counter()
-    theta, q = prior_design(model, r_design, n_points)
+    theta, q, u1 = prior_design(model, r_design, n_points)
     loglik, ll_terms = weigh_design(model, q)
     n = loglik.shape[0]
     ind = indicators(hyps, q)
@@ -296,7 +270,6 @@ def exact_layer(
     stages = 1
     if ess < min_importance_ess and n > 1:
         # Stage 2: adaptive importance sampling from a kernel mixture fitted to stage 1.
-        u1 = _unit_of(model, theta)
         centres = u1[r_adapt.choice(n, size=min(256, n), p=wts / wts.sum())]
         theta_in, q_in, log_q, inside = adaptive_design(model, r_adapt, centres, n)
         ll_in, llt_in = weigh_design(model, q_in)

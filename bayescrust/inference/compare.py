@@ -145,7 +145,7 @@ def probability_chart(layer, vp_values, *, thermal_priors: dict, seed=None, n_po
                              {**base, "temperature_c": tp}, kwargs.get("hypotheses"),
                              kwargs.get("model_error"), kwargs.get("likelihood", "gaussian"),
                              kwargs.get("nu", 4.0), kwargs.get("forward"))
-        _, q = prior_design(model, rng, n_points)
+        _, q, _ = prior_design(model, rng, n_points)
         observed = {k: v for k, (v, _) in model.observed.items()}
         observed["vp"] = vp[:, None]
         loglik, _ = weigh_design(model, q, observed)          # (n_vp, n)

@@ -96,20 +96,22 @@ def evidence_from_posterior(log_prob, log_prior, sample_prior, draws, rng, *, n=
 def prior_design(model, rng, n_points):
     """Scrambled-Sobol prior points with every quantity and prediction, for the exact path.
 
-    Returns ``(theta, quantities, log_prior_ok)``; ``n_points`` is rounded up to a power of two.
+    Returns ``(theta, quantities, u)``: the sampled coordinates, every quantity and prediction,
+    and the points in the prior's unit hypercube (``theta = model.from_unit(u)``);
+    ``n_points`` is rounded up to a power of two.
     """
     from scipy.stats import qmc
 
     d = model.ndim
     if d == 0:
-        theta = np.zeros((1, 0))
+        u = np.zeros((1, 0))
     else:
         m = max(1, int(math.ceil(math.log2(max(n_points, 2)))))
         u = qmc.Sobol(d, scramble=True, rng=rng).random_base2(m)
         u = np.clip(u, 1e-12, 1 - 1e-12)
-        theta = model.from_unit(u)
+    theta = model.from_unit(u) if d else u
     q = model.quantities(theta)
-    return theta, q
+    return theta, q, u
 
 
 def weigh_design(model, q, observed=None):

@@ -46,7 +46,7 @@ def _ranks_exact(m, seed):
     model = LayerModel.build(LAYER, **CONFIG)
     rng = np.random.default_rng(seed)
     theta_true, y = _simulate(model, rng, m)
-    theta, q = prior_design(model, rng, 2**14)
+    theta, q, _ = prior_design(model, rng, 2**14)
     # batched likelihood: one row per simulated data set (the grid fast path)
     ll = sum(model.log_likelihood_terms(q, {k: v[:, None] for k, v in y.items()}).values())
     w = np.exp(ll - ll.max(axis=1, keepdims=True))
