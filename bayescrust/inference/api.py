@@ -64,7 +64,8 @@ def _attrs(model, seed, method, settings):
     from .. import __version__
 
     return {"bayescrust_version": __version__, "seed": -1 if seed is None else seed,
-            "method": method, "layer": model.layer.name, "settings": repr(settings)}
+            "method": method, "layer": model.layer.name, "settings": repr(settings),
+            "parameter_names": ",".join(model.parameter_names)}
 
 
 def invert_layer(
@@ -189,7 +190,7 @@ def invert_layer(
     idata = build_idata(
         posterior=post, prior=prior, log_likelihood=ll,
         sample_stats={"lp": run.log_prob.T.copy()},
-        observed={k: v for k, (v, _) in model.observed.items()},
+        observed=dict(model.observed),
         attrs=_attrs(model, seed_val, "mcmc", settings),
     )
     return LayerResult(
@@ -309,7 +310,7 @@ def exact_layer(
     idata = build_idata(
         posterior=post, prior=prior, log_likelihood=ll,
         sample_stats={"lp": (model.log_prior(theta[idx]) + loglik[idx]).reshape(1, n_draws)},
-        observed={k: v for k, (v, _) in model.observed.items()},
+        observed=dict(model.observed),
         attrs=_attrs(model, seed_val, "exact", settings),
     )
     return LayerResult(

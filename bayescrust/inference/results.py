@@ -104,8 +104,12 @@ def hypothesis_table(prior_p: dict, post_p: dict, post_se: dict, n_prior: dict |
 
 
 def build_idata(*, posterior: dict, prior: dict, log_likelihood: dict, sample_stats: dict,
-                observed: dict, attrs: dict):
-    """Assemble the InferenceData; arrays are (chain, draw) shaped."""
+                observed: dict, attrs: dict, constant_data: dict | None = None):
+    """Assemble the InferenceData; arrays are (chain, draw) shaped.
+
+    ``observed`` is ``{name: (value, sigma)}``: the values go to ``observed_data``, the 1-sigma
+    errors to ``constant_data`` as ``<name>_sigma`` (with any other ``constant_data``).
+    """
     import arviz as az
 
     with warnings.catch_warnings():
@@ -114,7 +118,9 @@ def build_idata(*, posterior: dict, prior: dict, log_likelihood: dict, sample_st
         return az.from_dict(
             posterior=posterior, prior=prior, log_likelihood=log_likelihood,
             sample_stats=sample_stats,
-            observed_data={k: np.array([v]) for k, v in observed.items()},
+            observed_data={k: np.array([v]) for k, (v, _) in observed.items()},
+            constant_data={**{f"{k}_sigma": np.array([sd]) for k, (_, sd) in observed.items()},
+                           **(constant_data or {})},
             attrs=attrs,
         )
 

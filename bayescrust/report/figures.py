@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..inference.model import DERIVED_QUANTITIES, SCALAR_PARAMETERS
 from .style import (
     LINESTYLES,
     MARKERS,
@@ -32,12 +33,9 @@ __all__ = [
     "forward_figure",
 ]
 
-#: Derived quantities (not sampled coordinates); shown in predictive checks, not in corner plots.
-_SCALARS = {"temperature_c", "porosity", "aspect_ratio", "melt_fraction", "melt_aspect_ratio",
-            "serpentinization"}
-_DERIVED = {"vp", "vs", "density", "vp_vs", "ultramafic_fraction", "gabbroic_fraction",
-            "basaltic_fraction", "solidus_c", "melt_fraction_effective",
-            "serpentinization_effective", "serpentine_fraction"}
+#: Scalar parameters and derived quantities (the latter are not shown in corner plots).
+_SCALARS = set(SCALAR_PARAMETERS)
+_DERIVED = set(DERIVED_QUANTITIES)
 
 
 def _draws(idata, group: str, name: str) -> np.ndarray:
@@ -52,9 +50,12 @@ def free_parameters(idata) -> list[str]:
     non-constant (chain, draw) variable that is not a derived quantity.
     """
     post = idata.posterior
-    names = idata.attrs.get("parameter_names") if hasattr(idata, "attrs") else None
-    if names is None:
-        names = [v for v in post.data_vars if v not in _DERIVED]
+    stored = (getattr(idata, "attrs", None) or {}).get("parameter_names")
+    # the sampled coordinates plus the last rock fraction (one minus the others)
+    names = [v for v in post.data_vars if v not in _DERIVED]
+    if stored:
+        sampled = set(str(stored).split(","))
+        names = [v for v in names if v in sampled or v not in _SCALARS]
     out = []
     for v in names:
         if v not in post.data_vars or post[v].ndim != 2:
@@ -141,21 +142,11 @@ def trace_figure(idata, *, var_names=None, fig=None, max_chains=64):
 
 
 def _sigma_of(idata, name):
-    attrs = getattr(idata, "attrs", {}) or {}
-    for key in ("observed_sigma", "sigma"):
-        d = attrs.get(key)
-        if isinstance(d, dict) and name in d:
-            return float(d[name])
-    od = idata.observed_data
-    for cand in (f"{name}_sigma", f"sigma_{name}"):
-        if cand in od:
-            return float(np.asarray(od[cand].values).ravel()[0])
-    for group in ("constant_data",):
-        if hasattr(idata, group):
-            ds = getattr(idata, group)
-            for cand in (f"{name}_sigma", f"sigma_{name}"):
-                if cand in ds:
-                    return float(np.asarray(ds[cand].values).ravel()[0])
+    """The observation's 1-sigma error, stored by the inference in ``constant_data``."""
+    ds = getattr(idata, "constant_data", None)
+    key = f"{name}_sigma"
+    if ds is not None and key in ds:
+        return float(np.asarray(ds[key].values).ravel()[0])
     return None
 
 

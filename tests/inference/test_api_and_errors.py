@@ -37,6 +37,8 @@ def test_same_seed_bit_identical_and_result_structure():
               "serpentinization_effective"):
         assert v in idata.posterior
     assert set(idata.log_likelihood.data_vars) == {"vp", "vs"}
+    assert float(idata.constant_data["vp_sigma"].values[0]) == 0.1  # observed 1-sigma kept
+    assert idata.attrs["parameter_names"].split(",")[0] == "gabbro"
     assert idata.attrs["seed"] == 5
     assert list(a.hypotheses.columns) == ["prior_probability", "prior_mcse",
                                           "posterior_probability", "posterior_mcse",
