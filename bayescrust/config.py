@@ -489,8 +489,6 @@ class _Reader:
                 self.got(f"{key}.hi", spec.params["hi"], f"a number > lo ({spec.params['lo']:g})")
             if spec.kind == "loguniform" and spec.params["lo"] <= 0:
                 self.got(f"{key}.lo", spec.params["lo"], "a number > 0 for a log-uniform prior")
-            if spec.kind == "beta" and rng is None and pname not in rocks:
-                pass
             return spec
         lo, hi = (rng[0], rng[1]) if rng else (0.0, 1.0)
         unit = rng[2] if rng else "volume fraction"
@@ -617,8 +615,6 @@ class _Reader:
             self.got(f"{key}.hi", spec.params["hi"], f"a number > lo ({spec.params['lo']:g})")
         if spec.kind == "loguniform" and spec.params["lo"] <= 0:
             self.got(f"{key}.lo", spec.params["lo"], "a number > 0 for a log-uniform prior")
-        if "mean" in spec.params and spec.kind == "truncated_normal":
-            pass
 
     def sampler(self, key, value) -> SamplerSpec:
         table = self.table(key, value)
