@@ -29,9 +29,10 @@ def citations(rocks: Iterable[str | Rock] | None = None) -> list[str]:
 
     Parameters
     ----------
-    rocks : iterable of str or Rock, optional
-        The end-member rocks used (default: all built-in rocks). Only the minerals of these
-        rocks, plus the serpentinites, are cited.
+    rocks : iterable of str or Rock, or a result, optional
+        The end-member rocks used (default: all built-in rocks), or an inversion result whose
+        ``settings["rocks"]`` names them. Only the minerals of these rocks, plus the
+        serpentinites, are cited.
 
     Returns
     -------
@@ -44,6 +45,9 @@ def citations(rocks: Iterable[str | Rock] | None = None) -> list[str]:
     >>> any("Abramson" in r for r in refs) and any("Karato" in r for r in refs)
     True
     """
+    settings = getattr(rocks, "settings", None)  # a LayerResult (duck-typed: no upward import)
+    if isinstance(settings, Mapping):
+        rocks = settings.get("rocks")
     chosen = [ROCKS[r] if isinstance(r, str) else r for r in (rocks or ROCKS)]
     chosen += [ROCKS["serpentinite"], ROCKS["antigorite_serpentinite"]]
     minerals_used = {m for r in chosen for m in r.modes}

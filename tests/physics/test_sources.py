@@ -28,3 +28,11 @@ def test_every_mineral_has_sourced_and_tagged_numbers():
         assert len(tags) >= 4 and len(sources) >= 4, name
         assert all(t in allowed for t in tags), (name, tags)
     assert set(table) == set(MINERALS)
+
+
+def test_citations_of_a_result_follow_its_rocks():
+    # a result's settings name its rocks; citations(result) equals citations(those rocks)
+    class _Result:
+        settings = {"rocks": ["basalt"]}
+
+    assert bayescrust.citations(_Result()) == bayescrust.citations(["basalt"])
