@@ -318,11 +318,11 @@ def _layer_figures(res, layer, folder: Path, method: str):
 
     from .report import figures as F  # noqa: N812
 
-    sigma = {q: o.sigma for q, o in layer.observations.items()}
     names = F.free_parameters(res.idata)
-    makers = [("predictive", lambda: F.predictive_figure(res.idata, sigma=sigma))]
+    makers = [("predictive", lambda: F.predictive_figure(res.idata))]
     if names:
-        makers.insert(0, ("corner", lambda: F.corner_figure(res.idata, var_names=names)))
+        # the corner plot leaves out the last rock fraction (one minus the others)
+        makers.insert(0, ("corner", lambda: F.corner_figure(res.idata)))
         makers.append(("marginals", lambda: F.marginals_figure(res.idata, var_names=names)))
         if method == "mcmc":
             makers.append(("trace", lambda: F.trace_figure(res.idata, var_names=names)))
