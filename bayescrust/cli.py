@@ -331,16 +331,21 @@ def _layer_figures(res, layer, folder: Path, method: str):
         _save_figure(fig, folder, stem)
 
 
-def cmd_invert(args) -> int:
+def _study_command(args, run) -> int:
+    """Shared shell of ``invert`` and ``compare``: read the study, run into an atomic folder."""
     study = load_study(args.study)
     method = args.method or study.sampler.method
     if not args.no_figures:
         _use_agg()
     with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
-        _do_invert(args, study, tmp, method=method, figures=not args.no_figures,
-                   layer_names=args.layer)
+        run(args, study, tmp, method=method, figures=not args.no_figures,
+            layer_names=args.layer)
     print(args.out)
     return 0
+
+
+def cmd_invert(args) -> int:
+    return _study_command(args, _do_invert)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -436,15 +441,7 @@ def _do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=N
 
 
 def cmd_compare(args) -> int:
-    study = load_study(args.study)
-    method = args.method or study.sampler.method
-    if not args.no_figures:
-        _use_agg()
-    with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
-        _do_compare(args, study, tmp, method=method, figures=not args.no_figures,
-                    layer_names=args.layer)
-    print(args.out)
-    return 0
+    return _study_command(args, _do_compare)
 
 
 # ---------------------------------------------------------------------------------------------
