@@ -1,0 +1,52 @@
+"""Command line: a thin shell over the Python API.
+
+``bayescrust demo | invert | compare | chart | forward | check``; see ``bayescrust -h``.
+Exit codes: 0 success, 1 failure of the run, 2 bad input (study file, options, output folder).
+Every command has a Python equivalent (``bayescrust.invert_layer`` and friends); this package only
+reads settings, calls the API, and writes files atomically.
+
+Modules: :mod:`.shell` (input errors, atomic folders, tables, figures, warnings, seeds, common
+options), :mod:`.layers` (shared by the layer commands), one module per command (:mod:`.invert`,
+:mod:`.compare`, :mod:`.chart`, :mod:`.forward`, :mod:`.check`, :mod:`.demo`) and
+:mod:`.parser` (the registry of commands and the argument parser).
+"""
+
+from __future__ import annotations
+
+import sys
+
+from ..config import StudyError
+from .chart import cmd_chart as cmd_chart
+from .chart import probability_table as probability_table
+from .check import cmd_check as cmd_check
+from .compare import cmd_compare as cmd_compare
+from .demo import DEMO_FILES as DEMO_FILES
+from .demo import cmd_demo as cmd_demo
+from .demo import demo_text as demo_text
+from .forward import cmd_forward as cmd_forward
+from .invert import cmd_invert as cmd_invert
+from .parser import build_parser
+from .shell import AtomicFolder as AtomicFolder
+from .shell import InputError
+
+__all__ = ["main"]
+
+
+def main(argv=None) -> int:
+    """Run the command line; return the exit code (0 ok, 1 run failed, 2 bad input)."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # argparse: --help / --version (0) or a usage error (2)
+        return int(exc.code) if isinstance(exc.code, int) else 2
+    try:
+        return args.func(args)
+    except (StudyError, InputError) as exc:
+        print(f"bayescrust: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("bayescrust: interrupted; no output written", file=sys.stderr)
+        return 130
+    except Exception as exc:  # noqa: BLE001 - one clean message, no traceback
+        print(f"bayescrust: run failed: {type(exc).__name__}: {exc}", file=sys.stderr)
+        return 1

@@ -1,0 +1,159 @@
+"""``bayescrust chart``: probability of each interpretation against observed Vp."""
+
+from __future__ import annotations
+
+import contextlib
+import sys
+from pathlib import Path
+
+from ..config import load_study
+from .layers import assumptions, build, run_one, run_toml, select_layers, thermal_set
+from .shell import (
+    AtomicFolder,
+    InputError,
+    Warnings,
+    add_common_options,
+    save_figure,
+    use_agg,
+    write_text,
+)
+
+__all__ = ["add_parser", "cmd_chart", "do_chart", "probability_table"]
+
+
+def probability_table(study, layer, vp_values, *, thermals=None, method="exact", seed=0,
+                      progress=False, warn=None):
+    """Interpretation probabilities for a range of observed Vp (same depth, same error).
+
+    Computed through the public API: with the exact method one prior design per thermal prior,
+    weighed against every Vp (:func:`bayescrust.probability_chart`); with MCMC one inversion per
+    (thermal prior, Vp). The layer's other observations are unchanged. Returns a long
+    DataFrame: thermal_prior, vp, hypothesis, probability, mcse.
+    """
+    import pandas as pd
+
+    if "vp" not in layer.observations:
+        raise InputError(f"{study.source}: layer {layer.name!r}: chart needs an observed vp")
+    sigma = layer.observations["vp"].sigma
+    thermals = thermals if thermals is not None else thermal_set(study)
+    if method == "exact":
+        from ..inference import UniformTemperature, probability_chart
+
+        frames = []
+        ctx = warn.catch(f"chart of {layer.name!r}") if warn else contextlib.nullcontext()
+        with ctx:
+            for th in thermals:
+                lay, kw = build(study, layer, thermal=th)
+                pri = dict(kw.pop("priors", {}))
+                tp = pri.pop("temperature_c", UniformTemperature(0.0, 1400.0))
+                try:
+                    frames.append(probability_chart(
+                        lay, vp_values, thermal_priors={th.name: tp}, seed=seed, priors=pri,
+                        **kw, **study.sampler.arguments("exact")))
+                except ValueError as exc:
+                    raise InputError(f"{study.source}: layer {layer.name!r}: {exc}") from None
+        return pd.concat(frames, ignore_index=True)[
+            ["thermal_prior", "vp", "hypothesis", "probability", "mcse"]]
+    rows = []
+    total = len(thermals) * len(vp_values)
+    bar = None
+    if progress:
+        from tqdm.auto import tqdm
+
+        bar = tqdm(total=total, desc="chart", unit="inversion", file=sys.stderr)
+    ctx = warn.catch(f"chart of {layer.name!r}") if warn else contextlib.nullcontext()
+    with ctx:
+        for th in thermals:
+            for v in vp_values:
+                res = run_one(study, layer, method=method, seed=seed, progress=False,
+                               thermal=th, observed={"vp": (float(v), sigma)})
+                for h, row in res.hypotheses.iterrows():
+                    rows.append({"thermal_prior": th.name, "vp": float(v), "hypothesis": h,
+                                 "probability": row["posterior_probability"],
+                                 "mcse": row["posterior_mcse"]})
+                if bar is not None:
+                    bar.update()
+    if bar is not None:
+        bar.close()
+    return pd.DataFrame(rows)
+
+
+def _vp_grid(args, layer):
+    import numpy as np
+
+    vp = layer.observations.get("vp")
+    lo = args.vp_min if args.vp_min is not None else (vp.value - 0.8 if vp else 6.0)
+    hi = args.vp_max if args.vp_max is not None else (vp.value + 0.8 if vp else 8.4)
+    if not 1.0 <= lo < hi <= 10.0:
+        raise InputError(f"--vp-min/--vp-max: got {lo:g}..{hi:g}, expected 1 <= min < max <= 10 "
+                         "km/s")
+    if not 2 <= args.points <= 500:
+        raise InputError(f"--points: got {args.points}, expected an integer in [2, 500]")
+    return np.round(np.linspace(lo, hi, args.points), 6)
+
+
+def do_chart(args, study, dest: Path, *, layer_name, method, figures: bool):
+    from ..report.caution import caution_text
+
+    if layer_name is None:
+        if len(study.layers) != 1:
+            names = ", ".join(repr(lay.name) for lay in study.layers)
+            raise InputError(f"{study.source}: --layer: required (the study has "
+                             f"{len(study.layers)} layers: {names})")
+        layer = study.layers[0]
+    else:
+        layer = select_layers(study, [layer_name])[0][1]
+    grid = _vp_grid(args, layer)
+    seed = study.seed if args.seed is None else args.seed
+    warn = Warnings(args)
+    table = probability_table(study, layer, grid, method=method, seed=seed,
+                              progress=not args.quiet, warn=warn)
+    from ..report.tables import to_csv
+
+    write_text(dest / "chart.csv", to_csv(table, index=False))
+    if figures:
+        from ..report import figures as F  # noqa: N812
+
+        vp = layer.observations["vp"]
+        fig = F.probability_chart(table, observed=(vp.value, vp.sigma),
+                                  title=f"{layer.name}: probability against observed Vp "
+                                        f"(σ = {vp.sigma:g} km/s)")
+        save_figure(fig, dest, "chart")
+    extra = {"command": "chart", "layer": layer.name, "method": method, "seed": seed,
+             "vp_grid": [float(v) for v in grid]}
+    write_text(dest / "run.toml", run_toml(study, extra))
+    lines = [f"# {study.title}: probability chart for {layer.name!r}", "",
+             caution_text(assumptions(study, layer)),
+             "`chart.csv` holds, for each thermal-state prior and each observed Vp (other "
+             "observations and errors as in the study file), the posterior probability of each "
+             "interpretation and its Monte Carlo standard error. The shaded band in the figure "
+             "is the layer's observed Vp ± 1σ.", ""]
+    if warn.messages:
+        lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
+    write_text(dest / "report.md", "\n".join(lines))
+    return table
+
+
+def cmd_chart(args) -> int:
+    study = load_study(args.study)
+    if not args.no_figures:
+        use_agg()
+    with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
+        do_chart(args, study, tmp, layer_name=args.layer, method=args.method,
+                  figures=not args.no_figures)
+    print(args.out)
+    return 0
+
+
+def add_parser(sub) -> None:
+    """Register the ``chart`` command."""
+    sp = sub.add_parser("chart", help="probability of each interpretation against observed Vp")
+    sp.add_argument("study", metavar="STUDY.toml")
+    add_common_options(sp, method=False)
+    sp.add_argument("--layer", metavar="NAME", help="the layer (required if several)")
+    sp.add_argument("--vp-min", type=float, help="lowest Vp (km/s; default observed - 0.8)")
+    sp.add_argument("--vp-max", type=float, help="highest Vp (km/s; default observed + 0.8)")
+    sp.add_argument("--points", type=int, default=25, help="number of Vp values (default 25)")
+    sp.add_argument("--method", choices=("exact", "mcmc"), default="exact",
+                    help="exact reference (default, fast) or MCMC")
+    sp.set_defaults(func=cmd_chart)

@@ -1,0 +1,114 @@
+"""``bayescrust invert``: invert every (or the chosen) layer of a study file."""
+
+from __future__ import annotations
+
+import time
+from pathlib import Path
+
+from .layers import assumptions, run_one, run_toml, select_layers, study_command
+from .shell import (
+    Warnings,
+    add_common_options,
+    layer_seed,
+    save_figure,
+    say,
+    slug,
+    write_table,
+    write_text,
+)
+
+__all__ = ["add_parser", "cmd_invert", "do_invert"]
+
+
+def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=None) -> dict:
+    import pandas as pd
+
+    from ..report.caution import caution_text
+    from ..report.tables import to_markdown
+
+    seed = study.seed if args.seed is None else args.seed
+    chosen = select_layers(study, layer_names)
+    warn = Warnings(args)
+    results = {}
+    summaries, hyps, seeds, times = [], [], {}, {}
+    for k, (i, layer) in enumerate(chosen):
+        s = layer_seed(seed, i)
+        seeds[layer.name] = s
+        say(args, f"[{k + 1}/{len(chosen)}] layer {layer.name!r} ({method})")
+        t0 = time.perf_counter()
+        with warn.catch(f"layer {layer.name!r}"):
+            res = run_one(study, layer, method=method, seed=s, progress=not args.quiet)
+        times[layer.name] = round(time.perf_counter() - t0, 3)
+        results[layer.name] = res
+        sub = dest / "layers" / slug(layer.name)
+        sub.mkdir(parents=True)
+        res.idata.to_netcdf(str(sub / "posterior.nc"), engine="h5netcdf")
+        write_table(sub, "summary", res.summary,
+                     caption=f"Posterior summary, layer {layer.name} (94 % HDI)")
+        write_table(sub, "hypotheses", res.hypotheses,
+                     caption=f"Interpretations, layer {layer.name}")
+        sm = res.summary.reset_index()
+        sm.insert(0, "layer", layer.name)
+        summaries.append(sm)
+        hy = res.hypotheses.reset_index()
+        hy.insert(0, "layer", layer.name)
+        hy["log_evidence"] = res.log_evidence
+        hy["log_evidence_error"] = res.log_evidence_error
+        hyps.append(hy)
+        if figures:
+            with warn.catch(f"figures of layer {layer.name!r}"):
+                _layer_figures(res, layer, sub / "figures", method)
+    summary = pd.concat(summaries, ignore_index=True).set_index("layer")
+    hypotheses = pd.concat(hyps, ignore_index=True).set_index("layer")
+    write_table(dest, "summary", summary, caption="Posterior summary per layer (94 % HDI)")
+    write_table(dest, "hypotheses", hypotheses,
+                 caption="Interpretations per layer: prior and posterior probabilities")
+    extra = {"command": "invert", "method": method, "seed": seed,
+             "layer_seeds": seeds, "wall_time_s": times}
+    write_text(dest / "run.toml", run_toml(study, extra))
+    lines = [f"# {study.title}", "", "Results of `bayescrust invert`.", "",
+             caution_text(assumptions(study)), "## Interpretations", ""]
+    for name, res in results.items():
+        lines += [f"### {name}", "", to_markdown(res.hypotheses[[
+            "prior_probability", "posterior_probability", "posterior_mcse", "bayes_factor",
+            "evidence_category"]]),
+            f"log evidence: {res.log_evidence:.3f} ± {res.log_evidence_error:.3f}; "
+            f"converged: {res.diagnostics.get('converged')}", ""]
+    if warn.messages:
+        lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
+    lines += ["## Files", "", "- `summary.*`, `hypotheses.*`: all layers (CSV, Markdown, LaTeX)",
+              "- `layers/<layer>/posterior.nc`: arviz InferenceData (NetCDF)",
+              "- `layers/<layer>/figures/`: corner, trace (MCMC only), predictive check, "
+              "prior vs posterior (PNG and PDF)", "- `run.toml`: the resolved configuration", ""]
+    write_text(dest / "report.md", "\n".join(lines))
+    return results
+
+
+def _layer_figures(res, layer, folder: Path, method: str):
+    from matplotlib.figure import Figure  # noqa: F401  (ensures matplotlib is importable)
+
+    from ..report import figures as F  # noqa: N812
+
+    names = F.free_parameters(res.idata)
+    makers = [("predictive", lambda: F.predictive_figure(res.idata))]
+    if names:
+        # the corner plot leaves out the last rock fraction (one minus the others)
+        makers.insert(0, ("corner", lambda: F.corner_figure(res.idata)))
+        makers.append(("marginals", lambda: F.marginals_figure(res.idata, var_names=names)))
+        if method == "mcmc":
+            makers.append(("trace", lambda: F.trace_figure(res.idata, var_names=names)))
+    for stem, make in makers:
+        fig = make()
+        save_figure(fig, folder, stem)
+
+
+def cmd_invert(args) -> int:
+    return study_command(args, do_invert)
+
+
+def add_parser(sub) -> None:
+    """Register the ``invert`` command."""
+    sp = sub.add_parser("invert", help="invert every layer of a study file")
+    sp.add_argument("study", metavar="STUDY.toml")
+    add_common_options(sp, layer="many")
+    sp.set_defaults(func=cmd_invert)

@@ -1,0 +1,104 @@
+"""Shared pieces of the layer commands (``invert``, ``compare``, ``chart``): choosing layers,
+building the API objects, running one layer, the assumptions text and the ``run.toml`` echo."""
+
+from __future__ import annotations
+
+from ..config import ThermalSpec, dumps_toml, load_study, study_to_dict
+from .shell import AtomicFolder, InputError, use_agg
+
+__all__ = ["assumptions", "build", "run_one", "select_layers", "run_toml", "thermal_set",
+           "study_command"]
+
+
+def assumptions(study, layer=None, thermal=None) -> dict:
+    from ..config.echo import prior_dict
+
+    a = {
+        "forward model": ", ".join(f"{k}={v}" for k, v in study.forward.items())
+        or "package defaults (Hill mixing, DEM inclusions, lizardite, anelastic correction)",
+        "rocks": ", ".join(study.rocks_for(layer) if layer else study.rocks),
+        "likelihood": study.likelihood + (
+            f" (model error {study.model_error_for(layer)})" if layer is not None
+            and study.model_error_for(layer) is not None else " (default forward-model error)"),
+    }
+    if layer is not None:
+        pri = study.priors_for(layer)
+        a["priors"] = "; ".join(f"{k}: {prior_dict(v)}" for k, v in pri.items()) or "defaults"
+    th = thermal if thermal is not None else (study.thermal_for(layer) if layer else None)
+    if th is not None:
+        a["thermal-state prior"] = f"{th.name} ({th.kind})"
+    a["interpretations"] = "as named in the study file (or the package defaults)"
+    return a
+
+
+def build(study, layer, **kw):
+    """Layer object and API keyword arguments; API validation errors are input errors."""
+    from ..config import build_layer, layer_arguments
+
+    try:
+        return build_layer(study, layer), layer_arguments(study, layer, **kw)
+    except (ValueError, TypeError) as exc:
+        raise InputError(f"{study.source}: layer {layer.name!r}: {exc}") from None
+
+
+def run_one(study, layer, *, method, seed, progress, thermal=None, observed=None,
+             sampler=True):
+    """Invert one layer through the public API (``invert_layer`` or ``exact_layer``)."""
+    import bayescrust.inference.api as api
+
+    lay, kw = build(study, layer, thermal=thermal)
+    if observed is not None:  # replace observations (probability chart)
+        import dataclasses
+
+        lay = dataclasses.replace(lay, **observed)
+    if sampler:
+        kw.update(study.sampler.arguments(method))
+    if method == "exact":
+        return api.exact_layer(lay, seed=seed, **kw)
+    return api.invert_layer(lay, seed=seed, progress=progress, **kw)
+
+
+def select_layers(study, names):
+    if not names:
+        return list(enumerate(study.layers))
+    out = []
+    for n in names:
+        try:
+            lay = study.layer(n)
+        except KeyError as exc:
+            raise InputError(f"{study.source}: --layer: {exc.args[0]}") from None
+        out.append((study.layers.index(lay), lay))
+    return out
+
+
+def run_toml(study, extra: dict) -> str:
+    from .. import __version__
+
+    data = study_to_dict(study)
+    if extra.get("seed") is not None:
+        data["seed"] = extra["seed"]  # the seed actually used (--seed overrides the study's)
+    # provenance goes under [run], which study files may carry and the reader ignores
+    data["run"] = {"bayescrust_version": __version__, "study_file": str(study.source), **extra}
+    return dumps_toml(data, header="Resolved configuration of this run, written by bayescrust.\n"
+                                   "Re-run with: bayescrust invert run.toml --out NEW_FOLDER")
+
+
+def thermal_set(study):
+    if study.thermal:
+        return list(study.thermal.values())
+    return [ThermalSpec("uniform", "uniform", {"lo": 0.0, "hi": 1400.0}),
+            ThermalSpec("half_space", "half_space", {}),
+            ThermalSpec("hot_axial", "hot_axial", {})]
+
+
+def study_command(args, run) -> int:
+    """Shared shell of ``invert`` and ``compare``: read the study, run into an atomic folder."""
+    study = load_study(args.study)
+    method = args.method or study.sampler.method
+    if not args.no_figures:
+        use_agg()
+    with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
+        run(args, study, tmp, method=method, figures=not args.no_figures,
+            layer_names=args.layer)
+    print(args.out)
+    return 0

@@ -1,0 +1,34 @@
+"""The argument parser, built from each command module's ``add_parser(subparsers)``.
+
+A new command is one new module in this package (with ``add_parser`` registering a sub-parser
+whose ``func`` default is the command, ``cmd_NAME(args) -> int``) plus one entry in
+:data:`COMMANDS`; the order of :data:`COMMANDS` is the order of ``bayescrust -h``.
+"""
+
+from __future__ import annotations
+
+import argparse
+
+from . import chart, check, compare, demo, forward, invert
+
+__all__ = ["COMMANDS", "build_parser"]
+
+#: Command modules, in the order shown by ``bayescrust -h``.
+COMMANDS = (demo, invert, compare, chart, forward, check)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The ``bayescrust`` parser with every command of :data:`COMMANDS` registered."""
+    from .. import __version__
+
+    p = argparse.ArgumentParser(
+        prog="bayescrust",
+        description="Posterior probabilities of rock type, temperature, porosity and melt from "
+                    "seismic velocities of oceanic crust and uppermost mantle.",
+        epilog="Exit codes: 0 success, 1 run failed, 2 bad input. Interpretations are "
+               "model-dependent; see docs/interpretation.md.")
+    p.add_argument("--version", action="version", version=f"bayescrust {__version__}")
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    for command in COMMANDS:
+        command.add_parser(sub)
+    return p

@@ -1,0 +1,179 @@
+"""The shared shell of every command: input errors, atomic output folders, writing tables and
+figures, collecting warnings, per-layer seeds and the common options."""
+
+from __future__ import annotations
+
+import contextlib
+import shutil
+import sys
+import tempfile
+import warnings
+from pathlib import Path
+
+from ..config import layer_slug
+
+__all__ = ["InputError", "AtomicFolder", "FIG_FORMATS", "slug", "say", "write_text",
+           "write_table", "save_figure", "use_agg", "layer_seed", "Warnings",
+           "add_common_options"]
+
+FIG_FORMATS = ("png", "pdf")
+
+
+class InputError(Exception):
+    """Bad input found by the command line (exit code 2)."""
+
+
+# ---------------------------------------------------------------------------------------------
+# Output folders: written into a temporary sibling, renamed into place on success
+# ---------------------------------------------------------------------------------------------
+
+
+class AtomicFolder:
+    """Context manager yielding a temporary folder that becomes ``final`` on success.
+
+    Refuses a non-empty existing folder unless ``overwrite``; on any failure the temporary folder
+    (and any parent folders it had to create) is removed, so no partial output is left.
+    """
+
+    def __init__(self, final, *, overwrite: bool = False, option: str = "--out"):
+        self.final = Path(final)
+        self.overwrite = overwrite
+        self.option = option
+        self.tmp: Path | None = None
+        self.created: list[Path] = []
+
+    def __enter__(self) -> Path:
+        final = self.final
+        if final.exists() or final.is_symlink():
+            if not final.is_dir():
+                raise InputError(f"{final}: {self.option}: exists and is not a folder")
+            if any(final.iterdir()) and not self.overwrite:
+                raise InputError(f"{final}: {self.option}: folder already holds results; choose "
+                                 "another folder or pass --overwrite")
+        parent = final.absolute().parent
+        missing = []
+        p = parent
+        while not p.exists():
+            missing.append(p)
+            p = p.parent
+        try:
+            for d in reversed(missing):
+                d.mkdir()
+                self.created.append(d)
+            self.tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.partial-", dir=parent))
+        except OSError as exc:
+            self._cleanup()
+            reason = exc.strerror or str(exc)
+            raise InputError(f"{final}: {self.option}: cannot write to this folder ({reason})"
+                             ) from None
+        return self.tmp
+
+    def _cleanup(self):
+        if self.tmp is not None:
+            shutil.rmtree(self.tmp, ignore_errors=True)
+        for d in reversed(self.created):
+            with contextlib.suppress(OSError):
+                d.rmdir()
+
+    def __exit__(self, exc_type, exc, tb):
+        if exc_type is not None:
+            self._cleanup()
+            return False
+        final = self.final
+        if final.exists():
+            old = Path(tempfile.mkdtemp(prefix=f".{final.name}.old-", dir=final.absolute().parent))
+            final.rename(old / "previous")
+            self.tmp.rename(final)
+            shutil.rmtree(old, ignore_errors=True)
+        else:
+            self.tmp.rename(final)
+        return False
+
+
+def slug(name: str) -> str:
+    """Folder-safe form of a layer name (see :func:`bayescrust.config.layer_slug`)."""
+    return layer_slug(name)
+
+
+def say(args, msg: str):
+    if not getattr(args, "quiet", False):
+        print(msg, file=sys.stderr)
+
+
+def write_text(path: Path, text: str):
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_text(text, encoding="utf-8")
+
+
+def write_table(folder: Path, stem: str, df, *, caption: str, index: bool = True):
+    from ..report.tables import to_csv, to_latex, to_markdown
+
+    write_text(folder / f"{stem}.csv", to_csv(df, index=index))
+    write_text(folder / f"{stem}.md", to_markdown(df, index=index))
+    write_text(folder / f"{stem}.tex", to_latex(df, index=index, caption=caption,
+                                                 label=f"tab:{slug(stem)}"))
+
+
+def save_figure(fig, folder: Path, stem: str):
+    folder.mkdir(parents=True, exist_ok=True)
+    for fmt in FIG_FORMATS:
+        fig.savefig(folder / f"{stem}.{fmt}", dpi=200 if fmt == "png" else None,
+                    bbox_inches="tight")
+
+
+def use_agg():
+    import matplotlib
+
+    matplotlib.use("Agg", force=True)
+
+
+def layer_seed(seed: int, index: int) -> int:
+    """Seed of layer ``index``: an independent stream spawned from the study seed."""
+    import numpy as np
+
+    return int(np.random.SeedSequence(seed, spawn_key=(index,)).generate_state(1, np.uint64)[0]
+               % (2**63))
+
+
+class Warnings:
+    """Collect warnings raised during a run; echo them to stderr once; keep them for the report."""
+
+    def __init__(self, args):
+        self.args = args
+        self.messages: list[str] = []
+
+    @contextlib.contextmanager
+    def catch(self, context: str):
+        with warnings.catch_warnings(record=True) as rec:
+            warnings.simplefilter("always")
+            yield
+        for w in rec:
+            if issubclass(w.category, (DeprecationWarning, PendingDeprecationWarning)):
+                continue
+            if "ArviZ is undergoing a major refactor" in str(w.message):
+                continue
+            msg = f"{context}: {w.category.__name__}: {w.message}"
+            if msg not in self.messages:
+                self.messages.append(msg)
+                say(self.args, f"bayescrust: warning: {msg}")
+
+
+def add_common_options(sp, *, out=True, seed=True, method=True, layer=None, figures=True):
+    """Options shared by the study commands (quiet, output folder, seed, method, ...)."""
+    sp.add_argument("-q", "--quiet", action="store_true", help="no progress or messages")
+    if out:
+        sp.add_argument("--out", required=out is True, default=None if out is True else out,
+                        metavar="DIR", help="output folder (created atomically)")
+        sp.add_argument("--overwrite", action="store_true",
+                        help="replace an output folder that already holds results")
+    if seed:
+        sp.add_argument("--seed", type=int, default=None,
+                        help="random seed (default: the study file's seed, else 0)")
+    if method:
+        sp.add_argument("--method", choices=("mcmc", "exact"), default=None,
+                        help="MCMC sampling or the exact reference (default: study file)")
+    if figures:
+        sp.add_argument("--no-figures", action="store_true", help="tables only")
+    if layer == "many":
+        sp.add_argument("--layer", action="append", metavar="NAME",
+                        help="only this layer (repeatable; default: every layer)")
