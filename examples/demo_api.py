@@ -1,6 +1,6 @@
 """The demo study from Python: the same job as `bayescrust demo`, through the public API.
 
-INVENTED DATA: the Vestra Ridge, segment VR-3 and lines VX-07/VX-12 are fictional.
+INVENTED DATA: the Tallowmere Ridge, segment TM-3 and lines TL-07/TL-12 are fictional.
 
 Run:  python examples/demo_api.py [OUTPUT_FOLDER]
 """
@@ -28,8 +28,8 @@ from bayescrust.report.caution import CAUTION  # noqa: E402
 out = Path(sys.argv[1] if len(sys.argv) > 1 else "demo_api_output")
 out.mkdir(parents=True, exist_ok=True)
 
-# 1. One layer, as in the study file: the deep layer of line VX-07 (Vp only).
-layer = Layer("deep layer (VX-07)", top_km=4.6, bottom_km=6.6, water_depth_km=3.4,
+# 1. One layer, as in the study file: the deep layer of line TL-07 (Vp only).
+layer = Layer("deep layer (TL-07)", top_km=4.6, bottom_km=6.6, water_depth_km=3.4,
               vp=(7.2, 0.12))
 interpretations = {
     "gabbroic crust": {"ultramafic_fraction": (0.0, 0.5)},

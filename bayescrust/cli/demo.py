@@ -14,9 +14,9 @@ from .shell import AtomicFolder, add_common_options, say, use_agg, write_text
 
 __all__ = ["add_parser", "cmd_demo", "demo_text", "DEMO_FILES"]
 
-DEMO_FILES = ("vestra_ridge.toml", "one_layer.toml")
-_DEMO_CHART_LAYER = "deep layer (VX-07, Vp only)"
-_DEMO_COMPARE_LAYERS = ("deep layer (VX-07, Vp only)", "deep layer (VX-12, Vp and Vs)")
+DEMO_FILES = ("tallowmere_ridge.toml", "one_layer.toml")
+_DEMO_CHART_LAYER = "deep layer (TL-07, Vp only)"
+_DEMO_COMPARE_LAYERS = ("deep layer (TL-07, Vp only)", "deep layer (TL-12, Vp and Vs)")
 
 
 def demo_text(name: str) -> str:
@@ -60,7 +60,7 @@ def cmd_demo(args) -> int:
         elapsed = time.perf_counter() - t0
         write_text(tmp / "README.md", "\n".join([
             "# bayescrust demo (invented data)", "",
-            "The Vestra Ridge, segment VR-3 and lines VX-07 / VX-12 are fictional; every "
+            "The Tallowmere Ridge, segment TM-3 and lines TL-07 / TL-12 are fictional; every "
             "velocity in `study/` was made up to exercise the software.", "",
             caution_text(assumptions(study)),
             "## Contents", "",
@@ -69,10 +69,10 @@ def cmd_demo(args) -> int:
             f"- `compare/`: the deep layers under three thermal-state priors ({compare_method})",
             "- `chart/`: probability of each interpretation against observed Vp", "",
             "Reproduce from the shell:", "",
-            "    bayescrust invert study/vestra_ridge.toml --out my_run",
-            "    bayescrust compare study/vestra_ridge.toml --out my_compare "
+            "    bayescrust invert study/tallowmere_ridge.toml --out my_run",
+            "    bayescrust compare study/tallowmere_ridge.toml --out my_compare "
             f"--layer '{_DEMO_COMPARE_LAYERS[0]}'",
-            f"    bayescrust chart study/vestra_ridge.toml --layer '{_DEMO_CHART_LAYER}' "
+            f"    bayescrust chart study/tallowmere_ridge.toml --layer '{_DEMO_CHART_LAYER}' "
             "--out my_chart", "",
             f"Run time of this demo: {elapsed:.1f} s.", ""]))
     say(args, f"demo: done in {time.perf_counter() - t0:.1f} s; start with {out}/README.md")

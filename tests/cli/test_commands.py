@@ -161,7 +161,7 @@ def test_demo_runs(tmp_path):
     assert main(["demo", "--out", str(out), "-q", "--points", "3"]) == 0
     assert (out / "README.md").is_file()
     assert "invented" in (out / "README.md").read_text().lower()
-    assert (out / "study" / "vestra_ridge.toml").is_file()
+    assert (out / "study" / "tallowmere_ridge.toml").is_file()
     assert (out / "invert" / "hypotheses.csv").is_file()
     assert (out / "compare" / "evidence.csv").is_file()
     assert (out / "chart" / "chart.png").is_file()
