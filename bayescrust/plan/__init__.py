@@ -1,0 +1,40 @@
+"""Planning the next observation: the value of a candidate datum before it is measured.
+
+For each candidate (an observable with an error), preposterior simulation from today's
+posterior and importance reweighting give the expected probability of the true interpretation,
+the expected entropy and information gain, the chance of a decisive answer and the expected
+narrowing of the temperature interval, each with its Monte Carlo error. See ``docs/plan.md``.
+"""
+
+from .api import RANK_KEYS, PlanResult, plan_layer, preposterior, sentence
+from .candidates import (
+    LAYER_OBSERVABLES,
+    PROFILE_OBSERVABLES,
+    Candidate,
+    as_candidates,
+    default_candidates,
+)
+from .ensemble import NONE_CLASS, Ensemble, ensemble_from_design, ensemble_from_result
+from .preposterior import DegeneracyWarning, Settings, current_state, evaluate, update
+
+__all__ = [
+    "LAYER_OBSERVABLES",
+    "NONE_CLASS",
+    "PROFILE_OBSERVABLES",
+    "RANK_KEYS",
+    "Candidate",
+    "DegeneracyWarning",
+    "Ensemble",
+    "PlanResult",
+    "Settings",
+    "as_candidates",
+    "current_state",
+    "default_candidates",
+    "ensemble_from_design",
+    "ensemble_from_result",
+    "evaluate",
+    "plan_layer",
+    "preposterior",
+    "sentence",
+    "update",
+]

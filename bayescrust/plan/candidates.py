@@ -1,0 +1,134 @@
+"""Candidate additions: an observable with a 1-sigma error, and the default list for a layer.
+
+A candidate is one new, independent measurement of an observable of the layer (Vp, Vs, Vp/Vs,
+density) with a stated measurement error. Measured again, an observable the layer already has
+shares the forward-model error with the existing datum (see :mod:`.likelihood`). Heat flow is an
+observable of a whole profile, not of one layer: :data:`PROFILE_OBSERVABLES` names it so the
+profile planner (not built here) can accept it; a layer planner rejects it with a clear message.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from ..inference.layer import OBSERVABLES
+
+__all__ = ["Candidate", "default_candidates", "LAYER_OBSERVABLES", "PROFILE_OBSERVABLES",
+           "as_candidates"]
+
+#: Observables a candidate of one layer may name (those of :class:`bayescrust.Layer`).
+LAYER_OBSERVABLES = tuple(OBSERVABLES)
+#: Observables only a profile can predict (surface heat flow, mW/m^2); hook for the profile study.
+PROFILE_OBSERVABLES = ("heat_flow",)
+
+_UNITS = {k: unit for k, (_, unit) in OBSERVABLES.items()} | {"heat_flow": "mW/m^2"}
+_NAMES = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density",
+          "heat_flow": "heat flow"}
+
+#: Default candidate errors (1 sigma) per observable, in the observable's unit. These are
+#: planning choices, not literature values: a spread from a good to a rough measurement.
+_DEFAULT_SIGMAS = {"vs": (0.05, 0.1, 0.2, 0.3), "vp_vs": (0.02, 0.05), "density": (0.03, 0.1),
+                   "vp": (0.03, 0.06)}
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """One candidate new datum.
+
+    Parameters
+    ----------
+    observable : str
+        ``vp``, ``vs`` (km/s), ``vp_vs`` or ``density`` (g/cm^3); ``heat_flow`` for profiles.
+    sigma : float
+        Its 1-sigma measurement error, in the observable's unit; ``inf`` is the "measure
+        nothing" baseline (the datum carries no information).
+    model_error : float, optional
+        Forward-model error of this observable as a fraction of the predicted value (added in
+        quadrature, as in the layer's likelihood); default: the layer model's own setting.
+    label : str, optional
+        Name in tables and figures (default e.g. ``"Vs ± 0.1 km/s"``).
+    """
+
+    observable: str
+    sigma: float
+    model_error: float | None = None
+    label: str | None = None
+
+    def __post_init__(self):
+        allowed = LAYER_OBSERVABLES + PROFILE_OBSERVABLES
+        if self.observable not in allowed:
+            raise ValueError(f"candidate observable must be one of {list(allowed)}; "
+                             f"got {self.observable!r}")
+        try:
+            s = float(self.sigma)
+        except (TypeError, ValueError) as exc:
+            raise ValueError(f"candidate {self.observable}: sigma must be a number; got "
+                             f"{self.sigma!r}") from exc
+        if math.isnan(s) or not s > 0:
+            raise ValueError(f"candidate {self.observable}: sigma must be > 0 (inf for no "
+                             f"information); got {self.sigma!r}")
+        object.__setattr__(self, "sigma", s)
+        if self.model_error is not None:
+            me = float(self.model_error)
+            if not math.isfinite(me) or not 0.0 <= me <= 0.5:
+                raise ValueError(f"candidate {self.observable}: model_error must be in [0, 0.5]"
+                                 f" (fraction of the predicted value); got {self.model_error!r}")
+            object.__setattr__(self, "model_error", me)
+        if self.label is None:
+            object.__setattr__(self, "label", f"{self.name} ± {self.sigma:g} {self.unit}".strip())
+
+    @property
+    def name(self) -> str:
+        """Trade name of the observable (``Vs``, ``Vp/Vs``, ...)."""
+        return _NAMES[self.observable]
+
+    @property
+    def unit(self) -> str:
+        """Unit of the observable and of ``sigma``."""
+        return _UNITS[self.observable]
+
+
+def default_candidates(layer=None) -> tuple[Candidate, ...]:
+    """Ten default candidates: Vs at four errors, Vp/Vs, density and a tighter Vp at two each.
+
+    With a ``layer`` that has a Vp error of its own, the Vp candidates are kept only where they
+    are tighter than it (a repeat Vp with a larger error than today's is of little interest).
+    """
+    out = []
+    vp_sigma = None
+    if layer is not None and getattr(layer, "vp", None) is not None:
+        vp_sigma = layer.vp[1]
+    for obs, sigmas in _DEFAULT_SIGMAS.items():
+        for s in sigmas:
+            if obs == "vp" and vp_sigma is not None and s >= vp_sigma:
+                continue
+            out.append(Candidate(obs, s))
+    return tuple(out)
+
+
+def as_candidates(candidates, layer=None, *, profile=False) -> tuple[Candidate, ...]:
+    """Validate a list of :class:`Candidate` (or ``(observable, sigma)`` pairs); ``None`` gives
+    :func:`default_candidates`. ``heat_flow`` needs a profile (``profile=True``)."""
+    if candidates is None:
+        return default_candidates(layer)
+    out = []
+    for c in candidates:
+        if not isinstance(c, Candidate):
+            try:
+                obs, s = c
+            except (TypeError, ValueError) as exc:
+                raise ValueError(f"a candidate must be a Candidate or an (observable, sigma) "
+                                 f"pair; got {c!r}") from exc
+            c = Candidate(obs, s)
+        if c.observable in PROFILE_OBSERVABLES and not profile:
+            raise ValueError(f"candidate {c.label!r}: {c.name} is predicted by a profile's "
+                             "thermal model, not by one layer; plan it on a profile")
+        out.append(c)
+    if not out:
+        raise ValueError("candidates: give at least one candidate")
+    labels = [c.label for c in out]
+    dup = sorted({x for x in labels if labels.count(x) > 1})
+    if dup:
+        raise ValueError(f"candidates: labels must be distinct; repeated {dup}")
+    return tuple(out)
