@@ -96,7 +96,9 @@ def test_matches_closed_form(s):
 
 def test_law_of_total_probability():
     ens = toy_ensemble(n_log2=15, seed=3)
-    plan = preposterior(ens, [("vs", 0.2), ("vs", 1.0)], seed=5, n_simulations=2000)
+    # the identity holds for every update, degenerate or not: min_ess lowered so that a rare
+    # tail datum of the prior design does not warn
+    plan = preposterior(ens, [("vs", 0.2), ("vs", 1.0)], seed=5, n_simulations=2000, min_ess=5)
     cal = plan.calibration
     assert np.all(np.abs(cal["average_updated"] - cal["today"]) <= 4 * cal["mcse"])
     assert np.all(cal["mcse"] > 0)
