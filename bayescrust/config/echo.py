@@ -64,4 +64,8 @@ def study_to_dict(study: StudySpec) -> dict:
             d["hypotheses"] = {h: {p: list(b) for p, b in c.items()} for h, c in hy.items()}
         layers.append(d)
     out["layers"] = layers
+    if getattr(study, "plan", None) is not None:
+        from .plan import plan_dict
+
+        out["plan"] = plan_dict(study.plan)
     return out

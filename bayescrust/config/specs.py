@@ -96,6 +96,7 @@ class StudySpec:
     hypotheses: dict[str, dict[str, tuple[float, float]]] | None
     layers: tuple[LayerSpec, ...]
     sampler: SamplerSpec
+    plan: Any = None  # a config.plan.PlanSpec when the study has a [plan] section
 
     def layer(self, name: str) -> LayerSpec:
         """Return the layer called ``name`` (``KeyError`` with the nearest name otherwise)."""

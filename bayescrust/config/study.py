@@ -17,6 +17,7 @@ from .forward import read_forward
 from .hypotheses import read_hypotheses
 from .layers import read_layer, read_model_error
 from .limits import DEFAULT_ROCKS, known_rocks, layer_slug
+from .plan import read_plan
 from .priors import read_priors
 from .reader import Reader
 from .sampler import read_sampler
@@ -28,7 +29,7 @@ __all__ = ["TOP_KEYS", "LIKELIHOOD_KINDS", "load_study", "parse_study", "read_st
 TOP_KEYS = (
     "title", "description", "water_depth_km", "seed", "rocks", "model_error",
     "likelihood", "student_t_nu", "thermal_prior", "priors", "thermal", "hypotheses", "layers",
-    "sampler", "forward", "run",
+    "sampler", "forward", "plan", "run",
 )
 LIKELIHOOD_KINDS = ("gaussian", "student_t")
 
@@ -120,6 +121,7 @@ def read_study(r: Reader, data: dict) -> StudySpec:
     if "hypotheses" in data:
         hyps = read_hypotheses(r, "hypotheses", data["hypotheses"], rocks)
     sampler = read_sampler(r, "sampler", data["sampler"]) if "sampler" in data else SamplerSpec()
+    plan = read_plan(r, "plan", data["plan"]) if "plan" in data else None
     if "layers" not in data:
         r.fail("layers", "missing; expected at least one [[layers]] table")
     raw_layers = data["layers"]
@@ -154,5 +156,10 @@ def read_study(r: Reader, data: dict) -> StudySpec:
             r.got(f"layers[{i}].priors.fractions.alpha" if "fractions" in lay.priors
                      else "priors.fractions.alpha", fr.params["alpha"],
                      f"one value per rock of layer {lay.name!r} ({len(use_rocks)})")
+    if plan is not None and plan.layer is not None and plan.layer not in seen.values():
+        from .errors import suggest
+
+        r.fail("plan.layer", f"no layer named {plan.layer!r}; "
+                             f"{suggest(plan.layer, list(seen.values()))}")
     return StudySpec(r.source, title, desc, water, seed, rocks, model_error, likelihood,
-                     nu, forward, priors, thermal, tp, hyps, layers, sampler)
+                     nu, forward, priors, thermal, tp, hyps, layers, sampler, plan=plan)

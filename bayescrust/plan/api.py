@@ -66,6 +66,10 @@ def _pct(x):
     return f"{100 * x:.0f} %"
 
 
+def _pm(se):
+    return f"± {_pct(se)}" if se >= 0.005 else "± < 1 %"
+
+
 def sentence(label, row, today, *, quantity_label="temperature interval",
              unit="°C", settings=None) -> str:
     """Plain-language summary of one candidate's row of the plan table."""
@@ -77,13 +81,18 @@ def sentence(label, row, today, *, quantity_label="temperature interval",
         head = f"Today's answer is already decisive ({thr}); {label} keeps it so in "
     else:
         head = f"{label} settles the question ({thr}) in "
-    text = (f"{head}~{_pct(pd_)} (± {_pct(se)}) of cases; the expected probability of the "
+    text = (f"{head}~{_pct(pd_)} ({_pm(se)}) of cases; the expected probability of the "
             f"true interpretation goes from {_pct(today['expected_p_true'])} to "
             f"{_pct(row['expected_p_true'])}")
-    nar = row["interval_narrowing"]
+    nar, nse = row["interval_narrowing"], row["interval_narrowing_mcse"]
+    mass = _pct(s.get("interval", 0.94))
     if math.isfinite(nar) and today["interval_width"] > 0:
-        text += (f", and the 94 % {quantity_label} narrows by ~{nar:.0f} {unit} on average "
-                 f"(from {today['interval_width']:.0f} {unit})")
+        if abs(nar) <= 2 * nse or abs(nar) < 0.5:
+            text += f", and the {mass} {quantity_label} does not change noticeably"
+        else:
+            verb = "narrows" if nar > 0 else "widens"
+            text += (f", and the {mass} {quantity_label} {verb} by ~{abs(nar):.0f} {unit} on "
+                     f"average (from {today['interval_width']:.0f} {unit})")
     if row["information_gain_bits"] < 2 * max(row["information_gain_bits_mcse"], 1e-12) + 0.01:
         text += "; it adds almost nothing to what is known"
     return text + "."

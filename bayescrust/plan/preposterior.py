@@ -49,7 +49,7 @@ class Settings:
 
     def __init__(self, *, n_simulations=1000, decisive_probability=0.9,
                  decisive_bayes_factor=10.0, interval=0.94, quantity="temperature_c",
-                 min_ess=50.0, max_reruns=100, rerun_points=4096, block=128):
+                 min_ess=50.0, max_reruns=100, rerun_points=4096, block=32):
         checks = (("n_simulations", n_simulations, 2, 10**7), ("min_ess", min_ess, 1, 10**7),
                   ("max_reruns", max_reruns, 0, 10**6), ("rerun_points", rerun_points, 16, 2**22),
                   ("block", block, 1, 10**6))
@@ -153,15 +153,40 @@ class _Kernel:
         return self
 
     def summarise(self, lw, s: Settings):
-        """Class and hypothesis probabilities, ESS and interval width per row of ``lw``."""
+        """Class and hypothesis probabilities, ESS and interval width per row of ``lw``
+        (``lw`` is overwritten by the weights)."""
         m = np.max(lw, axis=1, keepdims=True)
-        w = np.exp(lw - np.where(np.isfinite(m), m, 0.0))
+        lw -= np.where(np.isfinite(m), m, 0.0)
+        w = np.exp(lw, out=lw)
         sw = w.sum(axis=1)
-        p = (w @ self.onehot) / sw[:, None]
-        h = (w @ self.hyp) / sw[:, None]
+        k = self.onehot.shape[1]
+        ph = (w @ self.class_and_hyp) / sw[:, None]
         ess = sw**2 / np.einsum("ij,ij->i", w, w)
         width = _interval_width(w, self.t_sorted, self.starts, s.interval)
-        return p, h, ess, width
+        return ph[:, :k], ph[:, k:], ess, width
+
+    @property
+    def class_and_hyp(self):
+        if getattr(self, "_ch", None) is None:
+            self._ch = np.ascontiguousarray(np.concatenate([self.onehot, self.hyp], axis=1))
+        return self._ch
+
+    def block_log_weights(self, y, loc, scale, ens):
+        """Today's log-weights plus the new datum's log-likelihood, (len(y), n), in place."""
+        if ens.likelihood != "gaussian" or np.any(np.isinf(scale)):
+            return self.lw0 + datum_log_likelihood(y[:, None], loc[None, :], scale[None, :],
+                                                   likelihood=ens.likelihood, nu=ens.nu)
+        if getattr(self, "_base_for", None) is not scale:
+            with np.errstate(divide="ignore"):
+                self._base = self.lw0 - np.log(scale) - 0.5 * math.log(2 * math.pi)
+            self._inv = 1.0 / scale
+            self._base_for = scale
+        z = np.subtract(y[:, None], loc[None, :])
+        z *= self._inv
+        np.square(z, out=z)
+        z *= -0.5
+        z += self._base
+        return z
 
 
 def _loc_scale(ens, cand, q):
@@ -261,7 +286,7 @@ def current_state(ensemble, settings: Settings | None = None) -> dict:
     """Today's class probabilities, entropy (bits), decision and interval width."""
     s = settings or Settings()
     kern = _Kernel(ensemble, s)
-    p, h, ess, width = kern.summarise(kern.lw0[None, :], s)
+    p, h, ess, width = kern.summarise(kern.lw0[None, :].copy(), s)
     prior = np.asarray(ensemble.prior_probabilities, float)
     return {"class_probabilities": p[0], "hypothesis_probabilities": h[0],
             "expected_p_true": float(np.sum(p[0] ** 2)), "entropy_bits": float(_entropy_bits(p)[0]),
@@ -299,9 +324,8 @@ def evaluate(ensemble, candidate, rng, settings: Settings | None = None) -> dict
     ess_all, width_all = np.empty(m), np.empty(m)
     for a in range(0, m, s.block):  # blocks of simulated data bound the memory (block x n)
         b = slice(a, min(a + s.block, m))
-        ll = datum_log_likelihood(y[b, None], loc[None, :], scale[None, :],
-                                  likelihood=ens.likelihood, nu=ens.nu)
-        p_all[b], h_all[b], ess_all[b], width_all[b] = kern.summarise(kern.lw0 + ll, s)
+        lw = kern.block_log_weights(y[b], loc, scale, ens)
+        p_all[b], h_all[b], ess_all[b], width_all[b] = kern.summarise(lw, s)
     deg = ess_all < s.min_ess
     if np.isinf(candidate.sigma):
         deg[:] = False  # nothing is updated: today's ensemble, exactly
