@@ -10,6 +10,7 @@ from .chart import do_chart
 from .compare import do_compare
 from .invert import do_invert
 from .layers import assumptions
+from .plan import do_plan
 from .shell import AtomicFolder, add_common_options, say, use_agg, write_text
 
 __all__ = ["add_parser", "cmd_demo", "demo_text", "DEMO_FILES"]
@@ -17,6 +18,21 @@ __all__ = ["add_parser", "cmd_demo", "demo_text", "DEMO_FILES"]
 DEMO_FILES = ("tallowmere_ridge.toml", "one_layer.toml")
 _DEMO_CHART_LAYER = "deep layer (TL-07, Vp only)"
 _DEMO_COMPARE_LAYERS = ("deep layer (TL-07, Vp only)", "deep layer (TL-12, Vp and Vs)")
+
+
+_DEMO_PLAN_SIMULATIONS = 400  # fewer than the study file's 1000, to keep the demo short
+
+
+def demo_plan(args, study, dest) -> float:
+    """The demo's planning part: the study's [plan] candidates for the ambiguous deep layer,
+    on the exact path's design (see ``bayescrust plan``); returns its run time in seconds."""
+    say(args, "demo: which extra observation would settle the deep layer (plan)")
+    t = time.perf_counter()
+    dest.mkdir()
+    plan_args = argparse.Namespace(seed=args.seed, quiet=args.quiet, candidate=None,
+                                   simulations=_DEMO_PLAN_SIMULATIONS)
+    do_plan(plan_args, study, dest, layer_name=None, method="exact", figures=True)
+    return time.perf_counter() - t
 
 
 def demo_text(name: str) -> str:
@@ -57,6 +73,7 @@ def cmd_demo(args) -> int:
                                         seed=args.seed, quiet=args.quiet)
         do_chart(chart_args, study, tmp / "chart", layer_name=_DEMO_CHART_LAYER,
                   method="exact", figures=True)
+        plan_s = demo_plan(args, study, tmp / "plan")
         elapsed = time.perf_counter() - t0
         write_text(tmp / "README.md", "\n".join([
             "# bayescrust demo (invented data)", "",
@@ -67,13 +84,18 @@ def cmd_demo(args) -> int:
             "- `study/`: the demo study files (edit them and run `bayescrust invert`)",
             f"- `invert/`: every layer inverted ({method}); start with `invert/report.md`",
             f"- `compare/`: the deep layers under three thermal-state priors ({compare_method})",
-            "- `chart/`: probability of each interpretation against observed Vp", "",
+            "- `chart/`: probability of each interpretation against observed Vp",
+            f"- `plan/`: which extra observation would settle the deep layer on TL-07 "
+            f"(preposterior simulation on the exact path's design, importance reweighting; "
+            f"{_DEMO_PLAN_SIMULATIONS} simulated data per candidate; {plan_s:.1f} s); start "
+            "with `plan/report.md`", "",
             "Reproduce from the shell:", "",
             "    bayescrust invert study/tallowmere_ridge.toml --out my_run",
             "    bayescrust compare study/tallowmere_ridge.toml --out my_compare "
             f"--layer '{_DEMO_COMPARE_LAYERS[0]}'",
             f"    bayescrust chart study/tallowmere_ridge.toml --layer '{_DEMO_CHART_LAYER}' "
-            "--out my_chart", "",
+            "--out my_chart",
+            "    bayescrust plan study/tallowmere_ridge.toml --out my_plan", "",
             f"Run time of this demo: {elapsed:.1f} s.", ""]))
     say(args, f"demo: done in {time.perf_counter() - t0:.1f} s; start with {out}/README.md")
     print(out)
