@@ -65,3 +65,9 @@ __all__ += [
     "thermal_priors",
 ]
 # --- end inference exports ---
+
+# --- plan exports ---
+from .plan import Candidate, PlanResult, plan_layer  # noqa: E402
+
+__all__ += ["Candidate", "PlanResult", "plan_layer"]
+# --- end plan exports ---

@@ -114,3 +114,21 @@ def test_bad_candidates_are_named():
         Candidate("vs", -1)
     with pytest.raises(ValueError, match="profile"):
         plan_layer(LAYER, candidates=[("heat_flow", 5.0)])
+
+
+def test_plan_from_a_result_is_calibrated():
+    # the same question from a LayerResult's posterior draws (here of the exact path, which is
+    # quicker than MCMC; the builder reads only the result's draws and hypothesis table)
+    res = bc.exact_layer(LAYER, rocks=ROCKS, priors=PRIORS, hypotheses=HYPS, seed=8,
+                         n_points=2**13, n_draws=3000)
+    plan = plan_layer(LAYER, result=res, rocks=ROCKS, priors=PRIORS, hypotheses=HYPS, seed=9,
+                      n_simulations=600, candidates=[("vs", 0.05)])
+    assert plan.settings["ensemble"] == "posterior draws"
+    cal = plan.calibration
+    assert np.all(np.abs(cal["average_updated"] - cal["today"]) <= 4 * cal["mcse"])
+    # today's probabilities from 3000 multinomial resamples of the weighted design: binomial
+    # resampling error sqrt(p (1 - p) / 3000) on top of the design's own MCSE
+    p_ref = res.hypotheses.loc[list(HYPS), "posterior_probability"].to_numpy()
+    se = np.hypot(res.hypotheses.loc[list(HYPS), "posterior_mcse"].to_numpy(),
+                  np.sqrt(p_ref * (1 - p_ref) / 3000))
+    assert np.all(np.abs(plan.today["class_probabilities"] - p_ref) <= 4 * se)
