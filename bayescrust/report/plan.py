@@ -71,8 +71,13 @@ def plan_figure(plan, *, fig=None, title=None):
             ax.set_xscale("log")
             from matplotlib.ticker import FormatStrFormatter, NullFormatter
 
+            ticks = sorted({float(v) for v in t["sigma"] if math.isfinite(v)})
+            if ticks:
+                ax.set_xticks(ticks)
             ax.xaxis.set_major_formatter(FormatStrFormatter("%g"))
             ax.xaxis.set_minor_formatter(NullFormatter())
+            ax.tick_params(axis="x", which="minor", bottom=False)
+            ax.tick_params(axis="x", labelrotation=45)
             ax.set_xlabel("1-sigma error of the new datum (its unit)")
             ax.set_ylabel(ylabel)
         axes[0].set_ylim(-0.03, 1.03)

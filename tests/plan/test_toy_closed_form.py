@@ -135,3 +135,16 @@ def test_value_falls_with_error():
     gain = plan.table.sort_values("sigma")["information_gain_bits"].to_numpy()
     assert gain[0] > gain[1] > gain[2] > 0
     assert list(plan.table["rank"]) == [1, 2, 3]
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("s", [0.1, 0.2, 0.5, 1.0, 2.0])
+def test_matches_closed_form_large(s):
+    # the default test's check at more errors and 5x the simulated data
+    ens = toy_ensemble(n_log2=16, seed=21)
+    plan = preposterior(ens, [Candidate("vs", s, model_error=0.0)], seed=31,
+                        n_simulations=20000, min_ess=5)
+    row = plan.table.iloc[0]
+    ref = closed_form(s)
+    for key in ("expected_p_true", "information_gain_bits", "p_decisive"):
+        assert abs(row[key] - ref[key]) <= 4 * row[f"{key}_mcse"], (key, row[key], ref[key])
