@@ -114,8 +114,11 @@ def do_plan(args, study, dest: Path, *, layer_name, method, figures: bool):
     lines = [f"# {study.title}: which observation would settle {layer.name!r}?", "",
              caution_text(assumptions(study, layer)),
              f"Method: preposterior simulation ({s['n_simulations']} simulated data per "
-             f"candidate) from today's posterior ({s['ensemble']}, {s['ensemble_size']} states, "
-             f"importance effective size {s['ensemble_importance_ess']:.0f}); each datum "
+             f"candidate) from today's posterior ({s['ensemble']}, {s['ensemble_size']} states"
+             + (f", importance effective size {s['ensemble_importance_ess']:.0f}"
+                if s["ensemble"] == "exact design" else
+                "; MCMC draws are correlated, so fewer are effective")
+             + "); each datum "
              "updates the states by importance reweighting; updates with an effective size "
              f"below {s['min_ess']:g} rerun the exact path (at most {s['max_reruns']} per "
              "candidate). A decisive answer: the top interpretation reaches "
