@@ -29,6 +29,7 @@ import math
 import time
 
 import numpy as np
+from scipy import special
 
 from ..inference.api import resolve_rng
 from ..inference.evidence import log_mean_exp, prior_design, weigh_design
@@ -63,6 +64,27 @@ def _hypotheses(profile, models):
     return out
 
 
+def _log_weights(profile, ll, t, geo_i, log_q):
+    """Log importance weights (J, N): likelihood x conditional / proposal temperature density.
+
+    Coupled states expand the Gaussian in ``T`` so the (J, N) array is one outer product
+    (identical to :meth:`Profile.log_temperature_density`, checked in the tests); all design
+    temperatures lie inside the proposal support, so no truncation mask is needed.
+    """
+    th = profile.thermal
+    if not th.coupled:
+        return (ll + profile.log_temperature_density(t, None) - log_q)[None, :]
+    lo, hi = profile.temperature_range_c
+    s = th.scatter_c
+    norm = np.log(np.maximum(special.ndtr((hi - geo_i) / s) - special.ndtr((lo - geo_i) / s),
+                             1e-300))
+    row = -0.5 * (geo_i / s) ** 2 - math.log(s) - 0.5 * math.log(2 * math.pi) - norm - log_q
+    out = np.multiply.outer(geo_i / s**2, t)  # in place below: the (J, N) array is the cost
+    out += (ll - 0.5 * (t / s) ** 2)[None, :]
+    out += row[:, None]
+    return out
+
+
 def _one_replicate(profile: Profile, models, hyps, rng, n_layer, n_thermal, keep_theta=False):
     th = profile.thermal
     lo, hi = profile.temperature_range_c
@@ -78,20 +100,21 @@ def _one_replicate(profile: Profile, models, hyps, rng, n_layer, n_thermal, keep
         theta, q, _ = prior_design(model, rng, n_layer)
         ll, _ = weigh_design(model, q)
         t = q["temperature_c"]
-        if th.coupled:
-            lr = profile.log_temperature_density(t[None, :], geo[:, i:i + 1]) - log_q
-        else:
-            lr = profile.log_temperature_density(t, None)[None, :] - log_q
-            if hf is not None and i == 0:
-                ll = ll + hf.log_likelihood(
-                    th.conductivity_w_mk * (t - th.surface_temperature_c) / mids[0])
-        lw = ll[None, :] + lr
-        log_l[:, i] = log_mean_exp(lw, axis=1)
+        if not th.coupled and hf is not None and i == 0:
+            ll = ll + hf.log_likelihood(
+                th.conductivity_w_mk * (t - th.surface_temperature_c) / mids[0])
+        lw = _log_weights(profile, ll, t, None if geo is None else geo[:, i], log_q)
         mx = np.max(lw, axis=1, keepdims=True)
-        w = np.exp(lw - np.where(np.isfinite(mx), mx, 0.0))
-        w /= np.maximum(w.sum(axis=1, keepdims=True), 1e-300)
+        mx = np.where(np.isfinite(mx), mx, 0.0)
+        w = np.exp(np.subtract(lw, mx, out=lw), out=lw)
+        sw = w.sum(axis=1)
+        with np.errstate(divide="ignore"):
+            log_l[:, i] = np.log(sw / w.shape[1]) + mx[:, 0]
+        w *= (1.0 / np.maximum(sw, 1e-300))[:, None]
         ind = indicators(hyps[i], q)
-        cond_h.append({k: w @ v.astype(float) for k, v in ind.items()})
+        mat = np.stack([v.astype(float) for v in ind.values()], axis=1)
+        cond = w @ mat  # (J, H)
+        cond_h.append({k: cond[:, c] for c, k in enumerate(ind)})
         cond_m.append(cond_h[-1]["mantle rock"])
         layer_w.append(w)
         layer_q.append(q)
@@ -121,7 +144,7 @@ def _answers(profile, rep, hyps):
     return {"boundary": boundary, "hypotheses": hyp, "omega": omega}
 
 
-def exact_profile(profile: Profile, *, n_layer=2**13, n_thermal=256, n_replicates=6, seed=None,
+def exact_profile(profile: Profile, *, n_layer=2**13, n_thermal=256, n_replicates=4, seed=None,
                   rng=None, forward=None, n_draws=4000):
     """Posterior of a profile by the structured exact path (module docstring).
 
@@ -155,7 +178,8 @@ def exact_profile(profile: Profile, *, n_layer=2**13, n_thermal=256, n_replicate
     hyps = _hypotheses(profile, models)
     bound = None
     if profile.pressure == "overburden":
-        first = _one_replicate(profile, models, hyps, streams[0], n_layer, n_thermal)
+        first = _one_replicate(profile, models, hyps, streams[0], max(n_layer // 4, 512),
+                               max(n_thermal // 4, 32))
         ans = _answers(profile, first, hyps)
         rho_mean = np.array([o @ q["density"] for o, q in zip(ans["omega"], first["layer_q"],
                                                               strict=True)])

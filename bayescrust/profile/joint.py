@@ -43,6 +43,9 @@ class JointModel:
             self.offsets.append(off)
             off += m.ndim
         self.ndim = off
+        self.blocks = [np.arange(self.k)] + [np.arange(o, o + m.ndim)
+                                             for o, m in zip(self.offsets, self.models,
+                                                             strict=True)]
         self.t_index = [m.n_fraction_dims + m.free.index("temperature_c") for m in self.models]
         lo, hi = profile.temperature_range_c
         self.log_q = -math.log(hi - lo)
@@ -176,8 +179,10 @@ def invert_profile(profile: Profile, *, seed=None, rng=None, nwalkers=None, min_
     jm = JointModel(profile, forward=forward)
     nw = int(nwalkers) if nwalkers is not None else max(64, 2 * jm.ndim + 2)
     init = _initial(jm, gen, nw)
+    from .moves import profile_moves
+
     run = run_ensemble(jm.log_prob, init, rng=gen, min_ess=min_ess, max_steps=max_steps,
-                       progress=progress)
+                       moves=profile_moves(jm.blocks), progress=progress)
     nd, nwk, _ = run.samples.shape
     x = run.samples.reshape(nd * nwk, -1)
     _, qs = jm.evaluate(x)

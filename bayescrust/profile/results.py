@@ -128,6 +128,9 @@ def _thickness(profile, boundary_km):
 
 
 def _thermal_table(names, draws, means_reps=None, mcse=None):
+    """Exact path: means are the replicate means of the weighted means (not of the resampled
+    draws, whose resampling noise the replicate error would not cover); sd and quantiles come
+    from the draws."""
     import pandas as pd
 
     rows = []
@@ -135,7 +138,8 @@ def _thermal_table(names, draws, means_reps=None, mcse=None):
         x = draws[k]
         se = (float(np.std(means_reps[:, j], ddof=1) / math.sqrt(means_reps.shape[0]))
               if means_reps is not None else float(mcse[k]))
-        rows.append({"parameter": k, "mean": float(x.mean()), "sd": float(x.std()),
+        mean = float(means_reps[:, j].mean()) if means_reps is not None else float(x.mean())
+        rows.append({"parameter": k, "mean": mean, "sd": float(x.std()),
                      "q05": float(np.quantile(x, 0.05)), "q50": float(np.quantile(x, 0.5)),
                      "q95": float(np.quantile(x, 0.95)), "mcse": se})
     return pd.DataFrame(rows, columns=["parameter", "mean", "sd", "q05", "q50", "q95", "mcse"])
