@@ -72,8 +72,11 @@ def _write_result(res, dest: Path, figures: bool, label: str):
         plt.close(fig)
 
 
-def do_profile(args, study, dest: Path, *, method="exact", figures=True):
-    """Run a profile study into ``dest``; returns ``(result, comparison or None)``."""
+def do_profile(args, study, dest: Path, *, method="exact", figures=True, exact_options=None):
+    """Run a profile study into ``dest``; returns ``(result, comparison or None)``.
+
+    ``exact_options`` (design sizes of :func:`exact_profile`) lets the demo trade precision
+    for time; the Monte Carlo errors in the tables say what precision was reached."""
     from ..profile import compare_thermal_states, exact_profile, invert_profile
     from ..report.profile import evidence_table
 
@@ -85,12 +88,15 @@ def do_profile(args, study, dest: Path, *, method="exact", figures=True):
         if method == "mcmc":
             res = invert_profile(prof, seed=seed)
         else:
-            res = exact_profile(prof, seed=seed)
+            res = exact_profile(prof, seed=seed, **(exact_options or {}))
     _write_result(res, dest, figures, f"{prof.thermal.describe()}, {method}")
     comp = None
     if study.compare:
         with warn.catch(f"{prof.name}: thermal-state comparison"):
-            comp = compare_thermal_states(prof, study.compare, seed=seed)
+            same = {n: res for n, st in study.compare.items()
+                    if st.describe() == prof.thermal.describe()}
+            comp = compare_thermal_states(prof, study.compare, seed=seed, done=same,
+                                          **(exact_options or {}))
         write_table(dest, "thermal_evidence", evidence_table(comp),
                     caption="Evidence of each thermal state for the whole profile (exact path)")
         write_table(dest, "answers_by_state", comp.answers.set_index(["thermal_state", "layer"]),

@@ -33,10 +33,11 @@ class ThermalComparison:
     answers: object
 
 
-def compare_thermal_states(profile, states: dict, **kwargs) -> ThermalComparison:
+def compare_thermal_states(profile, states: dict, *, done=None, **kwargs) -> ThermalComparison:
     """Run :func:`exact_profile` for ``profile`` under each thermal state in ``states``.
 
-    ``kwargs`` go to :func:`exact_profile` (the same seed for every state).
+    ``kwargs`` go to :func:`exact_profile` (the same seed for every state); ``done``
+    (``{name: ProfileResult}``, exact path) supplies results already computed.
     """
     import pandas as pd
 
@@ -44,7 +45,9 @@ def compare_thermal_states(profile, states: dict, **kwargs) -> ThermalComparison
 
     if not isinstance(states, dict) or not states:
         raise ValueError("states must be a non-empty dict {name: thermal state}")
-    results = {name: exact_profile(dataclasses.replace(profile, thermal=st), **kwargs)
+    done = dict(done or {})
+    results = {name: done[name] if name in done and done[name].method == "exact"
+               else exact_profile(dataclasses.replace(profile, thermal=st), **kwargs)
                for name, st in states.items()}
     lz = np.array([r.log_evidence for r in results.values()])
     le = np.array([r.log_evidence_error for r in results.values()])
