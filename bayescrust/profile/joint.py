@@ -159,6 +159,33 @@ def _initial(jm, rng, nwalkers, factor=64):
     return x[np.argsort(g)[::-1][:nwalkers]]
 
 
+def _burn_in(jm, init, rng, steps, moves):
+    """Pre-run (discarded) that also moves stragglers: after ``steps`` steps, walkers whose
+    log-probability is more than 20 below the median restart at other walkers' positions with a
+    small jitter (allowed in burn-in only; the driver's own burn-in follows)."""
+    import emcee
+
+    s = emcee.EnsembleSampler(init.shape[0], init.shape[1], jm.log_prob, moves=moves,
+                              vectorize=True)
+    s.random_state = np.random.RandomState(int(rng.integers(2**32))).get_state()
+    state = s.run_mcmc(init, steps, progress=False)
+    x, lp = state.coords.copy(), state.log_prob.copy()
+    bad = lp < np.median(lp) - 20.0
+    good = np.flatnonzero(~bad)
+    for _ in range(10):  # a few attempts: jittered copies must stay inside the support
+        if not np.any(bad):
+            break
+        src = rng.choice(good, size=int(bad.sum()))
+        scale = 1e-3 * np.std(x[good], axis=0)
+        trial = x[src] + scale * rng.standard_normal((src.size, x.shape[1]))
+        tl = jm.log_prob(trial)
+        ok = np.isfinite(tl)
+        idx = np.flatnonzero(bad)[ok]
+        x[idx], lp[idx] = trial[ok], tl[ok]
+        bad[idx] = False
+    return x
+
+
 def _ess(ind_chains):
     import arviz as az
 
@@ -168,7 +195,7 @@ def _ess(ind_chains):
 
 
 def invert_profile(profile: Profile, *, seed=None, rng=None, nwalkers=None, min_ess=1000.0,
-                   max_steps=20000, forward=None, progress=False):
+                   max_steps=20000, forward=None, progress=False, burn_steps=300):
     """Joint MCMC of a profile (module docstring); returns a :class:`ProfileResult`."""
     import pandas as pd
 
@@ -181,6 +208,7 @@ def invert_profile(profile: Profile, *, seed=None, rng=None, nwalkers=None, min_
     init = _initial(jm, gen, nw)
     from .moves import profile_moves
 
+    init = _burn_in(jm, init, gen, burn_steps, profile_moves(jm.blocks))
     run = run_ensemble(jm.log_prob, init, rng=gen, min_ess=min_ess, max_steps=max_steps,
                        moves=profile_moves(jm.blocks), progress=progress)
     nd, nwk, _ = run.samples.shape

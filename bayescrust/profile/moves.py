@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["block_de_move", "profile_moves"]
+__all__ = ["block_de_move", "block_kde_move", "profile_moves"]
 
 
 def block_de_move(blocks, *, p_jump=0.1, jitter=1e-6):
@@ -42,12 +42,46 @@ def block_de_move(blocks, *, p_jump=0.1, jitter=1e-6):
     return BlockDEMove()
 
 
+def block_kde_move(blocks, *, bandwidth=0.3):
+    """Independence proposal in one block from a Gaussian kernel density of the complementary
+    walkers' values of that block (diagonal kernel, ``bandwidth`` times their sd per
+    coordinate). The complementary walkers are fixed during a red-blue update, so the proposal
+    density is known and the Metropolis-Hastings factor is ``log q(x) - log q(x')``; it moves
+    a layer between separated modes (gabbro versus mantle rock) in one step."""
+    from emcee.moves.red_blue import RedBlueMove
+    from scipy.special import logsumexp
+
+    blocks = [np.asarray(b, int) for b in blocks if len(b)]
+
+    def log_kde(x, c, h):  # x (n, d), c (m, d), h (d,)
+        z = (x[:, None, :] - c[None, :, :]) / h
+        return logsumexp(-0.5 * np.sum(z * z, axis=2), axis=1)
+
+    class BlockKDEMove(RedBlueMove):
+        def __init__(self):
+            super().__init__(live_dangerously=True)
+
+        def get_proposal(self, s, c, random):
+            c = np.concatenate(c, axis=0)
+            ns = s.shape[0]
+            b = blocks[random.randint(len(blocks))]
+            cb = c[:, b]
+            h = bandwidth * np.maximum(cb.std(axis=0), 1e-12)
+            i = random.randint(cb.shape[0], size=ns)
+            new = cb[i] + h * random.randn(ns, b.size)
+            q = s.copy()
+            q[:, b] = new
+            return q, log_kde(s[:, b], cb, h) - log_kde(new, cb, h)
+
+    return BlockKDEMove()
+
+
 def profile_moves(blocks):
-    """Move mix of the joint profile sampler: 70 % block DE, 20 % block DE over the thermal
-    block together with one layer, 10 % full DE (emcee's ``DEMove``)."""
+    """Move mix of the joint profile sampler: 50 % block DE, 15 % block DE over the thermal
+    block together with one layer, 25 % block KDE independence, 10 % full DE (emcee)."""
     import emcee
 
     thermal = blocks[0]
     pairs = [np.concatenate([thermal, b]) for b in blocks[1:]] if len(thermal) else blocks[1:]
-    return [(block_de_move(blocks), 0.7), (block_de_move(pairs), 0.2),
-            (emcee.moves.DEMove(), 0.1)]
+    return [(block_de_move(blocks), 0.5), (block_de_move(pairs), 0.15),
+            (block_kde_move(blocks), 0.25), (emcee.moves.DEMove(), 0.1)]
