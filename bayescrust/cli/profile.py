@@ -7,8 +7,17 @@ from pathlib import Path
 
 import numpy as np
 
-from .shell import (AtomicFolder, InputError, Warnings, add_common_options, save_figure, say,
-                    use_agg, write_table, write_text)
+from .shell import (
+    AtomicFolder,
+    InputError,
+    Warnings,
+    add_common_options,
+    save_figure,
+    say,
+    use_agg,
+    write_table,
+    write_text,
+)
 
 __all__ = ["add_parser", "cmd_profile", "do_profile", "profile_figure_curves"]
 

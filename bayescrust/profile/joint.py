@@ -20,9 +20,9 @@ import numpy as np
 from ..inference.api import resolve_rng
 from ..inference.hypotheses import indicators
 from ..inference.sampler import run_ensemble
+from ..physics.thermal import THERMAL_DATA as _TH
 from .exact import _hypotheses
 from .results import _KEEP, boundary_from_mantle, build_result
-from ..physics.thermal import THERMAL_DATA as _TH
 from .spec import Profile
 
 __all__ = ["JointModel", "invert_profile"]
@@ -195,8 +195,13 @@ def _ess(ind_chains):
 
 
 def invert_profile(profile: Profile, *, seed=None, rng=None, nwalkers=None, min_ess=1000.0,
-                   max_steps=20000, forward=None, progress=False, burn_steps=300):
-    """Joint MCMC of a profile (module docstring); returns a :class:`ProfileResult`."""
+                   max_steps=20000, forward=None, progress=False, burn_steps=300, min_steps=1000):
+    """Joint MCMC of a profile (module docstring); returns a :class:`ProfileResult`.
+
+    ``min_steps`` is the driver's first convergence check; it is long (1000) because a walker
+    that has not moved in one layer's block since the start makes emcee's autocorrelation
+    estimate NaN (a per-walker division by zero), which the driver does not survive.
+    """
     import pandas as pd
 
     if not isinstance(profile, Profile):
@@ -210,7 +215,8 @@ def invert_profile(profile: Profile, *, seed=None, rng=None, nwalkers=None, min_
 
     init = _burn_in(jm, init, gen, burn_steps, profile_moves(jm.blocks))
     run = run_ensemble(jm.log_prob, init, rng=gen, min_ess=min_ess, max_steps=max_steps,
-                       moves=profile_moves(jm.blocks), progress=progress)
+                       moves=profile_moves(jm.blocks), progress=progress,
+                       min_steps=min_steps)
     nd, nwk, _ = run.samples.shape
     x = run.samples.reshape(nd * nwk, -1)
     _, qs = jm.evaluate(x)

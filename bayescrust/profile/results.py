@@ -1,4 +1,4 @@
-"""Results of a profile inversion: answers, tables and the arviz posterior with a layer dimension."""
+"""Results of a profile inversion: answers, tables, the arviz posterior with a layer dimension."""
 
 from __future__ import annotations
 
@@ -89,7 +89,8 @@ class ProfileResult:
         idata = az.from_dict(posterior=post, dims=dims,
                              coords={"layer": list(self.profile.names)},
                              observed_data=obs,
-                             attrs={"method": self.method, "thermal": self.profile.thermal.describe(),
+                             attrs={"method": self.method,
+                                    "thermal": self.profile.thermal.describe(),
                                     "log_evidence": self.log_evidence,
                                     "log_evidence_error": self.log_evidence_error})
         for k in obs:

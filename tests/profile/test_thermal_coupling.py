@@ -7,8 +7,14 @@ import pytest
 
 from bayescrust import Layer
 from bayescrust.physics.thermal import half_space_temperature_c
-from bayescrust.profile import (AxialHotState, HalfSpaceState, HeatFlow, PlateState, Profile,
-                                Uncoupled)
+from bayescrust.profile import (
+    AxialHotState,
+    HalfSpaceState,
+    HeatFlow,
+    PlateState,
+    Profile,
+    Uncoupled,
+)
 from bayescrust.profile.exact import _log_weights
 from bayescrust.profile.thermal import CONDUCTIVITY
 
