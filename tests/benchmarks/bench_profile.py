@@ -11,6 +11,11 @@ densities; a heat-flow lower bound). Prints, from one run:
   probabilities side by side with their Monte Carlo errors (difference in units of the combined
   error).
 
+Measured once (seed 1, 2-core machine shared with other jobs): exact path 3.9-5.0 s; joint MCMC
+1152 s for the 20000-step cap (not converged by the driver's rule; ESS thermal 3838 / 14776,
+min ESS of all 30 coordinates 3011): far above the 60 s target. Agreement: thermal means within
+1.3 combined standard errors, boundary outcomes within 3.0.
+
 Run: ``python tests/benchmarks/bench_profile.py [--seed N]``. The machine may be shared:
 compare times measured in one run.
 """
@@ -67,19 +72,21 @@ def main(argv=None) -> int:
     print("\nthermal parameter      exact (+-se)          mcmc (+-se)         diff/se")
     for (_, a), (_, b) in zip(ex.thermal.iterrows(), mc.thermal.iterrows(), strict=True):
         se = math.hypot(a["mcse"], b["mcse"])
-        z = (a["mean"] - b["mean"]) / se if se > 0 else 0.0
+        z = (a["mean"] - b["mean"]) / se if se > 1e-9 else 0.0
         print(f"{a['parameter']:22s} {a['mean']:9.3f} ({a['mcse']:.3f})   "
               f"{b['mean']:9.3f} ({b['mcse']:.3f})   {z:6.2f}")
     print("\nboundary outcome              exact (+-se)       mcmc (+-se)       diff/se")
     for (_, a), (_, b) in zip(ex.boundary.iterrows(), mc.boundary.iterrows(), strict=True):
         se = math.hypot(a["mcse"], b["mcse"])
-        z = (a["probability"] - b["probability"]) / se if se > 0 else 0.0
+        z = (a["probability"] - b["probability"]) / se if se > 1e-6 else 0.0
         print(f"{a['outcome']:28s} {a['probability']:.4f} ({a['mcse']:.4f})   "
               f"{b['probability']:.4f} ({b['mcse']:.4f})   {z:6.2f}")
     h1 = ex.hypotheses.set_index(["layer", "hypothesis"])
     h2 = mc.hypotheses.set_index(["layer", "hypothesis"])
-    z = (h1["probability"] - h2["probability"]) / np.hypot(h1["mcse"], h2["mcse"]).clip(1e-12)
-    print(f"\nper-layer hypotheses: max |diff|/se = {np.nanmax(np.abs(z)):.2f} over {len(z)}; "
+    se = np.hypot(h1["mcse"], h2["mcse"])
+    z = ((h1["probability"] - h2["probability"]) / se)[se > 1e-3]  # skip near-certain ones
+    print(f"\nper-layer hypotheses: max |diff|/se = {np.nanmax(np.abs(z)):.2f} over {len(z)} "
+          "with se > 1e-3; "
           f"max |diff| = {np.nanmax(np.abs(h1['probability'] - h2['probability'])):.4f}")
     return 0
 
