@@ -15,7 +15,7 @@ from .shell import AtomicFolder, add_common_options, say, use_agg, write_text
 
 __all__ = ["add_parser", "cmd_demo", "demo_text", "DEMO_FILES"]
 
-DEMO_FILES = ("tallowmere_ridge.toml", "one_layer.toml")
+DEMO_FILES = ("tallowmere_ridge.toml", "one_layer.toml", "tallowmere_profile.toml")
 _DEMO_CHART_LAYER = "deep layer (TL-07, Vp only)"
 _DEMO_COMPARE_LAYERS = ("deep layer (TL-07, Vp only)", "deep layer (TL-12, Vp and Vs)")
 
@@ -74,6 +74,8 @@ def cmd_demo(args) -> int:
         do_chart(chart_args, study, tmp / "chart", layer_name=_DEMO_CHART_LAYER,
                   method="exact", figures=True)
         plan_s = demo_plan(args, study, tmp / "plan")
+        say(args, "demo: whole profile of line TL-12 (structured exact path)")
+        profile_s = demo_profile(args, tmp / "study" / "tallowmere_profile.toml", tmp / "profile")
         elapsed = time.perf_counter() - t0
         write_text(tmp / "README.md", "\n".join([
             "# bayescrust demo (invented data)", "",
@@ -88,18 +90,35 @@ def cmd_demo(args) -> int:
             f"- `plan/`: which extra observation would settle the deep layer on TL-07 "
             f"(preposterior simulation on the exact path's design, importance reweighting; "
             f"{_DEMO_PLAN_SIMULATIONS} simulated data per candidate; {plan_s:.1f} s); start "
-            "with `plan/report.md`", "",
+            "with `plan/report.md`",
+            "- `profile/`: the whole TL-12 profile tied by one thermal state: crust-mantle "
+            "boundary, crustal thickness and which thermal state (half-space, axial, "
+            f"uncoupled) the profile favours (structured exact path, {profile_s:.1f} s); start "
+            "with `profile/report.md`", "",
             "Reproduce from the shell:", "",
             "    bayescrust invert study/tallowmere_ridge.toml --out my_run",
             "    bayescrust compare study/tallowmere_ridge.toml --out my_compare "
             f"--layer '{_DEMO_COMPARE_LAYERS[0]}'",
             f"    bayescrust chart study/tallowmere_ridge.toml --layer '{_DEMO_CHART_LAYER}' "
             "--out my_chart",
-            "    bayescrust plan study/tallowmere_ridge.toml --out my_plan", "",
+            "    bayescrust plan study/tallowmere_ridge.toml --out my_plan",
+            "    bayescrust profile study/tallowmere_profile.toml --out my_profile", "",
             f"Run time of this demo: {elapsed:.1f} s.", ""]))
     say(args, f"demo: done in {time.perf_counter() - t0:.1f} s; start with {out}/README.md")
     print(out)
     return 0
+
+
+def demo_profile(args, study_path, dest) -> float:
+    """The demo's profile part (exact path, reduced designs); returns its run time (s)."""
+    from .profile import do_profile, load_profile_study
+
+    t0 = time.perf_counter()
+    study = load_profile_study(study_path)
+    dest.mkdir()
+    do_profile(args, study, dest, method="exact", figures=True,
+               exact_options={"n_layer": 2**12, "n_thermal": 64, "n_replicates": 3})
+    return time.perf_counter() - t0
 
 
 def add_parser(sub) -> None:

@@ -1,0 +1,154 @@
+"""``bayescrust profile``: invert a whole profile from a ``[profile]`` study file."""
+
+from __future__ import annotations
+
+import time
+from pathlib import Path
+
+import numpy as np
+
+from .shell import (
+    AtomicFolder,
+    InputError,
+    Warnings,
+    add_common_options,
+    save_figure,
+    say,
+    use_agg,
+    write_table,
+    write_text,
+)
+
+__all__ = ["add_parser", "cmd_profile", "do_profile", "profile_figure_curves"]
+
+
+def load_profile_study(path):
+    from ..config.profile import parse_profile_study
+
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise InputError(f"{p}: cannot read the study file: {exc.strerror}") from exc
+    return parse_profile_study(text, source=str(p))
+
+
+def profile_figure_curves(result, n=60):
+    """Geotherm band, peridotite solidus and serpentine limit against depth (for the figure)."""
+    from ..physics import thermal as th
+
+    prof = result.profile
+    z = np.linspace(0.0, float(prof.bottoms_km[-1]), n)
+    p = th.lithostatic_pressure_gpa(z, water_depth_km=prof.water_depth_km)
+    curves = {"solidus": (z, th.peridotite_solidus_c(p)),
+              "serpentine": (z, th.serpentine_stability_c(p, kind="antigorite"))}
+    state = prof.thermal
+    d = result.draws["thermal"]
+    if state.coupled and d:
+        rng = np.random.default_rng(0)
+        k = rng.choice(len(next(iter(d.values()))), size=min(400, len(next(iter(d.values())))),
+                       replace=False)
+        phi = np.stack([d[name][k] for name in state.free], axis=1) if state.free else \
+            np.zeros((k.size, 0))
+        g = state.geotherm_c(z, phi)
+        lo, mid, hi = np.quantile(g, [0.05, 0.5, 0.95], axis=0)
+        curves["geotherm"] = (z, lo, mid, hi)
+    return curves
+
+
+def _write_result(res, dest: Path, figures: bool, label: str):
+    from ..report import profile as R  # noqa: N812
+
+    dest.mkdir(parents=True, exist_ok=True)
+    write_table(dest, "hypotheses", R.hypothesis_table(res),
+                caption=f"Interpretations per layer ({label})")
+    write_table(dest, "boundary", R.boundary_table(res),
+                caption=f"Crust-mantle boundary and igneous crustal thickness ({label})")
+    if not res.thermal.empty:
+        write_table(dest, "thermal", R.thermal_table(res),
+                    caption=f"Thermal parameters ({label})")
+    idata = res.to_idata()
+    tmp = dest / "posterior.nc.part"
+    idata.to_netcdf(str(tmp))
+    tmp.replace(dest / "posterior.nc")
+    if figures:
+        c = profile_figure_curves(res)
+        fig = R.profile_figure(res, geotherm=c.get("geotherm"), solidus=c["solidus"],
+                               serpentine=c["serpentine"])
+        save_figure(fig, dest / "figures", "profile")
+        import matplotlib.pyplot as plt
+
+        plt.close(fig)
+
+
+def do_profile(args, study, dest: Path, *, method="exact", figures=True, exact_options=None):
+    """Run a profile study into ``dest``; returns ``(result, comparison or None)``.
+
+    ``exact_options`` (design sizes of :func:`exact_profile`) lets the demo trade precision
+    for time; the Monte Carlo errors in the tables say what precision was reached."""
+    from ..profile import compare_thermal_states, exact_profile, invert_profile
+    from ..report.profile import evidence_table
+
+    seed = args.seed if getattr(args, "seed", None) is not None else (study.seed or 0)
+    warn = Warnings(args)
+    t0 = time.perf_counter()
+    prof = study.profile
+    with warn.catch(prof.name):
+        if method == "mcmc":
+            res = invert_profile(prof, seed=seed)
+        else:
+            res = exact_profile(prof, seed=seed, **(exact_options or {}))
+    _write_result(res, dest, figures, f"{prof.thermal.describe()}, {method}")
+    comp = None
+    if study.compare:
+        with warn.catch(f"{prof.name}: thermal-state comparison"):
+            same = {n: res for n, st in study.compare.items()
+                    if st.describe() == prof.thermal.describe()}
+            comp = compare_thermal_states(prof, study.compare, seed=seed, done=same,
+                                          **(exact_options or {}))
+        write_table(dest, "thermal_evidence", evidence_table(comp),
+                    caption="Evidence of each thermal state for the whole profile (exact path)")
+        write_table(dest, "answers_by_state", comp.answers.set_index(["thermal_state", "layer"]),
+                    caption="How each answer moves between thermal states")
+    wall = time.perf_counter() - t0
+    lines = [f"# Profile {prof.name}", "", f"Thermal state: {prof.thermal.describe()}; method: "
+             f"{method}; seed {seed}; {wall:.1f} s.", ""]
+    if method == "exact":
+        lines += [f"log evidence {res.log_evidence:.3f} +- {res.log_evidence_error:.3f}", ""]
+    pb = res.thickness
+    lines += [f"P(no crust-mantle boundary in the section) = {pb['p_no_boundary']:.3f}; igneous "
+              f"crustal thickness given a boundary: {pb['mean_km']:.2f} +- {pb['sd_km']:.2f} km",
+              ""]
+    if comp is not None:
+        best = comp.evidence["log_evidence"].idxmax()
+        lines += [f"Thermal state favoured by the whole profile: **{best}** "
+                  f"(posterior probability {comp.evidence.loc[best, 'posterior_probability']:.3f}"
+                  " with equal prior weights).", ""]
+    if warn.messages:
+        lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
+    lines += ["Files: hypotheses.*, boundary.*, thermal.*, thermal_evidence.*, "
+              "answers_by_state.* (CSV, Markdown, LaTeX); posterior.nc (arviz, layer "
+              "dimension); figures/profile.(png|pdf).", ""]
+    write_text(dest / "report.md", "\n".join(lines))
+    say(args, f"profile {prof.name}: done in {wall:.1f} s")
+    return res, comp
+
+
+def cmd_profile(args) -> int:
+    study = load_profile_study(args.study)
+    if not args.no_figures:
+        use_agg()
+    with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
+        do_profile(args, study, tmp, method=args.method or "exact",
+                   figures=not args.no_figures)
+    print(args.out)
+    return 0
+
+
+def add_parser(sub) -> None:
+    """Register the ``profile`` command."""
+    sp = sub.add_parser("profile", help="invert a whole profile (layers tied by one thermal "
+                                        "state) from a [profile] study file")
+    sp.add_argument("study", metavar="PROFILE.toml")
+    add_common_options(sp)
+    sp.set_defaults(func=cmd_profile)

@@ -1,0 +1,192 @@
+"""The ``[profile]`` study section: a whole refraction profile tied by one thermal state.
+
+::
+
+    [profile]
+    name = "TM-3 on axis"
+    water_depth_km = 2.6
+    pressure = "overburden"            # or "reference"
+    compare = ["half_space", "axial", "uncoupled"]   # thermal states whose evidence is compared
+
+    [profile.thermal]
+    state = "half_space"               # half_space | plate | axial | uncoupled
+    age_myr = [0.5, 30.0]              # a number fixes it; [lo, hi] is uniform
+    scatter_c = 50.0
+
+    [profile.heat_flow]
+    value = 180.0                      # mW/m^2
+    sigma = 30.0
+    mode = "lower_bound"               # gaussian | lower_bound | off
+
+    [[profile.layers]]
+    name = "2A"
+    top_km = 0.0
+    bottom_km = 0.6
+    vp = [4.3, 0.2]
+    rocks = ["basalt", "gabbro"]       # optional: depth-appropriate default
+    porosity = [0.0, 0.3]              # optional per-layer priors: number or [lo, hi]
+
+Errors name the file, the key and the allowed range (:class:`StudyError`).
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass
+
+from .errors import StudyError
+from .reader import Reader
+
+__all__ = ["ProfileStudy", "parse_profile_study", "PROFILE_KEYS"]
+
+PROFILE_KEYS = ("name", "water_depth_km", "pressure", "basement_km", "temperature_range_c",
+                "thermal", "heat_flow", "layers", "compare")
+_LAYER_KEYS = ("name", "top_km", "bottom_km", "vp", "vs", "vp_vs", "density", "rocks",
+               "porosity", "melt_fraction", "serpentinization", "aspect_ratio")
+_PRIOR_KEYS = ("porosity", "melt_fraction", "serpentinization", "aspect_ratio")
+_THERMAL_PARAMS = {
+    "half_space": ("age_myr", "mantle_temperature_c", "conductivity_w_mk", "scatter_c"),
+    "plate": ("age_myr", "mantle_temperature_c", "plate_thickness_km", "conductivity_w_mk",
+              "scatter_c"),
+    "axial": ("lens_depth_km", "mush_offset_c", "conductivity_w_mk", "scatter_c"),
+    "uncoupled": ("lo", "hi"),
+}
+
+
+@dataclass(frozen=True)
+class ProfileStudy:
+    """A parsed profile study: the profile, the states to compare, the seed."""
+
+    profile: object
+    compare: dict
+    seed: int | None
+    source: str
+
+
+def _prior(r: Reader, key, value):
+    from ..inference.priors import Uniform
+
+    if isinstance(value, list):
+        if len(value) != 2:
+            r.got(key, value, "a number (fixed) or [lo, hi] (uniform)")
+        lo, hi = (r.number(f"{key}[{i}]", v) for i, v in enumerate(value))
+        if not lo < hi:
+            r.fail(key, f"needs lo < hi; got [{lo:g}, {hi:g}]")
+        return Uniform(lo, hi)
+    return r.number(key, value)
+
+
+def _thermal(r: Reader, key, table, water_depth_km, state_name=None):
+    from ..profile.thermal import THERMAL_STATES
+
+    table = r.table(key, table)
+    name = state_name or r.string(f"{key}.state", table.get("state", "half_space"),
+                                  list(THERMAL_STATES))
+    allowed = _THERMAL_PARAMS[name]
+    kw = {}
+    for k, v in table.items():
+        if k == "state":
+            continue
+        if k not in allowed:
+            if state_name is not None:
+                continue  # parameters of the main state that this compared state lacks
+            r.keys(key, {k: v}, ("state",) + allowed)
+        kw[k] = (r.number(f"{key}.{k}", v, 0.0, lo_open=True) if k == "scatter_c"
+                 else _prior(r, f"{key}.{k}", v))
+    if name == "axial":
+        kw["water_depth_km"] = water_depth_km
+    try:
+        return THERMAL_STATES[name](**kw)
+    except ValueError as exc:
+        r.fail(key, str(exc))
+
+
+def parse_profile_study(text: str, *, source: str = "<profile study>") -> ProfileStudy:
+    """Parse a profile study file's text (see module docstring)."""
+    from ..inference.layer import Layer
+    from ..profile import HeatFlow, Profile
+    from ..profile.spec import HEAT_FLOW_MODES, PRESSURE_MODES
+
+    r = Reader(source)
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise StudyError(source, "(file)", f"not valid TOML: {exc}") from exc
+    r.keys("(top level)", data, ("profile", "run"))
+    if "profile" not in data:
+        r.fail("profile", "missing: a profile study needs a [profile] table")
+    p = r.table("profile", data["profile"])
+    r.keys("profile", p, PROFILE_KEYS)
+    hw = r.number("profile.water_depth_km", p.get("water_depth_km", 3.0), 0.0, 11.0, unit="km")
+    raw_layers = p.get("layers")
+    if not isinstance(raw_layers, list) or not raw_layers:
+        r.fail("profile.layers", "needs at least one [[profile.layers]] table")
+    layers, rocks, priors = [], [], []
+    for i, lt in enumerate(raw_layers):
+        k = f"profile.layers[{i}]"
+        lt = r.table(k, lt)
+        r.keys(k, lt, _LAYER_KEYS)
+        kw = {"name": r.string(f"{k}.name", lt.get("name", f"layer {i + 1}"))}
+        for d in ("top_km", "bottom_km"):
+            if d not in lt:
+                r.fail(f"{k}.{d}", "missing (km below the seafloor)")
+            kw[d] = r.number(f"{k}.{d}", lt[d], 0.0, 100.0, unit="km")
+        for ob in ("vp", "vs", "vp_vs", "density"):
+            if ob in lt:
+                v = lt[ob]
+                if not (isinstance(v, list) and len(v) == 2):
+                    r.got(f"{k}.{ob}", v, "[value, sigma]")
+                kw[ob] = tuple(r.number(f"{k}.{ob}", x) for x in v)
+        try:
+            layers.append(Layer(water_depth_km=hw, **kw))
+        except ValueError as exc:
+            r.fail(k, str(exc))
+        rocks.append(r.rock_list(f"{k}.rocks", lt["rocks"]) if "rocks" in lt else None)
+        priors.append({q: _prior(r, f"{k}.{q}", lt[q]) for q in _PRIOR_KEYS if q in lt})
+    thermal = _thermal(r, "profile.thermal", p.get("thermal", {}), hw)
+    hf = None
+    if "heat_flow" in p:
+        ht = r.table("profile.heat_flow", p["heat_flow"])
+        r.keys("profile.heat_flow", ht, ("value", "sigma", "mode"))
+        for q in ("value", "sigma"):
+            if q not in ht:
+                r.fail(f"profile.heat_flow.{q}", "missing (mW/m^2)")
+        hf = HeatFlow(r.number("profile.heat_flow.value", ht["value"], 0.0, 2000.0,
+                               unit="mW/m^2"),
+                      r.number("profile.heat_flow.sigma", ht["sigma"], 0.0, 2000.0,
+                               lo_open=True, unit="mW/m^2"),
+                      r.string("profile.heat_flow.mode", ht.get("mode", "gaussian"),
+                               list(HEAT_FLOW_MODES)))
+    tr = p.get("temperature_range_c", [0.0, 1600.0])
+    if not (isinstance(tr, list) and len(tr) == 2):
+        r.got("profile.temperature_range_c", tr, "[lo, hi] deg C")
+    kw = {}
+    if "basement_km" in p:
+        kw["basement_km"] = r.number("profile.basement_km", p["basement_km"], 0.0, 100.0)
+    try:
+        profile = Profile(
+            layers, thermal, water_depth_km=hw, rocks=rocks, priors=priors, heat_flow=hf,
+            pressure=r.string("profile.pressure", p.get("pressure", "overburden"),
+                              list(PRESSURE_MODES)),
+            temperature_range_c=(r.number("profile.temperature_range_c[0]", tr[0], -5.0, 2000.0),
+                                 r.number("profile.temperature_range_c[1]", tr[1], -5.0, 2000.0)),
+            name=r.string("profile.name", p.get("name", "profile")), **kw)
+    except ValueError as exc:
+        r.fail("profile", str(exc))
+    compare = {}
+    names = p.get("compare", [])
+    if not isinstance(names, list):
+        r.got("profile.compare", names, "a list of thermal-state names")
+    for j, n in enumerate(names):
+        n = r.string(f"profile.compare[{j}]", n, list(_THERMAL_PARAMS))
+        compare[n] = _thermal(r, "profile.thermal", p.get("thermal", {}), hw, state_name=n)
+    seed = None
+    if "run" in data:
+        run = r.table("run", data["run"])
+        r.keys("run", run, ("seed",))
+        if "seed" in run:
+            seed = r.integer("run.seed", run["seed"], 0, 2**63 - 1)
+    if not math.isfinite(hw):  # pragma: no cover - number() already checks
+        r.fail("profile.water_depth_km", "must be finite")
+    return ProfileStudy(profile=profile, compare=compare, seed=seed, source=source)

@@ -1,0 +1,128 @@
+"""Tables and the figure of a profile result (reads results; computes no physics).
+
+The figure's solidus and serpentine-stability curves are passed in by the caller (the CLI
+evaluates them with :mod:`bayescrust.physics.thermal`), so this module stays a reader.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .style import PALETTE
+
+__all__ = ["hypothesis_table", "boundary_table", "thermal_table", "evidence_table",
+           "profile_figure"]
+
+
+def hypothesis_table(result):
+    """Per-layer hypotheses, wide: rows (layer, hypothesis), probability and mcse."""
+    return result.hypotheses.set_index(["layer", "hypothesis"])
+
+
+def boundary_table(result):
+    """Crust-mantle boundary outcomes plus the thickness summary as trailing rows."""
+    import pandas as pd
+
+    b = result.boundary.set_index("outcome")
+    t = result.thickness
+    extra = pd.DataFrame({"depth_km": [np.nan] * 3, "thickness_km": [t["mean_km"], t["sd_km"],
+                                                                     t["median_km"]],
+                          "probability": [np.nan] * 3, "mcse": [np.nan] * 3},
+                         index=pd.Index(["thickness mean | boundary", "thickness sd | boundary",
+                                         "thickness median | boundary"], name="outcome"))
+    return pd.concat([b, extra])
+
+
+def thermal_table(result):
+    """Thermal-parameter posterior summary."""
+    return result.thermal.set_index("parameter")
+
+
+def evidence_table(comparison):
+    """Evidence of each thermal state (from :func:`compare_thermal_states`)."""
+    return comparison.evidence
+
+
+def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=None):
+    """Four panels against depth: temperature, Vp/Vs, interpretations, boundary depth.
+
+    Parameters
+    ----------
+    result : ProfileResult
+    geotherm : (depth_km, lo, mid, hi), optional
+        Geotherm band (e.g. 5 / 50 / 95 % of the posterior geotherm), deg C.
+    solidus, serpentine : (depth_km, temperature_c), optional
+        Peridotite solidus and serpentine stability limit.
+    fig : matplotlib Figure, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.pyplot as plt
+
+    prof = result.profile
+    fig = fig or plt.figure(figsize=(13, 5.5))
+    axes = fig.subplots(1, 4, sharey=True)
+    mids = prof.mid_depths_km
+    tops, bots = prof.tops_km, prof.bottoms_km
+    lay = result.draws["layers"]
+    # 1. temperature
+    ax = axes[0]
+    if geotherm is not None:
+        z, lo, mid, hi = geotherm
+        ax.fill_betweenx(z, lo, hi, color=PALETTE[0], alpha=0.2, label="geotherm 90 %")
+        ax.plot(mid, z, color=PALETTE[0], lw=1)
+    t = lay["temperature_c"]
+    q = np.nanquantile(t, [0.05, 0.5, 0.95], axis=0)
+    ax.errorbar(q[1], mids, xerr=[q[1] - q[0], q[2] - q[1]], fmt="o", color="k", ms=4,
+                label="layer T (90 %)")
+    if solidus is not None:
+        ax.plot(solidus[1], solidus[0], "--", color=PALETTE[3], label="peridotite solidus")
+    if serpentine is not None:
+        ax.plot(serpentine[1], serpentine[0], ":", color=PALETTE[2], label="serpentine limit")
+    ax.set_xlabel("temperature (deg C)")
+    ax.set_ylabel("depth below seafloor (km)")
+    ax.legend(fontsize=7, loc="lower left")
+    # 2. velocities observed and predicted
+    ax = axes[1]
+    for k, c in (("vp", PALETTE[0]), ("vs", PALETTE[1])):
+        p = np.nanquantile(lay[k], [0.05, 0.5, 0.95], axis=0)
+        ax.errorbar(p[1], mids + 0.08, xerr=[p[1] - p[0], p[2] - p[1]], fmt="s", ms=3,
+                    color=c, label=f"{k} predicted")
+        for i, layer in enumerate(prof.layers):
+            ob = layer.observed.get(k)
+            if ob is not None:
+                ax.errorbar(ob[0], mids[i] - 0.08, xerr=ob[1], fmt="o", mfc="none", color=c,
+                            label=f"{k} observed" if i == 0 or "vp" != k else None)
+    ax.set_xlabel("velocity (km/s)")
+    handles, labels = ax.get_legend_handles_labels()
+    keep = dict(zip(labels, handles, strict=True))
+    ax.legend(keep.values(), keep.keys(), fontsize=7)
+    # 3. stacked interpretation probabilities
+    ax = axes[2]
+    h = result.hypotheses[result.hypotheses["hypothesis"] != "mantle rock"]
+    names = list(dict.fromkeys(h["hypothesis"]))
+    for i, layer in enumerate(prof.names):
+        left = 0.0
+        sub = h[h["layer"] == layer].set_index("hypothesis")["probability"]
+        for j, name in enumerate(names):
+            w = float(sub.get(name, 0.0))
+            ax.barh(mids[i], w, left=left, height=0.9 * (bots[i] - tops[i]),
+                    color=PALETTE[j % len(PALETTE)], label=name if i == 0 else None)
+            left += w
+    ax.set_xlabel("probability (hypotheses may overlap)")
+    ax.legend(fontsize=7, loc="lower right")
+    # 4. boundary depth
+    ax = axes[3]
+    b = result.boundary
+    ax.barh(b["depth_km"].iloc[:-1], b["probability"].iloc[:-1], height=0.3, color=PALETTE[4])
+    ax.set_xlabel("P(crust-mantle boundary)")
+    ax.text(0.02, 0.02, f"P(no boundary in section) = {b['probability'].iloc[-1]:.3f}",
+            transform=ax.transAxes, fontsize=8)
+    for a in axes:
+        for z in tops:
+            a.axhline(z, color="0.85", lw=0.5, zorder=0)
+    axes[0].set_ylim(bots[-1], 0.0)
+    fig.suptitle(f"{prof.name}: {prof.thermal.describe()} ({result.method})", fontsize=9)
+    return fig

@@ -1,0 +1,78 @@
+"""The ``profile`` command, the ``[profile]`` study section and the NetCDF output."""
+
+from importlib.resources import files
+
+import arviz as az
+import pytest
+
+from bayescrust.cli import main
+from bayescrust.config.errors import StudyError
+from bayescrust.config.profile import parse_profile_study
+
+DEMO = files("bayescrust").joinpath("demo", "tallowmere_profile.toml").read_text("utf-8")
+SMALL = """
+[profile]
+name = "small"
+water_depth_km = 3.0
+compare = ["half_space", "uncoupled"]
+[profile.thermal]
+state = "half_space"
+age_myr = [1.0, 20.0]
+[profile.heat_flow]
+value = 120.0
+sigma = 20.0
+mode = "lower_bound"
+[[profile.layers]]
+name = "upper"
+top_km = 0.0
+bottom_km = 2.0
+vp = [5.5, 0.2]
+[[profile.layers]]
+name = "lower"
+top_km = 2.0
+bottom_km = 6.0
+vp = [7.0, 0.1]
+porosity = 0.0
+[run]
+seed = 3
+"""
+
+
+def test_demo_profile_study_parses():
+    st = parse_profile_study(DEMO, source="demo.toml")
+    assert st.profile.n_layers == 5 and set(st.compare) == {"half_space", "axial", "uncoupled"}
+    assert st.profile.heat_flow.mode == "lower_bound"
+
+
+@pytest.mark.parametrize("bad, key", [
+    ("water_depth_km = 3.0", "water_depth_km = 30.0"),
+    ('state = "half_space"', 'state = "lukewarm"'),
+    ('mode = "lower_bound"', 'mode = "upper"'),
+    ("bottom_km = 2.0", "bottom_km = 2.5"),
+])
+def test_bad_profile_study_names_file_and_key(bad, key):
+    with pytest.raises(StudyError) as e:
+        parse_profile_study(SMALL.replace(bad, key), source="bad.toml")
+    assert "bad.toml" in str(e.value)
+
+
+def test_profile_command_writes_tables_and_netcdf(tmp_path):
+    study = tmp_path / "p.toml"
+    study.write_text(SMALL, encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["profile", str(study), "--out", str(out), "--no-figures", "-q"]) == 0
+    for stem in ("hypotheses", "boundary", "thermal", "thermal_evidence", "answers_by_state"):
+        for ext in ("csv", "md", "tex"):
+            assert (out / f"{stem}.{ext}").is_file()
+    idata = az.from_netcdf(str(out / "posterior.nc"))
+    assert idata.posterior["temperature_c"].dims[-1] == "layer"
+    assert list(idata.posterior["layer"].values) == ["upper", "lower"]
+    assert "boundary_km" in idata.posterior
+    assert (out / "report.md").read_text().count("Thermal state favoured") == 1
+
+
+def test_profile_command_bad_file_exit_code(tmp_path):
+    study = tmp_path / "p.toml"
+    study.write_text(SMALL.replace("sigma = 20.0", "sigma = -1.0"), encoding="utf-8")
+    assert main(["profile", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
+    assert not (tmp_path / "o").exists()
