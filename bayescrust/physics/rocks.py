@@ -22,7 +22,7 @@ from types import MappingProxyType
 
 import numpy as np
 
-from . import anelastic, fluids, inclusions, minerals, mixing
+from . import anelastic, fluids, inclusions, minerals, mixing, serpentinization
 from ._checks import as_float_array, check_range
 from ._data import CELSIUS_TO_KELVIN, load_table
 
@@ -215,6 +215,10 @@ class ForwardModel:
         Pore-water salinity as a mass fraction (seawater 0.035).
     attenuation_law : str
         Name from :data:`bayescrust.physics.anelastic.ATTENUATION_LAWS`.
+    serpentine_mixing : {"hs_upper", "mineral_hill"}
+        How serpentinite joins the fresh rock (:mod:`bayescrust.physics.serpentinization`):
+        a two-phase Hashin-Shtrikman composite following the laboratory trend (default), or
+        serpentine minerals inside the Hill average of the rock (the former scheme).
     """
 
     rocks: tuple
@@ -226,6 +230,7 @@ class ForwardModel:
     anelastic: bool = True
     salinity: float = 0.035
     attenuation_law: str = "jackson2002"
+    serpentine_mixing: str = "hs_upper"
     _modes: np.ndarray = field(init=False, repr=False)
     _serp_modes: np.ndarray = field(init=False, repr=False)
     _ultramafic: np.ndarray = field(init=False, repr=False)
@@ -243,6 +248,7 @@ class ForwardModel:
         _choose("mixing", self.mixing, mixing.MIXING_RULES)
         _choose("inclusion_scheme", self.inclusion_scheme, inclusions.INCLUSION_SCHEMES)
         _choose("attenuation_law", self.attenuation_law, anelastic.ATTENUATION_LAWS)
+        _choose("serpentine_mixing", self.serpentine_mixing, serpentinization.SERPENTINE_MIXING)
         if self.serpentine not in _SERPENTINITE_OF:
             raise ValueError(
                 f"serpentine must be one of {sorted(_SERPENTINITE_OF)}; got {self.serpentine!r}"
@@ -350,7 +356,18 @@ class ForwardModel:
         x = self.mineral_fractions(f, serp)
         rho_m, k_m, g_m = minerals._mineral_state(self._table, t_k, p)
         rho_s = np.einsum("ij,ij->i", x, rho_m)
-        k_s, g_s = mixing._MIXING_KERNELS[self.mixing](x, k_m, g_m)
+        mix = mixing._MIXING_KERNELS[self.mixing]
+        s_rock = serp * (f @ self._ultramafic)  # serpentinite volume fraction of the rock
+        if self.serpentine_mixing == "mineral_hill" or not np.any(s_rock > 0):
+            k_s, g_s = mix(x, k_m, g_m)
+        else:
+            # fresh part and serpentinite mixed separately, then joined as two phases
+            x_f = x - s_rock[:, None] * self._serp_modes
+            x_f = x_f / np.maximum(1.0 - s_rock, 1e-12)[:, None]
+            k_f, g_f = mix(x_f, k_m, g_m)
+            k_sp, g_sp = mix(np.broadcast_to(self._serp_modes, x.shape), k_m, g_m)
+            k_s, g_s = serpentinization.SERPENTINE_MIXING[self.serpentine_mixing](
+                k_f, g_f, k_sp, g_sp, s_rock)
         rho = rho_s
         has = (phi > 0) | (melt > 0)
         if has.any():
