@@ -611,6 +611,11 @@ def cmd_forward(args) -> int:
     if args.list:
         _print_catalogue()
         return 0
+    if args.validate:  # the model against the shipped laboratory table
+        from .physics.labdata import validation_report
+
+        print(validation_report())
+        return 0
     for opt, v in (("--rock", args.rock), ("--temperature", args.temperature),
                    ("--pressure", args.pressure)):
         if v is None:
@@ -633,6 +638,10 @@ def cmd_forward(args) -> int:
     rock = args.rock if args.rock in known_rocks() else {args.rock: 1.0}  # one-mineral rock
     kw = {k: (v if v.size > 1 else float(v[0])) for k, v in vals.items()}
     try:
+        # melt only above the solidus, serpentine only below its stability (as the inversion)
+        kw, notes = bc.physics.rocks.apply_stability(rock, **kw)
+        for note in notes:
+            print(f"warning: {note}", file=sys.stderr)
         props = bc.rock_properties(rock, **kw)
     except ValueError as exc:
         raise InputError(f"forward: {exc}") from None
@@ -852,6 +861,9 @@ def _parser() -> argparse.ArgumentParser:
     sp.add_argument("--pressure", metavar="GPA", help="pressure (GPa)")
     sp.add_argument("--list", action="store_true",
                     help="list the built-in minerals and rocks with their sources, then exit")
+    sp.add_argument("--validate", action="store_true",
+                    help="print the model's misfit against the published laboratory table, "
+                         "then exit")
     sp.add_argument("--porosity", metavar="FRAC", help="seawater-filled porosity (fraction)")
     sp.add_argument("--aspect-ratio", metavar="A", help="pore aspect ratio")
     sp.add_argument("--melt-fraction", metavar="FRAC", help="melt volume fraction")

@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from ..physics.labdata import MODEL_ERROR as _LAB_MODEL_ERROR
 from .layer import OBSERVABLES, Layer
 from .priors import Dirichlet, Uniform, as_prior
 from .thermal_priors import UniformTemperature, resolve_temperature_prior
@@ -69,15 +70,14 @@ DERIVED_QUANTITIES = (
     "serpentine_fraction",
 )
 
-#: Forward-model error as a fraction of the observed value, per observable.
-#: Justification: the spread of single-crystal moduli between published data sets and the
-#: Voigt-Reuss half-width of polymineralic rocks give ~1-2 % in moduli, i.e. ~0.5-1 % in
-#: velocity, hence 1 % for Vp, Vs and Vp/Vs (``common practice``); densities from modal
-#: mineralogy are better known, 0.5 %.
-DEFAULT_MODEL_ERROR = {"vp": 0.01, "vs": 0.01, "vp_vs": 0.01, "density": 0.005}
+#: Forward-model error as a fraction of the predicted value, per observable.
+#: Measured, not chosen: the RMS misfit of the forward model against the published laboratory
+#: table (``physics/data/lab_rocks.toml``; :data:`bayescrust.physics.labdata.MODEL_ERROR`,
+#: docs/physics.md). It replaces the former 1 % (Vp, Vs, Vp/Vs) / 0.5 % (density) guess.
+DEFAULT_MODEL_ERROR = dict(_LAB_MODEL_ERROR)
 
 # Rock families used by derived quantities, default hypotheses and the solidus mix.
-_GABBROIC = ("gabbro", "olivine_gabbro", "troctolite")
+_GABBROIC = ("gabbro", "altered_gabbro", "olivine_gabbro", "troctolite")
 _BASALTIC = ("basalt", "diabase")
 _SERPENTINITES = ("serpentinite", "antigorite_serpentinite")
 _SERPENTINITE_KIND = {"serpentinite": "lizardite", "antigorite_serpentinite": "antigorite"}

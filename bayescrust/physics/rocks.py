@@ -29,6 +29,7 @@ from ._data import CELSIUS_TO_KELVIN, load_table
 __all__ = [
     "ROCKS",
     "ForwardModel",
+    "apply_stability",
     "Rock",
     "RockProperties",
     "list_rocks",
@@ -362,8 +363,10 @@ class ForwardModel:
             k_s, g_s = mix(x, k_m, g_m)
         else:
             # fresh part and serpentinite mixed separately, then joined as two phases
+            fresh = 1.0 - s_rock
             x_f = x - s_rock[:, None] * self._serp_modes
-            x_f = x_f / np.maximum(1.0 - s_rock, 1e-12)[:, None]
+            # a fully serpentinised rock has no fresh part: any valid mix stands in (weight 0)
+            x_f = np.where((fresh > 1e-9)[:, None], x_f / np.maximum(fresh, 1e-9)[:, None], x)
             k_f, g_f = mix(x_f, k_m, g_m)
             k_sp, g_sp = mix(np.broadcast_to(self._serp_modes, x.shape), k_m, g_m)
             k_s, g_s = serpentinization.SERPENTINE_MIXING[self.serpentine_mixing](
@@ -533,3 +536,77 @@ def rock_properties(
         fr = np.ones(np.broadcast(t, p, phi, ar, melt, mar, serp, pp).shape + (1,))
     vp, vs, rho = fm(fr, t, p, phi, ar, melt, mar, serp, pp)
     return RockProperties(vp=vp, vs=vs, density=rho)
+
+
+_SERPENTINITE_ROCKS = {"serpentinite": "lizardite", "antigorite_serpentinite": "antigorite"}
+
+
+def apply_stability(rock, *, temperature_c, pressure_gpa, melt_fraction=0.0,
+                    serpentinization=0.0, serpentine: str = "lizardite", **others):
+    """Switch off melt below the solidus and serpentine above its stability, and say so.
+
+    The same rule as the layer inversion (melt is effective only above the solidus, serpentine
+    only below its stability limit), for a direct forward-model call. A rock counts as mantle-like
+    (peridotite solidus) if it is ultramafic or a serpentinite; otherwise the gabbro solidus
+    applies.
+
+    Parameters
+    ----------
+    rock : str, Rock or mapping
+        As for :func:`rock_properties` (a mapping counts as mantle-like if any of its rocks is).
+    temperature_c, pressure_gpa, melt_fraction, serpentinization : array_like
+        As for :func:`rock_properties`; broadcast together.
+    serpentine : {"lizardite", "antigorite"}
+        Kind of serpentine whose stability limit applies.
+    **others
+        Passed through unchanged.
+
+    Returns
+    -------
+    kwargs : dict
+        The keyword arguments for :func:`rock_properties`, with ``melt_fraction`` and
+        ``serpentinization`` set to 0 where they are not physical.
+    messages : list of str
+        One message per rule that changed something (empty if nothing changed).
+
+    Notes
+    -----
+    Solidi and stability limits are those of :mod:`bayescrust.physics.thermal` (Hirschmann
+    2000 peridotite solidus; serpentine limits of Evans 2010 / Ulmer & Trommsdorff 1995).
+    """
+    from . import thermal
+
+    t = np.asarray(temperature_c, float)
+    p = np.asarray(pressure_gpa, float)
+    if isinstance(rock, Mapping) and any(k in minerals.MINERALS for k in rock):
+        mantle = _custom_rock(rock).ultramafic  # a mineral mix
+    else:
+        names = list(rock) if isinstance(rock, Mapping) else [rock]
+        resolved = [_resolve_rock(r) for r in names]
+        mantle = any(r.ultramafic or r.name in _SERPENTINITE_ROCKS for r in resolved)
+    solidus = thermal.peridotite_solidus_c(p) if mantle else thermal.gabbro_solidus_c(p)
+    messages = []
+    melt = np.asarray(melt_fraction, float)
+    below = (t <= solidus) & (melt > 0)
+    if np.any(below):
+        kind = "peridotite" if mantle else "gabbro"
+        messages.append(
+            f"melt_fraction set to 0 where the temperature is at or below the {kind} solidus "
+            f"({float(np.min(solidus)):.0f} deg C at {float(np.min(p)):g} GPa); melt is "
+            "effective only above the solidus, as in the inversion")
+        melt = np.where(below, 0.0, melt)
+    serp = np.asarray(serpentinization, float)
+    limit = thermal.serpentine_stability_c(p, kind=serpentine)
+    above = (t >= limit) & (serp > 0)
+    if np.any(above):
+        messages.append(
+            f"serpentinization set to 0 where the temperature is at or above the {serpentine} "
+            f"stability limit ({float(np.min(limit)):.0f} deg C); serpentine is effective only "
+            "below it, as in the inversion")
+        serp = np.where(above, 0.0, serp)
+    kw = dict(others, temperature_c=temperature_c, pressure_gpa=pressure_gpa,
+              melt_fraction=melt if melt.ndim else float(melt),
+              serpentinization=serp if serp.ndim else float(serp))
+    if serpentine != "lizardite":
+        kw["serpentine"] = serpentine
+    return kw, messages
