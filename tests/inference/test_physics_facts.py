@@ -47,7 +47,6 @@ def test_adding_vs_moves_probability_the_expected_way():
     # raises Vp/Vs with its fraction: Watanabe 1993 GRL 20, verified); a low Vp/Vs (~1.76) points
     # away from both. (Partly molten hot peridotite keeps a high Vp/Vs, so "hot mantle" as a whole
     # does not drop with Vp/Vs; the model's gabbro has Vp/Vs 1.77, see docs/physics.md.)
-    base = bc.exact_layer(bc.Layer("lc", vp=(7.1, 0.1), **LOWER), **KW)
     low = bc.exact_layer(bc.Layer("lc", vp=(7.1, 0.1), vs=(7.1 / 1.76, 0.05), **LOWER), **KW)
     high = bc.exact_layer(bc.Layer("lc", vp=(7.1, 0.1), vs=(7.1 / 1.92, 0.05), **LOWER), **KW)
     # margins of 0.05 are five times the exact path's Monte Carlo errors (< 0.01)
