@@ -24,7 +24,7 @@ from scipy import special
 
 from ..physics.labdata import MODEL_ERROR as _LAB_MODEL_ERROR
 from .layer import OBSERVABLES, Layer
-from .priors import Dirichlet, Uniform, as_prior
+from .priors import Dirichlet, LogUniform, Uniform, as_prior
 from .thermal_priors import UniformTemperature, resolve_temperature_prior
 
 __all__ = [
@@ -92,7 +92,10 @@ def default_priors(layer: Layer, rock_names, ultramafic) -> dict:
     - ``temperature_c``: ``UniformTemperature(0, 1400)``;
     - ``porosity``: ``Uniform(0, 0.3)`` if the layer's mid-depth is < 1.5 km below the seafloor
       (Layer 2, extrusives and dikes), else ``Uniform(0, 0.03)``;
-    - ``aspect_ratio``: fixed 0.1 (cracks and pores between penny cracks and spheres);
+    - ``aspect_ratio``: ``LogUniform(0.01, 1)`` in the same shallow layers (a spread of pore
+      shapes from thin cracks to round pores: Layer 2 Vp/Vs >= 1.9 needs aspect ratios
+      <= ~0.02), else fixed 0.1; thin cracks at depth are shut by effective pressure anyway
+      (Walsh 1965, ``physics/pores.py``);
     - ``melt_fraction``: ``Uniform(0, 0.05)`` (effective only above the solidus);
     - ``melt_aspect_ratio``: fixed 0.05 (melt films/tubules);
     - ``serpentinization``: ``Uniform(0, 1)`` if an ultramafic rock is present (effective only
@@ -103,7 +106,8 @@ def default_priors(layer: Layer, rock_names, ultramafic) -> dict:
         "temperature_c": UniformTemperature(0.0, 1400.0),
         "porosity": Uniform(0.0, 0.3) if layer.mid_depth_km < _DEPTH_POROUS_KM
         else Uniform(0.0, 0.03),
-        "aspect_ratio": 0.1,
+        "aspect_ratio": LogUniform(0.01, 1.0) if layer.mid_depth_km < _DEPTH_POROUS_KM
+        else 0.1,
         "melt_fraction": Uniform(0.0, 0.05),
         "melt_aspect_ratio": 0.05,
         "serpentinization": Uniform(0.0, 1.0) if np.any(ultramafic) else 0.0,
@@ -162,6 +166,7 @@ class LayerModel:
     ultramafic: np.ndarray
     families: dict
     settings: dict
+    pore_pressure_gpa: float | None = None  # hydrostatic pore pressure (crack closure)
 
     # ------------------------------------------------------------------ construction
     @classmethod
@@ -269,6 +274,10 @@ class LayerModel:
                 free.append(p)
 
         pressure = layer.resolved_pressure_gpa()
+        # pore water in hydrostatic contact with the ocean (common practice, physics-reference
+        # sec. 8): effective pressure = confining - pore pressure closes thin cracks (Walsh 1965)
+        pore_pressure = min(pressure, thermal.hydrostatic_pore_pressure_gpa(
+            layer.water_depth_km + layer.mid_depth_km))
         per_sol = float(thermal.peridotite_solidus_c(pressure))
         gab_sol = float(thermal.gabbro_solidus_c(pressure))
         serp_kind = getattr(fm, "serpentine", "lizardite")
@@ -324,6 +333,7 @@ class LayerModel:
             "forward": fwd_settings,
             "solidus_c": {"peridotite": per_sol, "gabbro": gab_sol},
             "serpentine_stability_c": serp_lim,
+            "pore_pressure_gpa": pore_pressure,
         }
         return cls(
             layer=layer, forward=fm, rock_names=names, alpha=alpha,
@@ -331,7 +341,7 @@ class LayerModel:
             fixed=fixed, pressure_gpa=pressure, rock_solidus_c=rock_solidus,
             serpentine_limit_c=serp_lim, observed=observed, model_error=me,
             likelihood=likelihood, nu=nu, ultramafic=ultramafic, families=families,
-            settings=settings,
+            settings=settings, pore_pressure_gpa=pore_pressure,
         )
 
     # ------------------------------------------------------------------ coordinates
@@ -453,6 +463,8 @@ class LayerModel:
                 melt_fraction=q["melt_fraction_effective"],
                 melt_aspect_ratio=q["melt_aspect_ratio"],
                 serpentinization=q["serpentinization_effective"],
+                **({} if self.pore_pressure_gpa is None
+                   else {"pore_pressure_gpa": self.pore_pressure_gpa}),
             )
 
     def total_sigma(self, name: str, predicted) -> np.ndarray:

@@ -22,7 +22,7 @@ from types import MappingProxyType
 
 import numpy as np
 
-from . import anelastic, fluids, inclusions, minerals, mixing, serpentinization
+from . import anelastic, fluids, inclusions, minerals, mixing, pores, serpentinization
 from ._checks import as_float_array, check_range
 from ._data import CELSIUS_TO_KELVIN, load_table
 
@@ -220,6 +220,13 @@ class ForwardModel:
         How serpentinite joins the fresh rock (:mod:`bayescrust.physics.serpentinization`):
         a two-phase Hashin-Shtrikman composite following the laboratory trend (default), or
         serpentine minerals inside the Hill average of the rock (the former scheme).
+    pore_fluid : {"connected", "isolated"}
+        Pore water equalising its pressure between connected pores (relaxed: dry frame +
+        Gassmann 1951; default, the seismic-frequency limit, docs/physics.md) or trapped in
+        isolated inclusions (unrelaxed, the ultrasonic limit); :mod:`~.pores`.
+    crack_closure : bool
+        Thin cracks close with effective pressure (confining minus pore pressure; Walsh 1965).
+        With the default pore pressure (= confining) nothing closes.
     """
 
     rocks: tuple
@@ -232,6 +239,8 @@ class ForwardModel:
     salinity: float = 0.035
     attenuation_law: str = "jackson2002"
     serpentine_mixing: str = "hs_upper"
+    pore_fluid: str = "connected"
+    crack_closure: bool = True
     _modes: np.ndarray = field(init=False, repr=False)
     _serp_modes: np.ndarray = field(init=False, repr=False)
     _ultramafic: np.ndarray = field(init=False, repr=False)
@@ -250,6 +259,7 @@ class ForwardModel:
         _choose("inclusion_scheme", self.inclusion_scheme, inclusions.INCLUSION_SCHEMES)
         _choose("attenuation_law", self.attenuation_law, anelastic.ATTENUATION_LAWS)
         _choose("serpentine_mixing", self.serpentine_mixing, serpentinization.SERPENTINE_MIXING)
+        _choose("pore_fluid", self.pore_fluid, dict.fromkeys(pores.POROUS_FLUID_MODES))
         if self.serpentine not in _SERPENTINITE_OF:
             raise ValueError(
                 f"serpentine must be one of {sorted(_SERPENTINITE_OF)}; got {self.serpentine!r}"
@@ -384,14 +394,27 @@ class ForwardModel:
                 rho_l, k_l = fluids._basaltic_melt(t_c[i], p[i])
             else:
                 rho_l = k_l = np.ones_like(t_c[i])
-            k_i = np.stack([k_w, k_l], axis=-1)
-            frac = np.stack([phi[i], melt[i]], axis=-1)
-            aspect = np.stack([ar[i], mar[i]], axis=-1)
             k_s, g_s, rho = k_s.copy(), g_s.copy(), rho_s.copy()
-            k_s[i], g_s[i] = inclusions._INCLUSION_KERNELS[self.inclusion_scheme](
-                k_s[i], g_s[i], k_i, np.zeros_like(k_i), aspect, frac
-            )
-            rho[i] = (1.0 - phi[i] - melt[i]) * rho_s[i] + phi[i] * rho_w + melt[i] * rho_l
+            phi_i, ar_i = phi[i], ar[i]
+            if self.crack_closure:
+                phi_i, ar_i = pores.close_cracks(phi_i, ar_i, p[i] - p_pore[i], k_s[i], g_s[i])
+            scheme = inclusions._INCLUSION_KERNELS[self.inclusion_scheme]
+            if self.pore_fluid == "isolated":
+                k_i = np.stack([k_w, k_l], axis=-1)
+                frac = np.stack([phi_i, melt[i]], axis=-1)
+                aspect = np.stack([ar_i, mar[i]], axis=-1)
+                k_s[i], g_s[i] = scheme(k_s[i], g_s[i], k_i, np.zeros_like(k_i), aspect, frac)
+            else:  # connected: melt-bearing solid, dry pores in it, Gassmann saturation
+                k_h, g_h = k_s[i], g_s[i]
+                m = melt[i]
+                if np.any(m > 0):
+                    fm = (m / np.maximum(1.0 - phi_i, 1e-12))[:, None]
+                    k_h, g_h = scheme(k_h, g_h, k_l[:, None], np.zeros_like(fm), mar[i][:, None],
+                                      fm)
+                zero = np.zeros((k_h.shape[0], 1))
+                k_d, g_d = scheme(k_h, g_h, zero, zero, ar_i[:, None], phi_i[:, None])
+                k_s[i], g_s[i] = pores.gassmann(k_d, g_d, k_h, k_w, phi_i)
+            rho[i] = (1.0 - phi_i - melt[i]) * rho_s[i] + phi_i * rho_w + melt[i] * rho_l
         vp = np.sqrt((k_s + 4.0 / 3.0 * g_s) / rho)
         vs = np.sqrt(g_s / rho)
         if self.anelastic:
@@ -454,6 +477,8 @@ def rock_properties(
     inclusion_scheme: str = "dem",
     anelastic: bool = True,
     pore_pressure_gpa=None,
+    pore_fluid: str = "connected",
+    crack_closure: bool = True,
 ) -> RockProperties:
     """Vp, Vs and density of a rock at pressure and temperature, with pores, melt and serpentine.
 
@@ -489,7 +514,11 @@ def rock_properties(
     anelastic : bool, optional
         Apply the anelastic dispersion correction.
     pore_pressure_gpa : array_like, optional
-        Pore-water pressure, GPa (default: the confining pressure).
+        Pore-water pressure, GPa (default: the confining pressure, i.e. no crack closure).
+    pore_fluid : {"isolated", "connected"}, optional
+        Unrelaxed fluid in isolated pores, or relaxed (dry frame + Gassmann) connected pores.
+    crack_closure : bool, optional
+        Close thin cracks with effective pressure (Walsh 1965).
 
     Returns
     -------
@@ -531,6 +560,8 @@ def rock_properties(
         frequency_hz=float(as_float_array("frequency_hz", frequency_hz)),
         grain_size_mm=float(as_float_array("grain_size_mm", grain_size_mm)),
         anelastic=bool(anelastic),
+        pore_fluid=pore_fluid,
+        crack_closure=bool(crack_closure),
     )
     if fr is None:
         fr = np.ones(np.broadcast(t, p, phi, ar, melt, mar, serp, pp).shape + (1,))
