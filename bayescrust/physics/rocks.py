@@ -405,15 +405,20 @@ class ForwardModel:
                 aspect = np.stack([ar_i, mar[i]], axis=-1)
                 k_s[i], g_s[i] = scheme(k_s[i], g_s[i], k_i, np.zeros_like(k_i), aspect, frac)
             else:  # connected: melt-bearing solid, dry pores in it, Gassmann saturation
-                k_h, g_h = k_s[i], g_s[i]
+                k_h, g_h = k_s[i].copy(), g_s[i].copy()
                 m = melt[i]
-                if np.any(m > 0):
-                    fm = (m / np.maximum(1.0 - phi_i, 1e-12))[:, None]
-                    k_h, g_h = scheme(k_h, g_h, k_l[:, None], np.zeros_like(fm), mar[i][:, None],
-                                      fm)
-                zero = np.zeros((k_h.shape[0], 1))
-                k_d, g_d = scheme(k_h, g_h, zero, zero, ar_i[:, None], phi_i[:, None])
-                k_s[i], g_s[i] = pores.gassmann(k_d, g_d, k_h, k_w, phi_i)
+                j = np.flatnonzero(m > 0)  # each scheme runs only on the rows it changes
+                if j.size:
+                    fm = (m[j] / np.maximum(1.0 - phi_i[j], 1e-12))[:, None]
+                    k_h[j], g_h[j] = scheme(k_h[j], g_h[j], k_l[j, None], np.zeros_like(fm),
+                                            mar[i][j, None], fm)
+                k_c, g_c = k_h.copy(), g_h.copy()
+                j = np.flatnonzero(phi_i > 0)
+                if j.size:
+                    zero = np.zeros((j.size, 1))
+                    k_d, g_d = scheme(k_h[j], g_h[j], zero, zero, ar_i[j, None], phi_i[j, None])
+                    k_c[j], g_c[j] = pores.gassmann(k_d, g_d, k_h[j], k_w[j], phi_i[j])
+                k_s[i], g_s[i] = k_c, g_c
             rho[i] = (1.0 - phi_i - melt[i]) * rho_s[i] + phi_i * rho_w + melt[i] * rho_l
         vp = np.sqrt((k_s + 4.0 / 3.0 * g_s) / rho)
         vs = np.sqrt(g_s / rho)
