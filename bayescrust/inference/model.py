@@ -24,7 +24,7 @@ from scipy import special
 
 from ..physics.labdata import MODEL_ERROR as _LAB_MODEL_ERROR
 from .layer import OBSERVABLES, Layer
-from .priors import Dirichlet, LogUniform, Uniform, as_prior
+from .priors import Dirichlet, Uniform, as_prior
 from .thermal_priors import UniformTemperature, resolve_temperature_prior
 
 __all__ = [
@@ -92,10 +92,11 @@ def default_priors(layer: Layer, rock_names, ultramafic) -> dict:
     - ``temperature_c``: ``UniformTemperature(0, 1400)``;
     - ``porosity``: ``Uniform(0, 0.3)`` if the layer's mid-depth is < 1.5 km below the seafloor
       (Layer 2, extrusives and dikes), else ``Uniform(0, 0.03)``;
-    - ``aspect_ratio``: ``LogUniform(0.01, 1)`` in the same shallow layers (a spread of pore
-      shapes from thin cracks to round pores: Layer 2 Vp/Vs >= 1.9 needs aspect ratios
-      <= ~0.02), else fixed 0.1; thin cracks at depth are shut by effective pressure anyway
-      (Walsh 1965, ``physics/pores.py``);
+    - ``aspect_ratio``: fixed 0.1 (between penny cracks and spheres). A pore-shape spread,
+      ``priors={"aspect_ratio": LogUniform(0.01, 1)}``, lets shallow layers reach Layer-2
+      Vp/Vs >= 1.9 (needs aspect ratios <= ~0.02) but made a Layer-2B inversion ~7x slower
+      with the current sampler (porosity-aspect trade-off), so it is opt-in; thin cracks at
+      depth are shut by effective pressure either way (Walsh 1965, ``physics/pores.py``);
     - ``melt_fraction``: ``Uniform(0, 0.05)`` (effective only above the solidus);
     - ``melt_aspect_ratio``: fixed 0.05 (melt films/tubules);
     - ``serpentinization``: ``Uniform(0, 1)`` if an ultramafic rock is present (effective only
@@ -106,8 +107,7 @@ def default_priors(layer: Layer, rock_names, ultramafic) -> dict:
         "temperature_c": UniformTemperature(0.0, 1400.0),
         "porosity": Uniform(0.0, 0.3) if layer.mid_depth_km < _DEPTH_POROUS_KM
         else Uniform(0.0, 0.03),
-        "aspect_ratio": LogUniform(0.01, 1.0) if layer.mid_depth_km < _DEPTH_POROUS_KM
-        else 0.1,
+        "aspect_ratio": 0.1,
         "melt_fraction": Uniform(0.0, 0.05),
         "melt_aspect_ratio": 0.05,
         "serpentinization": Uniform(0.0, 1.0) if np.any(ultramafic) else 0.0,
