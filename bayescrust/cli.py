@@ -612,9 +612,15 @@ def cmd_forward(args) -> int:
         _print_catalogue()
         return 0
     if args.validate:  # the model against the shipped laboratory table
-        from .physics.labdata import validation_report
+        from .physics.labdata import lab_misfit, validation_report
 
-        print(validation_report())
+        misfit = lab_misfit()
+        print(validation_report(misfit))
+        if args.plot:
+            _use_agg()
+            from .report.validation import lab_misfit_figure
+
+            _save_forward_plot(args, lab_misfit_figure(misfit))
         return 0
     for opt, v in (("--rock", args.rock), ("--temperature", args.temperature),
                    ("--pressure", args.pressure)):
@@ -660,17 +666,7 @@ def cmd_forward(args) -> int:
 
         fig = forward_figure(pd.DataFrame(rows), x=ranged[0],
                              title=f"{args.rock} (forward model)")
-        out = Path(args.plot)
-        if out.suffix.lower().lstrip(".") not in _FIG_FORMATS:
-            raise InputError(f"--plot: got {args.plot!r}, expected a .png or .pdf file name")
-        if out.exists() and not args.overwrite:
-            raise InputError(f"{out}: --plot: file exists; pass --overwrite to replace it")
-        try:
-            tmp = out.with_name(f".{out.name}.partial{out.suffix}")
-            fig.savefig(tmp, dpi=200, bbox_inches="tight")
-            tmp.replace(out)
-        except OSError as exc:
-            raise InputError(f"{out}: --plot: cannot write ({exc.strerror or exc})") from None
+        _save_forward_plot(args, fig)
     if args.json:
         print(json.dumps({"rock": args.rock, "units": {"temperature_c": "deg C",
                           "pressure_gpa": "GPa", "vp": "km/s", "vs": "km/s",
@@ -682,6 +678,21 @@ def cmd_forward(args) -> int:
         for r in rows:
             print("  ".join(f"{r[c]:14.5g}" for c in cols))
     return 0
+
+
+def _save_forward_plot(args, fig) -> None:
+    """Write ``fig`` to ``args.plot`` atomically (``forward --plot``)."""
+    out = Path(args.plot)
+    if out.suffix.lower().lstrip(".") not in _FIG_FORMATS:
+        raise InputError(f"--plot: got {args.plot!r}, expected a .png or .pdf file name")
+    if out.exists() and not args.overwrite:
+        raise InputError(f"{out}: --plot: file exists; pass --overwrite to replace it")
+    try:
+        tmp = out.with_name(f".{out.name}.partial{out.suffix}")
+        fig.savefig(tmp, dpi=200, bbox_inches="tight")
+        tmp.replace(out)
+    except OSError as exc:
+        raise InputError(f"{out}: --plot: cannot write ({exc.strerror or exc})") from None
 
 
 def _print_catalogue() -> None:

@@ -91,3 +91,20 @@ def test_forward_cli_warns(capsys):
     assert main(["forward", "--rock", "harzburgite", "--temperature", "800", "--pressure",
                  "0.2", "--serpentinization", "0.3"]) == 0
     assert "serpentinization set to 0" in capsys.readouterr().err
+
+
+def test_validate_plot_writes_the_figure(tmp_path, capsys):
+    from bayescrust.cli import main
+
+    out = tmp_path / "lab.png"
+    assert main(["forward", "--validate", "--plot", str(out)]) == 0
+    assert out.stat().st_size > 1000
+
+
+def test_lab_misfit_figure_draws_every_entry():
+    from bayescrust.report.validation import lab_misfit_figure
+
+    misfit = labdata.lab_misfit()
+    fig = lab_misfit_figure(misfit)
+    dots = sum(len([ln for ln in ax.lines if ln.get_marker() == "o"]) for ax in fig.axes)
+    assert dots == len(misfit)
