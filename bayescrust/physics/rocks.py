@@ -640,6 +640,18 @@ def apply_stability(rock, *, temperature_c, pressure_gpa, melt_fraction=0.0,
             f"stability limit ({float(np.min(limit)):.0f} deg C); serpentine is effective only "
             "below it, as in the inversion")
         serp = np.where(above, 0.0, serp)
+    serp_rocks = [] if isinstance(rock, Mapping) and any(k in minerals.MINERALS for k in rock) \
+        else [r for r in (list(rock) if isinstance(rock, Mapping) else [rock])
+              if _resolve_rock(r).name in _SERPENTINITE_ROCKS]
+    for r in serp_rocks:  # a serpentinite end member cannot be switched off: warn only
+        name = _resolve_rock(r).name
+        kind = _SERPENTINITE_ROCKS[name]
+        lim = thermal.serpentine_stability_c(p, kind=kind)
+        if np.any(t >= lim):
+            messages.append(
+                f"{name} ({kind}) is not stable at or above {float(np.min(lim)):.0f} deg C; the "
+                "values there describe a rock that would have dehydrated (the inversion refuses "
+                "such a temperature prior)")
     kw = dict(others, temperature_c=temperature_c, pressure_gpa=pressure_gpa,
               melt_fraction=melt if melt.ndim else float(melt),
               serpentinization=serp if serp.ndim else float(serp))

@@ -108,3 +108,11 @@ def test_lab_misfit_figure_draws_every_entry():
     fig = lab_misfit_figure(misfit)
     dots = sum(len([ln for ln in ax.lines if ln.get_marker() == "o"]) for ax in fig.axes)
     assert dots == len(misfit)
+
+
+def test_serpentinite_above_its_stability_warns():
+    # lizardite stable below ~300 C (Evans 2010, as in the inversion's rule)
+    _, notes = apply_stability("serpentinite", temperature_c=500.0, pressure_gpa=0.2)
+    assert notes and "not stable" in notes[0]
+    _, notes = apply_stability("serpentinite", temperature_c=100.0, pressure_gpa=0.2)
+    assert notes == []
