@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import re
+import sys
 from pathlib import Path
 
 from .shell import FIG_FORMATS, InputError, use_agg
@@ -44,6 +45,17 @@ def cmd_forward(args) -> int:
     if args.list:
         _print_catalogue()
         return 0
+    if args.validate:  # the model against the shipped laboratory table
+        from ..physics.labdata import lab_misfit, validation_report
+
+        misfit = lab_misfit()
+        print(validation_report(misfit))
+        if args.plot:
+            use_agg()
+            from ..report.validation import lab_misfit_figure
+
+            _save_forward_plot(args, lab_misfit_figure(misfit))
+        return 0
     for opt, v in (("--rock", args.rock), ("--temperature", args.temperature),
                    ("--pressure", args.pressure)):
         if v is None:
@@ -66,6 +78,10 @@ def cmd_forward(args) -> int:
     rock = args.rock if args.rock in known_rocks() else {args.rock: 1.0}  # one-mineral rock
     kw = {k: (v if v.size > 1 else float(v[0])) for k, v in vals.items()}
     try:
+        # melt only above the solidus, serpentine only below its stability (as the inversion)
+        kw, notes = bc.physics.rocks.apply_stability(rock, **kw)
+        for note in notes:
+            print(f"warning: {note}", file=sys.stderr)
         props = bc.rock_properties(rock, **kw)
     except ValueError as exc:
         raise InputError(f"forward: {exc}") from None
@@ -84,17 +100,7 @@ def cmd_forward(args) -> int:
 
         fig = forward_figure(pd.DataFrame(rows), x=ranged[0],
                              title=f"{args.rock} (forward model)")
-        out = Path(args.plot)
-        if out.suffix.lower().lstrip(".") not in FIG_FORMATS:
-            raise InputError(f"--plot: got {args.plot!r}, expected a .png or .pdf file name")
-        if out.exists() and not args.overwrite:
-            raise InputError(f"{out}: --plot: file exists; pass --overwrite to replace it")
-        try:
-            tmp = out.with_name(f".{out.name}.partial{out.suffix}")
-            fig.savefig(tmp, dpi=200, bbox_inches="tight")
-            tmp.replace(out)
-        except OSError as exc:
-            raise InputError(f"{out}: --plot: cannot write ({exc.strerror or exc})") from None
+        _save_forward_plot(args, fig)
     if args.json:
         print(json.dumps({"rock": args.rock, "units": {"temperature_c": "deg C",
                           "pressure_gpa": "GPa", "vp": "km/s", "vs": "km/s",
@@ -106,6 +112,21 @@ def cmd_forward(args) -> int:
         for r in rows:
             print("  ".join(f"{r[c]:14.5g}" for c in cols))
     return 0
+
+
+def _save_forward_plot(args, fig) -> None:
+    """Write ``fig`` to ``args.plot`` atomically (``forward --plot``)."""
+    out = Path(args.plot)
+    if out.suffix.lower().lstrip(".") not in FIG_FORMATS:
+        raise InputError(f"--plot: got {args.plot!r}, expected a .png or .pdf file name")
+    if out.exists() and not args.overwrite:
+        raise InputError(f"{out}: --plot: file exists; pass --overwrite to replace it")
+    try:
+        tmp = out.with_name(f".{out.name}.partial{out.suffix}")
+        fig.savefig(tmp, dpi=200, bbox_inches="tight")
+        tmp.replace(out)
+    except OSError as exc:
+        raise InputError(f"{out}: --plot: cannot write ({exc.strerror or exc})") from None
 
 
 def _print_catalogue() -> None:
@@ -132,6 +153,9 @@ def add_parser(sub) -> None:
     sp.add_argument("--pressure", metavar="GPA", help="pressure (GPa)")
     sp.add_argument("--list", action="store_true",
                     help="list the built-in minerals and rocks with their sources, then exit")
+    sp.add_argument("--validate", action="store_true",
+                    help="print the model's misfit against the published laboratory table, "
+                         "then exit")
     sp.add_argument("--porosity", metavar="FRAC", help="seawater-filled porosity (fraction)")
     sp.add_argument("--aspect-ratio", metavar="A", help="pore aspect ratio")
     sp.add_argument("--melt-fraction", metavar="FRAC", help="melt volume fraction")

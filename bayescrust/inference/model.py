@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from ..physics.labdata import MODEL_ERROR as _LAB_MODEL_ERROR
 from .layer import OBSERVABLES, Layer
 from .priors import Dirichlet, Uniform, as_prior
 from .thermal_priors import UniformTemperature, resolve_temperature_prior
@@ -69,15 +70,14 @@ DERIVED_QUANTITIES = (
     "serpentine_fraction",
 )
 
-#: Forward-model error as a fraction of the observed value, per observable.
-#: Justification: the spread of single-crystal moduli between published data sets and the
-#: Voigt-Reuss half-width of polymineralic rocks give ~1-2 % in moduli, i.e. ~0.5-1 % in
-#: velocity, hence 1 % for Vp, Vs and Vp/Vs (``common practice``); densities from modal
-#: mineralogy are better known, 0.5 %.
-DEFAULT_MODEL_ERROR = {"vp": 0.01, "vs": 0.01, "vp_vs": 0.01, "density": 0.005}
+#: Forward-model error as a fraction of the predicted value, per observable.
+#: Measured, not chosen: the RMS misfit of the forward model against the published laboratory
+#: table (``physics/data/lab_rocks.toml``; :data:`bayescrust.physics.labdata.MODEL_ERROR`,
+#: docs/physics.md). It replaces the former 1 % (Vp, Vs, Vp/Vs) / 0.5 % (density) guess.
+DEFAULT_MODEL_ERROR = dict(_LAB_MODEL_ERROR)
 
 # Rock families used by derived quantities, default hypotheses and the solidus mix.
-_GABBROIC = ("gabbro", "olivine_gabbro", "troctolite")
+_GABBROIC = ("gabbro", "altered_gabbro", "olivine_gabbro", "troctolite")
 _BASALTIC = ("basalt", "diabase")
 _SERPENTINITES = ("serpentinite", "antigorite_serpentinite")
 _SERPENTINITE_KIND = {"serpentinite": "lizardite", "antigorite_serpentinite": "antigorite"}
@@ -92,7 +92,11 @@ def default_priors(layer: Layer, rock_names, ultramafic) -> dict:
     - ``temperature_c``: ``UniformTemperature(0, 1400)``;
     - ``porosity``: ``Uniform(0, 0.3)`` if the layer's mid-depth is < 1.5 km below the seafloor
       (Layer 2, extrusives and dikes), else ``Uniform(0, 0.03)``;
-    - ``aspect_ratio``: fixed 0.1 (cracks and pores between penny cracks and spheres);
+    - ``aspect_ratio``: fixed 0.1 (between penny cracks and spheres). A pore-shape spread,
+      ``priors={"aspect_ratio": LogUniform(0.01, 1)}``, lets shallow layers reach Layer-2
+      Vp/Vs >= 1.9 (needs aspect ratios <= ~0.02) but made a Layer-2B inversion ~7x slower
+      with the current sampler (porosity-aspect trade-off), so it is opt-in; thin cracks at
+      depth are shut by effective pressure either way (Walsh 1965, ``physics/pores.py``);
     - ``melt_fraction``: ``Uniform(0, 0.05)`` (effective only above the solidus);
     - ``melt_aspect_ratio``: fixed 0.05 (melt films/tubules);
     - ``serpentinization``: ``Uniform(0, 1)`` if an ultramafic rock is present (effective only
@@ -162,6 +166,7 @@ class LayerModel:
     ultramafic: np.ndarray
     families: dict
     settings: dict
+    pore_pressure_gpa: float | None = None  # hydrostatic pore pressure (crack closure)
 
     # ------------------------------------------------------------------ construction
     @classmethod
@@ -269,6 +274,10 @@ class LayerModel:
                 free.append(p)
 
         pressure = layer.resolved_pressure_gpa()
+        # pore water in hydrostatic contact with the ocean (common practice, physics-reference
+        # sec. 8): effective pressure = confining - pore pressure closes thin cracks (Walsh 1965)
+        pore_pressure = min(pressure, thermal.hydrostatic_pore_pressure_gpa(
+            layer.water_depth_km + layer.mid_depth_km))
         per_sol = float(thermal.peridotite_solidus_c(pressure))
         gab_sol = float(thermal.gabbro_solidus_c(pressure))
         serp_kind = getattr(fm, "serpentine", "lizardite")
@@ -324,6 +333,7 @@ class LayerModel:
             "forward": fwd_settings,
             "solidus_c": {"peridotite": per_sol, "gabbro": gab_sol},
             "serpentine_stability_c": serp_lim,
+            "pore_pressure_gpa": pore_pressure,
         }
         return cls(
             layer=layer, forward=fm, rock_names=names, alpha=alpha,
@@ -331,7 +341,7 @@ class LayerModel:
             fixed=fixed, pressure_gpa=pressure, rock_solidus_c=rock_solidus,
             serpentine_limit_c=serp_lim, observed=observed, model_error=me,
             likelihood=likelihood, nu=nu, ultramafic=ultramafic, families=families,
-            settings=settings,
+            settings=settings, pore_pressure_gpa=pore_pressure,
         )
 
     # ------------------------------------------------------------------ coordinates
@@ -453,6 +463,8 @@ class LayerModel:
                 melt_fraction=q["melt_fraction_effective"],
                 melt_aspect_ratio=q["melt_aspect_ratio"],
                 serpentinization=q["serpentinization_effective"],
+                **({} if self.pore_pressure_gpa is None
+                   else {"pore_pressure_gpa": self.pore_pressure_gpa}),
             )
 
     def total_sigma(self, name: str, predicted) -> np.ndarray:

@@ -530,7 +530,7 @@ def list_minerals() -> list[dict]:
     Examples
     --------
     >>> [m["name"] for m in list_minerals()][:3]
-    ['albite', 'andesine', 'anorthite']
+    ['actinolite', 'albite', 'andesine']
     """
     return [
         {

@@ -22,13 +22,14 @@ from types import MappingProxyType
 
 import numpy as np
 
-from . import anelastic, fluids, inclusions, minerals, mixing
+from . import anelastic, fluids, inclusions, minerals, mixing, pores, serpentinization
 from ._checks import as_float_array, check_range
 from ._data import CELSIUS_TO_KELVIN, load_table
 
 __all__ = [
     "ROCKS",
     "ForwardModel",
+    "apply_stability",
     "Rock",
     "RockProperties",
     "list_rocks",
@@ -215,6 +216,17 @@ class ForwardModel:
         Pore-water salinity as a mass fraction (seawater 0.035).
     attenuation_law : str
         Name from :data:`bayescrust.physics.anelastic.ATTENUATION_LAWS`.
+    serpentine_mixing : {"hs_upper", "mineral_hill"}
+        How serpentinite joins the fresh rock (:mod:`bayescrust.physics.serpentinization`):
+        a two-phase Hashin-Shtrikman composite following the laboratory trend (default), or
+        serpentine minerals inside the Hill average of the rock (the former scheme).
+    pore_fluid : {"connected", "isolated"}
+        Pore water equalising its pressure between connected pores (relaxed: dry frame +
+        Gassmann 1951; default, the seismic-frequency limit, docs/physics.md) or trapped in
+        isolated inclusions (unrelaxed, the ultrasonic limit); :mod:`~.pores`.
+    crack_closure : bool
+        Thin cracks close with effective pressure (confining minus pore pressure; Walsh 1965).
+        With the default pore pressure (= confining) nothing closes.
     """
 
     rocks: tuple
@@ -226,6 +238,9 @@ class ForwardModel:
     anelastic: bool = True
     salinity: float = 0.035
     attenuation_law: str = "jackson2002"
+    serpentine_mixing: str = "hs_upper"
+    pore_fluid: str = "connected"
+    crack_closure: bool = True
     _modes: np.ndarray = field(init=False, repr=False)
     _serp_modes: np.ndarray = field(init=False, repr=False)
     _ultramafic: np.ndarray = field(init=False, repr=False)
@@ -243,6 +258,8 @@ class ForwardModel:
         _choose("mixing", self.mixing, mixing.MIXING_RULES)
         _choose("inclusion_scheme", self.inclusion_scheme, inclusions.INCLUSION_SCHEMES)
         _choose("attenuation_law", self.attenuation_law, anelastic.ATTENUATION_LAWS)
+        _choose("serpentine_mixing", self.serpentine_mixing, serpentinization.SERPENTINE_MIXING)
+        _choose("pore_fluid", self.pore_fluid, dict.fromkeys(pores.POROUS_FLUID_MODES))
         if self.serpentine not in _SERPENTINITE_OF:
             raise ValueError(
                 f"serpentine must be one of {sorted(_SERPENTINITE_OF)}; got {self.serpentine!r}"
@@ -350,7 +367,20 @@ class ForwardModel:
         x = self.mineral_fractions(f, serp)
         rho_m, k_m, g_m = minerals._mineral_state(self._table, t_k, p)
         rho_s = np.einsum("ij,ij->i", x, rho_m)
-        k_s, g_s = mixing._MIXING_KERNELS[self.mixing](x, k_m, g_m)
+        mix = mixing._MIXING_KERNELS[self.mixing]
+        s_rock = serp * (f @ self._ultramafic)  # serpentinite volume fraction of the rock
+        if self.serpentine_mixing == "mineral_hill" or not np.any(s_rock > 0):
+            k_s, g_s = mix(x, k_m, g_m)
+        else:
+            # fresh part and serpentinite mixed separately, then joined as two phases
+            fresh = 1.0 - s_rock
+            x_f = x - s_rock[:, None] * self._serp_modes
+            # a fully serpentinised rock has no fresh part: any valid mix stands in (weight 0)
+            x_f = np.where((fresh > 1e-9)[:, None], x_f / np.maximum(fresh, 1e-9)[:, None], x)
+            k_f, g_f = mix(x_f, k_m, g_m)
+            k_sp, g_sp = mix(np.broadcast_to(self._serp_modes, x.shape), k_m, g_m)
+            k_s, g_s = serpentinization.SERPENTINE_MIXING[self.serpentine_mixing](
+                k_f, g_f, k_sp, g_sp, s_rock)
         rho = rho_s
         has = (phi > 0) | (melt > 0)
         if has.any():
@@ -364,14 +394,32 @@ class ForwardModel:
                 rho_l, k_l = fluids._basaltic_melt(t_c[i], p[i])
             else:
                 rho_l = k_l = np.ones_like(t_c[i])
-            k_i = np.stack([k_w, k_l], axis=-1)
-            frac = np.stack([phi[i], melt[i]], axis=-1)
-            aspect = np.stack([ar[i], mar[i]], axis=-1)
             k_s, g_s, rho = k_s.copy(), g_s.copy(), rho_s.copy()
-            k_s[i], g_s[i] = inclusions._INCLUSION_KERNELS[self.inclusion_scheme](
-                k_s[i], g_s[i], k_i, np.zeros_like(k_i), aspect, frac
-            )
-            rho[i] = (1.0 - phi[i] - melt[i]) * rho_s[i] + phi[i] * rho_w + melt[i] * rho_l
+            phi_i, ar_i = phi[i], ar[i]
+            if self.crack_closure:
+                phi_i, ar_i = pores.close_cracks(phi_i, ar_i, p[i] - p_pore[i], k_s[i], g_s[i])
+            scheme = inclusions._INCLUSION_KERNELS[self.inclusion_scheme]
+            if self.pore_fluid == "isolated":
+                k_i = np.stack([k_w, k_l], axis=-1)
+                frac = np.stack([phi_i, melt[i]], axis=-1)
+                aspect = np.stack([ar_i, mar[i]], axis=-1)
+                k_s[i], g_s[i] = scheme(k_s[i], g_s[i], k_i, np.zeros_like(k_i), aspect, frac)
+            else:  # connected: melt-bearing solid, dry pores in it, Gassmann saturation
+                k_h, g_h = k_s[i].copy(), g_s[i].copy()
+                m = melt[i]
+                j = np.flatnonzero(m > 0)  # each scheme runs only on the rows it changes
+                if j.size:
+                    fm = (m[j] / np.maximum(1.0 - phi_i[j], 1e-12))[:, None]
+                    k_h[j], g_h[j] = scheme(k_h[j], g_h[j], k_l[j, None], np.zeros_like(fm),
+                                            mar[i][j, None], fm)
+                k_c, g_c = k_h.copy(), g_h.copy()
+                j = np.flatnonzero(phi_i > 0)
+                if j.size:
+                    zero = np.zeros((j.size, 1))
+                    k_d, g_d = scheme(k_h[j], g_h[j], zero, zero, ar_i[j, None], phi_i[j, None])
+                    k_c[j], g_c[j] = pores.gassmann(k_d, g_d, k_h[j], k_w[j], phi_i[j])
+                k_s[i], g_s[i] = k_c, g_c
+            rho[i] = (1.0 - phi_i - melt[i]) * rho_s[i] + phi_i * rho_w + melt[i] * rho_l
         vp = np.sqrt((k_s + 4.0 / 3.0 * g_s) / rho)
         vs = np.sqrt(g_s / rho)
         if self.anelastic:
@@ -434,6 +482,8 @@ def rock_properties(
     inclusion_scheme: str = "dem",
     anelastic: bool = True,
     pore_pressure_gpa=None,
+    pore_fluid: str = "connected",
+    crack_closure: bool = True,
 ) -> RockProperties:
     """Vp, Vs and density of a rock at pressure and temperature, with pores, melt and serpentine.
 
@@ -469,7 +519,11 @@ def rock_properties(
     anelastic : bool, optional
         Apply the anelastic dispersion correction.
     pore_pressure_gpa : array_like, optional
-        Pore-water pressure, GPa (default: the confining pressure).
+        Pore-water pressure, GPa (default: the confining pressure, i.e. no crack closure).
+    pore_fluid : {"isolated", "connected"}, optional
+        Unrelaxed fluid in isolated pores, or relaxed (dry frame + Gassmann) connected pores.
+    crack_closure : bool, optional
+        Close thin cracks with effective pressure (Walsh 1965).
 
     Returns
     -------
@@ -511,8 +565,96 @@ def rock_properties(
         frequency_hz=float(as_float_array("frequency_hz", frequency_hz)),
         grain_size_mm=float(as_float_array("grain_size_mm", grain_size_mm)),
         anelastic=bool(anelastic),
+        pore_fluid=pore_fluid,
+        crack_closure=bool(crack_closure),
     )
     if fr is None:
         fr = np.ones(np.broadcast(t, p, phi, ar, melt, mar, serp, pp).shape + (1,))
     vp, vs, rho = fm(fr, t, p, phi, ar, melt, mar, serp, pp)
     return RockProperties(vp=vp, vs=vs, density=rho)
+
+
+_SERPENTINITE_ROCKS = {"serpentinite": "lizardite", "antigorite_serpentinite": "antigorite"}
+
+
+def apply_stability(rock, *, temperature_c, pressure_gpa, melt_fraction=0.0,
+                    serpentinization=0.0, serpentine: str = "lizardite", **others):
+    """Switch off melt below the solidus and serpentine above its stability, and say so.
+
+    The same rule as the layer inversion (melt is effective only above the solidus, serpentine
+    only below its stability limit), for a direct forward-model call. A rock counts as mantle-like
+    (peridotite solidus) if it is ultramafic or a serpentinite; otherwise the gabbro solidus
+    applies.
+
+    Parameters
+    ----------
+    rock : str, Rock or mapping
+        As for :func:`rock_properties` (a mapping counts as mantle-like if any of its rocks is).
+    temperature_c, pressure_gpa, melt_fraction, serpentinization : array_like
+        As for :func:`rock_properties`; broadcast together.
+    serpentine : {"lizardite", "antigorite"}
+        Kind of serpentine whose stability limit applies.
+    **others
+        Passed through unchanged.
+
+    Returns
+    -------
+    kwargs : dict
+        The keyword arguments for :func:`rock_properties`, with ``melt_fraction`` and
+        ``serpentinization`` set to 0 where they are not physical.
+    messages : list of str
+        One message per rule that changed something (empty if nothing changed).
+
+    Notes
+    -----
+    Solidi and stability limits are those of :mod:`bayescrust.physics.thermal` (Hirschmann
+    2000 peridotite solidus; serpentine limits of Evans 2010 / Ulmer & Trommsdorff 1995).
+    """
+    from . import thermal
+
+    t = np.asarray(temperature_c, float)
+    p = np.asarray(pressure_gpa, float)
+    if isinstance(rock, Mapping) and any(k in minerals.MINERALS for k in rock):
+        mantle = _custom_rock(rock).ultramafic  # a mineral mix
+    else:
+        names = list(rock) if isinstance(rock, Mapping) else [rock]
+        resolved = [_resolve_rock(r) for r in names]
+        mantle = any(r.ultramafic or r.name in _SERPENTINITE_ROCKS for r in resolved)
+    solidus = thermal.peridotite_solidus_c(p) if mantle else thermal.gabbro_solidus_c(p)
+    messages = []
+    melt = np.asarray(melt_fraction, float)
+    below = (t <= solidus) & (melt > 0)
+    if np.any(below):
+        kind = "peridotite" if mantle else "gabbro"
+        messages.append(
+            f"melt_fraction set to 0 where the temperature is at or below the {kind} solidus "
+            f"({float(np.min(solidus)):.0f} deg C at {float(np.min(p)):g} GPa); melt is "
+            "effective only above the solidus, as in the inversion")
+        melt = np.where(below, 0.0, melt)
+    serp = np.asarray(serpentinization, float)
+    limit = thermal.serpentine_stability_c(p, kind=serpentine)
+    above = (t >= limit) & (serp > 0)
+    if np.any(above):
+        messages.append(
+            f"serpentinization set to 0 where the temperature is at or above the {serpentine} "
+            f"stability limit ({float(np.min(limit)):.0f} deg C); serpentine is effective only "
+            "below it, as in the inversion")
+        serp = np.where(above, 0.0, serp)
+    serp_rocks = [] if isinstance(rock, Mapping) and any(k in minerals.MINERALS for k in rock) \
+        else [r for r in (list(rock) if isinstance(rock, Mapping) else [rock])
+              if _resolve_rock(r).name in _SERPENTINITE_ROCKS]
+    for r in serp_rocks:  # a serpentinite end member cannot be switched off: warn only
+        name = _resolve_rock(r).name
+        kind = _SERPENTINITE_ROCKS[name]
+        lim = thermal.serpentine_stability_c(p, kind=kind)
+        if np.any(t >= lim):
+            messages.append(
+                f"{name} ({kind}) is not stable at or above {float(np.min(lim)):.0f} deg C; the "
+                "values there describe a rock that would have dehydrated (the inversion refuses "
+                "such a temperature prior)")
+    kw = dict(others, temperature_c=temperature_c, pressure_gpa=pressure_gpa,
+              melt_fraction=melt if melt.ndim else float(melt),
+              serpentinization=serp if serp.ndim else float(serp))
+    if serpentine != "lizardite":
+        kw["serpentine"] = serpentine
+    return kw, messages

@@ -403,3 +403,28 @@ def lithostatic_pressure_gpa(
     column = rw * hw + rc * np.minimum(z, hc) + rm * np.maximum(z - hc, 0.0)
     # g/cm^3 * km * m/s^2 -> 1e3 kg/m^3 * 1e3 m * m/s^2 = 1e6 Pa = 1e-3 GPa
     return 1.0e-3 * float(_LITHO["gravity_m_s2"]) * column
+
+
+def hydrostatic_pore_pressure_gpa(depth_below_sea_surface_km):
+    """Hydrostatic pore-water pressure at a depth below the sea surface, GPa.
+
+    Parameters
+    ----------
+    depth_below_sea_surface_km : array_like
+        Water depth plus depth below the seafloor, km, >= 0.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``P_pore = rho_w g z`` with rho_w and g of ``[lithostatic]`` in ``data/thermal.toml``
+        (pore water connected to the ocean; common practice, the effective pressure
+        ``P_conf - P_pore`` then controls crack closure).
+
+    Examples
+    --------
+    >>> round(float(hydrostatic_pore_pressure_gpa(5.0)), 4)
+    0.0505
+    """
+    z = check_range("depth_below_sea_surface_km", depth_below_sea_surface_km, 0.0, 1000.0,
+                    unit="km")
+    return 1.0e-3 * float(_LITHO["gravity_m_s2"]) * float(_LITHO["water_density"]) * z

@@ -30,121 +30,122 @@ def _vel(name, t_c=25.0, p=0.0):
 
 
 # --------------------------------------------------------------------------------------------
-# (a) Ambient velocities against the published source of each entry.
-# Expected Vp, Vs (km/s) are those of the source (quoted directly where the paper gives
-# velocities; otherwise sqrt((K + 4G/3)/rho), sqrt(G/rho) [computed] from the published rho, K, G
-# stated in each row).
-# Tolerance 0.005 km/s unless stated: the published values are given to 3-4 significant figures,
-# so rounding alone spans a few m/s.
+# (a) Ambient values against published numbers outside the project.
+# Each row: the published density and moduli of the cited source (or velocities where the paper
+# quotes them), checked against the table. Rows whose numbers were built by the project itself
+# (averages, interpolations, back-calculations) are not here: they are checked against
+# independent published facts further below. Tolerance: rounding of the published figures.
 AMBIENT = [
-    # name, Vp, Vs, tol, source
-    (
-        "olivine",
-        8.341,
-        4.822,
-        0.002,
-        "Abramson et al. 1997 JGR 102:12253 abstract (rho 3.355, "
-        "K 129.4, G 78.0) -> 8.341/4.822 [computed], 0.002 allows rounding",
-    ),
-    (
-        "orthopyroxene",
-        7.96,
-        4.77,
-        0.01,
-        "Bass 1995 table / Chai et al. 1997, En90 mid-range "
-        "(rho 3.30, K 109, G 75) [from memory]; 0.01 because the source is a range",
-    ),
-    (
-        "clinopyroxene",
-        7.917,
-        4.590,
-        0.005,
-        "0.8 diopside (Sang et al. 2011, verified) + 0.2 hedenbergite (Kandelin & Weidner "
-        "1988 Cij, verified; Hill average computed): rho 3.347, K 115.8, G 70.5 [computed]",
-    ),
-    (
-        "diopside",
-        8.04,
-        4.72,
-        0.006,
-        "Sang et al. 2011 Am. Min. 96:224 abstract (K 114.6, G 72.7), "
-        "rho 3.27 -> 8.04/4.72 [computed]",
-    ),
-    (
-        "albite",
-        6.17,
-        3.58,
-        0.006,
-        "Brown, Angel & Ross 2016 JGR 121, Tables 1/3 (rho 2.623, K 55, G 33.7) -> 6.17/3.58 "
-        "[computed]",
-    ),
-    ("andesine", 6.63, 3.74, 0.006, "Brown et al. 2016 JGR 121 An48 (rho 2.683, K 68, G 37.5)"),
-    (
-        "labradorite",
-        6.76,
-        3.77,
-        0.006,
-        "Brown et al. 2016 JGR 121 An60 (rho 2.702, K 72, G 38.5) -> 6.76/3.77 [computed]",
-    ),
-    ("bytownite", 6.94, 3.83, 0.006, "Brown et al. 2016 JGR 121 An78 (rho 2.725, K 78, G 40)"),
-    (
-        "anorthite",
-        7.06,
-        3.81,
-        0.006,
-        "Brown et al. 2016 JGR 121 An96 (rho 2.757, K 84, G 40) -> 7.06/3.81 [computed]",
-    ),
-    (
-        "spinel",
-        9.78,
-        5.49,
-        0.006,
-        "Bass 1995 AGU Ref. Shelf 2 table (rho 3.578, K 198, G 108) -> 9.78/5.49 [computed]",
-    ),
-    (
-        "hornblende",
-        7.65,
-        4.51,
-        0.006,
-        "Brown & Abramson 2016 pargasite K 99, G 64 with rho 3.15 -> 7.65/4.51 [computed]",
-    ),
-    (
-        "lizardite",
-        5.1,
-        2.3,
-        0.02,
-        "Christensen 1966 JGR 71:5921 / 2004 IGR 46:795 lizardite "
-        "serpentinite at 200 MPa, Vp ~5.1, Vs ~2.3 (2 significant figures -> 0.02)",
-    ),
-    (
-        "antigorite",
-        6.76,
-        3.83,
-        0.02,
-        "Bezacier et al. 2010 EPSL 289:198, VRH Vp 6.76, Vs 3.83; "
-        "0.02 because rho 2.62, K 67.9, G 38.5 give 6.746 (the quoted rho is rounded)",
-    ),
-    (
-        "magnetite",
-        7.63,
-        4.18,
-        0.006,
-        "Bass 1995 table (rho 5.20, K 181, G 91) -> 7.63/4.18 [computed]",
-    ),
+    # name, rho, Ks, G, tol (relative), source
+    ("olivine", 3.355, 129.4, 78.0, 1e-3,
+     "Abramson et al. 1997 JGR 102:12253 abstract [verified]"),
+    ("diopside", 3.27, 114.6, 72.7, 1e-3,
+     "Sang et al. 2011 Am. Min. 96:224 abstract, K 114.6(7), G 72.7(4) [verified]"),
+    ("hornblende", 3.15, 99.0, 64.0, 1e-3,
+     "Brown & Abramson 2016 PEPI, pargasite end of the Ca-amphibole series K 99, G 64 "
+     "[verified: preprint abstract]; rho [from memory]"),
+    ("antigorite", 2.62, 67.9, 38.5, 1e-3,
+     "Bezacier et al. 2010 EPSL 289:198 VRH [from memory]"),
+    ("spinel", 3.578, 198.0, 108.0, 0.01,
+     "Bass 1995 AGU Ref. Shelf 2 table: Ks 197-200, G 108-109 [from memory]"),
 ]
+#: Required minerals without an AMBIENT row, and why (each has its own test below).
+NOT_IN_AMBIENT = {
+    "orthopyroxene": "mid-range of a published range: test_opx_within_published_range",
+    "clinopyroxene": "Di-Hd average computed by the project: test_mantle_cpx_between_end_members",
+    "albite": "test_plagioclase_against_angel_and_christensen",
+    "andesine": "test_plagioclase_against_angel_and_christensen",
+    "labradorite": "test_plagioclase_against_angel_and_christensen",
+    "bytownite": "test_plagioclase_against_angel_and_christensen",
+    "anorthite": "test_plagioclase_against_angel_and_christensen",
+    "lizardite": "back-calculated from rock velocities: any check against them is circular",
+    "magnetite": "test_magnetite_is_adiabatic",
+}
 
 
 @pytest.mark.parametrize(
-    ("name", "vp", "vs", "tol", "source"), AMBIENT, ids=[a[0] for a in AMBIENT]
+    ("name", "rho", "ks", "g", "tol", "source"), AMBIENT, ids=[a[0] for a in AMBIENT]
 )
-def test_ambient_velocities_match_source(name, vp, vs, tol, source):
-    got_vp, got_vs = _vel(name)
-    assert got_vp == pytest.approx(vp, abs=tol), source
-    assert got_vs == pytest.approx(vs, abs=tol), source
+def test_ambient_values_match_published(name, rho, ks, g, tol, source):
+    m = MINERALS[name]
+    assert m.rho == pytest.approx(rho, rel=tol), source
+    assert m.ks == pytest.approx(ks, rel=tol), source
+    assert m.g == pytest.approx(g, rel=tol), source
 
 
-def test_every_required_mineral_has_an_ambient_check():
-    assert {a[0] for a in AMBIENT} == set(M.REQUIRED_MINERALS)
+def test_every_required_mineral_is_checked():
+    assert {a[0] for a in AMBIENT} | set(NOT_IN_AMBIENT) == set(M.REQUIRED_MINERALS)
+
+
+def _poisson(name):
+    vp, vs = _vel(name)
+    r2 = (vp / vs) ** 2
+    return (r2 - 2.0) / (2.0 * (r2 - 1.0))
+
+
+PLAGIOCLASE_AN = {"andesine": 48, "labradorite": 60, "bytownite": 78, "anorthite": 96}
+
+
+def test_plagioclase_against_angel_and_christensen():
+    # Angel's X-ray compression: K_T = 54.1 + 0.39 An (An < 50), 59.5 + 0.23 An (An > 50)
+    # [verified: abstract]. These are static (Reuss-like) values; a Hill-average adiabatic Ks
+    # must lie above them (Hill >= Reuss and Ks >= KT), and within 12 % (the Voigt-Reuss
+    # spread of strongly anisotropic feldspar, Brown et al. 2016 abstract: highly anisotropic)
+    for name, an in PLAGIOCLASE_AN.items():
+        kt = 54.1 + 0.39 * an if an < 50 else 59.5 + 0.23 * an
+        ks = MINERALS[name].ks
+        assert kt < ks < 1.12 * kt, (name, kt, ks)
+    # Christensen 1996 JGR 101:3139 [verified: abstract]: Poisson's ratio of plagioclase rises
+    # from albite to a predicted 0.31 for anorthite (+-0.01 for the rounding of "0.31").
+    nus = [_poisson(n) for n in ("albite", "andesine", "labradorite", "anorthite")]
+    assert all(b > a for a, b in zip(nus, nus[1:], strict=False))
+    assert _poisson("anorthite") == pytest.approx(0.31, abs=0.01)
+
+
+def test_opx_within_published_range():
+    # En80-En90: rho 3.29-3.31, Ks 108-110, G 74-76 (Bass 1995 table; Chai et al. 1997)
+    # [from memory]; En100 Ks 107.6, G 76.8 (Jackson et al. 1999, verified) nearby.
+    m = MINERALS["orthopyroxene"]
+    assert 3.29 <= m.rho <= 3.31 and 108 <= m.ks <= 110 and 74 <= m.g <= 76
+
+
+def test_mantle_cpx_between_end_members():
+    # Between diopside (Sang et al. 2011, verified) and hedenbergite (Kandelin & Weidner 1988:
+    # Hill G ~62, rho ~3.66, from memory): Fe lowers G and raises density.
+    m, di = MINERALS["clinopyroxene"], MINERALS["diopside"]
+    assert di.rho < m.rho < 3.66 and 62.0 < m.g < di.g
+
+
+def test_augite_within_published_range_and_below_diopside():
+    # Fe-Al augite: Ks 95-110, G 58-67, rho 3.30-3.40 [from memory, physics reference sheet];
+    # end-member diopside's G (72.7, Sang et al. 2011, verified) is an upper bound.
+    m = MINERALS["augite"]
+    assert 95 <= m.ks <= 110 and 58 <= m.g <= 67 and 3.30 <= m.rho <= 3.40
+    assert m.g < MINERALS["diopside"].g
+
+
+def test_fe_olivine_has_higher_poisson_ratio():
+    # Christensen 1996 [verified: abstract]: Fe for Mg in olivine raises Poisson's ratio;
+    # Fe raises density (fayalite ~4.39, from memory).
+    assert _poisson("olivine_fo75") > _poisson("olivine") + 0.005
+    assert MINERALS["olivine"].rho < MINERALS["olivine_fo75"].rho < 4.39
+
+
+def test_actinolite_on_the_brown_abramson_trends():
+    # Brown & Abramson 2016 [verified: preprint abstract]: Ca-amphibole Ks does not vary with Fe,
+    # 85 GPa for tremolite; G from 47 (ferro-actinolite) to 64 (pargasite).
+    m = MINERALS["actinolite"]
+    assert m.ks == pytest.approx(85.0, abs=0.5)
+    assert 47.0 < m.g < 64.0
+
+
+def test_magnetite_is_adiabatic():
+    # Ultrasonic stiffnesses C11 273, C12 106, C44 97.1 GPa (Bass 1995 table, from memory) give
+    # Ks = (C11 + 2 C12)/3 = 161.7; the isothermal X-ray value 181-183 (Nakagiri et al.,
+    # verified) must not be used for seismic speeds.
+    m = MINERALS["magnetite"]
+    assert m.ks == pytest.approx((273.0 + 2 * 106.0) / 3.0, rel=2e-3)
+    assert m.ks < 175.0
 
 
 def test_fo90_ambient_velocities():

@@ -19,17 +19,49 @@ def _vp_vs(rock, **kw):
     return float(r.vp), float(r.vs), float(r.density)
 
 
-def test_cold_gabbro_at_600_mpa():
+def test_cold_gabbro_at_600_mpa_vp_and_density():
     # Christensen & Mooney 1995, JGR 100:9761, gabbro-norite-troctolite average at 600 MPa:
-    # Vp ~7.0-7.2 km/s, density 2.93-3.00 (from memory); tolerance widened by 0.1 km/s
-    # for the spread of the group. Vp/Vs: Christensen 1996, JGR 101:3139 abstract, gabbro
-    # Poisson's ratio 0.29 -> Vp/Vs 1.84 (verified). The model sits low (1.77: its pyroxene
-    # data give Vp/Vs 1.73, its labradorite 1.79), so the band is 1.84 -0.08/+0.05; a model
-    # gabbro below 1.76 would no longer be told from cold peridotite (1.72) by Vs.
+    # Vp ~7.0-7.2 km/s, density 2.93-3.00 (from memory). Density: +0.005 for the rounding of
+    # the quoted range.
     vp, vs, rho = _vp_vs("gabbro", temperature_c=COLD, pressure_gpa=0.6)
-    assert 6.9 <= vp <= 7.3
-    assert 2.85 <= rho <= 3.05
-    assert 1.76 <= vp / vs <= 1.89
+    assert 7.0 <= vp <= 7.2
+    assert 2.93 <= rho <= 3.005
+
+
+@pytest.mark.xfail(strict=True, reason="model gabbro Vp/Vs 1.789 at 600 MPa: 0.011 below the "
+                   "published band 1.80-1.87, 0.05 below its centre 1.84")
+def test_cold_gabbro_vp_vs_at_600_mpa():
+    # Christensen 1996, JGR 101:3139 abstract (verified): gabbro Poisson's ratio 0.29 ->
+    # Vp/Vs 1.84; band 1.80-1.87 for the spread of gabbro-norite-troctolite (from memory).
+    vp, vs, _ = _vp_vs("gabbro", temperature_c=COLD, pressure_gpa=0.6)
+    assert 1.80 <= vp / vs <= 1.87
+
+
+@pytest.mark.xfail(strict=True, reason="model gabbro Vp 7.14 km/s at 200 MPa: 0.04 above the "
+                   "published 6.9-7.1 band")
+def test_cold_gabbro_vp_at_200_mpa():
+    # Christensen & Mooney 1995 / Christensen 1996 gabbro at 200 MPa: Vp 6.9-7.1 (from memory)
+    vp, _, _ = _vp_vs("gabbro", temperature_c=COLD, pressure_gpa=0.2)
+    assert 6.9 <= vp <= 7.1
+
+
+@pytest.mark.xfail(strict=True, reason="model diabase Vp 7.08 km/s, density 3.04 at 200 MPa: "
+                   "0.18 km/s and 0.04 g/cm3 above the published ranges (6.6-6.9, 2.9-3.0)")
+def test_diabase_at_200_mpa():
+    # Diabase near 200 MPa: Vp 6.6-6.9 km/s, density 2.90-3.00 (Christensen & Mooney 1995;
+    # Christensen 1996; from memory)
+    vp, _, rho = _vp_vs("diabase", temperature_c=COLD, pressure_gpa=0.2)
+    assert 6.6 <= vp <= 6.9
+    assert 2.90 <= rho <= 3.00
+
+
+def test_diabase_and_basalt_not_faster_than_gabbro():
+    # Sheeted-dike diabase and crystalline basalt are not faster than Layer 3 gabbro in the
+    # laboratory (Christensen & Mooney 1995 averages: diabase ~0.3 km/s slower; from memory)
+    g, _, _ = _vp_vs("gabbro", temperature_c=COLD, pressure_gpa=0.2)
+    for rock in ("diabase", "basalt"):
+        vp, _, _ = _vp_vs(rock, temperature_c=COLD, pressure_gpa=0.2)
+        assert vp <= g, rock
 
 
 def test_cold_peridotite_near_8_km_s():
@@ -46,12 +78,20 @@ def test_cold_peridotite_near_8_km_s():
 
 
 def test_lower_crust_gabbro_in_layer_3_range():
-    # Layer 3: 6.7-7.2 km/s (Carlson & Miller 2004 JGR 109, 6.7-7.0, verified; White,
-    # McKenzie & O'Nions 1992 JGR 97:19683, from memory; the 6.7-7.2 range: common practice).
-    # 4-6 km below the seafloor under 3 km of water: ~0.15-0.2 GPa; 200-700 C off axis.
+    # Layer 3: 6.7-7.2 km/s (design fact of the trade, common practice; White, McKenzie &
+    # O'Nions 1992 JGR 97:19683, from memory). 4-6 km below the seafloor under 3 km of water:
+    # ~0.15-0.2 GPa; 200-700 C off axis.
     for t in (200.0, 450.0, 700.0):
         vp, _, _ = _vp_vs("gabbro", temperature_c=t, pressure_gpa=0.18)
-        assert 6.7 <= vp <= 7.25, (t, vp)
+        assert 6.7 <= vp <= 7.2, (t, vp)
+
+
+@pytest.mark.xfail(strict=True, reason="model gabbro at 200 C, 0.18 GPa: Vp 7.06 km/s, 0.06 "
+                   "above the Carlson & Miller 2004 Layer 3 range 6.7-7.0")
+def test_lower_crust_gabbro_in_carlson_miller_range():
+    # Carlson & Miller 2004 JGR 109 (verified): Layer 3 velocities 6.7-7.0 km/s
+    vp, _, _ = _vp_vs("gabbro", temperature_c=200.0, pressure_gpa=0.18)
+    assert 6.7 <= vp <= 7.0
 
 
 def test_peridotite_near_solidus_with_melt_near_7_1_to_7_4():
@@ -75,38 +115,52 @@ def test_peridotite_near_solidus_with_melt_near_7_1_to_7_4():
     assert 1.4 <= float(ratio) <= 3.0
 
 
-def test_lizardite_serpentinite():
+@pytest.mark.xfail(strict=True, reason="no serpentinisation gives all three: where density <= 2.70 "
+                   "(s >= 0.82) model Vs <= 2.785 km/s, at least 0.015 below 2.8")
+def test_highly_serpentinised_peridotite():
     # Highly serpentinised harzburgite/dunite at 200 MPa: Vp 5.5-6.1, Vs 2.8-3.3, density
-    # 2.55-2.70 (Courtier, Hart & Christensen 2004, Proc. ODP SR 195 ch. 11, verified); fully
-    # serpentinised lizardite rock Vp ~5.1, Vs ~2.3 (Christensen 2004 Int. Geol. Rev. 46:795,
-    # from memory). Accept the union: Vp 4.9-6.1, density 2.50-2.70, Vp/Vs >= 1.9.
-    vp, vs, rho = _vp_vs("serpentinite", temperature_c=COLD, pressure_gpa=0.2)
-    assert 4.9 <= vp <= 6.1
-    assert 2.50 <= rho <= 2.70
-    assert vp / vs >= 1.9
+    # 2.55-2.70 (Courtier, Hart & Christensen 2004, Proc. ODP SR 195 ch. 11, verified). Some
+    # serpentinisation between 70 and 100 % (such samples; from memory) must give all three.
+    s = np.linspace(0.7, 1.0, 61)
+    r = rock_properties("harzburgite", temperature_c=COLD, pressure_gpa=0.2, serpentinization=s)
+    ok = ((5.5 <= r.vp) & (r.vp <= 6.1) & (2.8 <= r.vs) & (r.vs <= 3.3)
+          & (2.55 <= r.density) & (r.density <= 2.70))
+    assert np.any(ok)
 
 
-def test_partial_serpentinization_slope():
-    # Carlson & Miller 2003, GRL 30(5):1250 (verified): a 1 % drop in Vp per 2.4 % serpentine,
-    # i.e. dlnVp/ds = -0.42, linear to ~50 %. Hill averaging of lizardite and olivine drops
-    # faster at low serpentinisation (-0.66 at 10 %, -0.48 at 50 %), so the check is on the
-    # chord to 50 % (tolerance 0.08, the scatter of their compilation) and on the full range
-    # (between -0.75 and -0.35: no Vp-serpentine relation in that compilation is steeper).
+@pytest.mark.parametrize("s", [0.1, 0.2, 0.3, 0.5])
+def test_partial_serpentinization_follows_carlson_miller(s):
+    # Carlson & Miller 2003, GRL 30(5):1250 (verified abstract): a 1 % drop in Vp per 2.4 %
+    # serpentine, Vp/Vp0 = 1 - s/2.4, to ~50 %; +-0.01 in the ratio for the scatter of their
+    # compilation (from memory).
     kw = dict(temperature_c=COLD, pressure_gpa=0.2)
     vp0, _, _ = _vp_vs("harzburgite", **kw)
-    vp50, _, _ = _vp_vs("harzburgite", serpentinization=0.5, **kw)
-    assert -0.50 <= np.log(vp50 / vp0) / 0.5 <= -0.34
-    for s in (0.1, 0.3, 0.7, 1.0):
-        vp, _, _ = _vp_vs("harzburgite", serpentinization=s, **kw)
-        assert -0.75 <= np.log(vp / vp0) / s <= -0.35, s
+    vp, vs, _ = _vp_vs("harzburgite", serpentinization=s, **kw)
+    assert vp / vp0 == pytest.approx(1.0 - s / 2.4, abs=0.01)
+    # Poisson's ratio of lizardite-serpentinised peridotite rises from ~0.25 to ~0.37 with
+    # serpentine (Christensen 2004 Int. Geol. Rev. 46:795, from memory), +-0.02
+    r2 = (vp / vs) ** 2
+    assert (r2 - 2) / (2 * (r2 - 1)) == pytest.approx(0.25 + 0.12 * s, abs=0.02)
+
+
+def test_former_serpentine_mixing_misses_carlson_miller():
+    # The former scheme (serpentine minerals inside the Hill average) drops Vp faster than the
+    # laboratory line: more than 0.015 below 1 - s/2.4 at s = 0.2 (Carlson & Miller 2003,
+    # verified). Guards against a silent return to it.
+    kw = dict(temperature_c=COLD, pressure_gpa=0.2)
+    from bayescrust import ForwardModel
+
+    fm = ForwardModel(rocks=("harzburgite",), serpentine_mixing="mineral_hill")
+    vp, _, _ = fm(np.ones((2, 1)), COLD, 0.2, serpentinization=np.array([0.0, 0.2]))
+    assert vp[1] / vp[0] < 1.0 - 0.2 / 2.4 - 0.015
+    vp_new, _, _ = _vp_vs("harzburgite", serpentinization=0.2, **kw)
+    assert vp_new > vp[1]
 
 
 def test_vp_vs_distinguishes_rock_types():
     # Christensen 1996 (verified abstract): Poisson's ratio falls from gabbro (0.29) to dunite
     # (0.25); serpentinite has high Poisson's ratio. Antigorite rocks are faster with lower
     # Poisson's ratio than lizardite rocks (Watanabe, Kasami & Ohshima 2007, EPS 59:233, verified).
-    # (The model's pyroxene has the lowest Vp/Vs of the minerals, so gabbro and troctolite are
-    # not ordered as in the compilation; only plagioclase-rich above olivine-rich is checked.)
     kw = dict(temperature_c=COLD, pressure_gpa=0.3)
     ratio = {}
     vp = {}
