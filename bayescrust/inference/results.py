@@ -9,6 +9,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .hypotheses import evidence_category, indicators
+from .trust import ensemble_rhat
 
 __all__ = ["LayerResult", "HDI_PROB", "hypothesis_table", "build_idata", "summarize"]
 
@@ -203,7 +204,7 @@ def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool 
         if mcmc and not const:
             with warnings.catch_warnings():
                 warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
-                r_hat = float(az.rhat(arr))
+                r_hat = ensemble_rhat(arr)  # walker groups as chains (trust.py)
                 ess = float(az.ess(arr, method="bulk"))
         else:
             r_hat = math.nan

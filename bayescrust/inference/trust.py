@@ -9,10 +9,11 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import special, stats
+from scipy import special
 
 __all__ = ["MisfitWarning", "PPC_ALPHA", "RHAT_MAX", "EXACT_MIN_ESS", "predictive_check",
-           "misfit_message", "convergence_verdict", "rule_of_three", "class_mixing"]
+           "misfit_message", "convergence_verdict", "rule_of_three", "class_mixing",
+           "ensemble_rhat", "RHAT_GROUPS"]
 
 #: Two-sided posterior-predictive p-value below which an observable is flagged as misfit.
 #: 0.01 corresponds to a residual of ~2.6 predictive standard deviations for a Gaussian
@@ -73,6 +74,8 @@ def predictive_check(model, q: dict, *, alpha: float = PPC_ALPHA) -> dict:
             var_noise = float(np.mean(s * s))
         else:
             nu = float(model.nu)
+            from scipy import stats
+
             cdf = stats.t.cdf(z_i, nu)
             var_noise = float(np.mean(s * s)) * (nu / (nu - 2.0) if nu > 2 else math.inf)
         p_le = float(np.mean(cdf)) if m.size else math.nan
@@ -103,11 +106,12 @@ def misfit_message(check: dict) -> str:
 
 
 def convergence_verdict(summary, *, sampler_converged: bool, method: str,
-                        importance_ess: float | None = None) -> dict:
+                        importance_ess: float | None = None, parameters=None) -> dict:
     """The one convergence rule, applied to every result.
 
     MCMC: the sampler's own stopping rule was met (>= ``tau_factor`` autocorrelation times,
-    stable tau, ESS >= ``min_ess``) **and** every finite R-hat in ``summary`` is below
+    stable tau, ESS >= ``min_ess``) **and** every finite R-hat of ``summary`` (the one the user
+    sees, computed by :func:`ensemble_rhat`; or only the rows named in ``parameters``) is below
     :data:`RHAT_MAX`. Exact reference: importance effective size >= :data:`EXACT_MIN_ESS`.
 
     Returns ``{"converged", "rule", "max_r_hat", "worst"}``.
@@ -117,6 +121,8 @@ def convergence_verdict(summary, *, sampler_converged: bool, method: str,
         return {"converged": bool(ok), "max_r_hat": math.nan, "worst": None,
                 "rule": f"importance effective size >= {EXACT_MIN_ESS:g}"}
     r = summary["r_hat"].astype(float)
+    if parameters is not None:
+        r = r[[k for k in r.index if k in set(parameters)]]
     r = r[np.isfinite(r)]
     worst = str(r.idxmax()) if len(r) else None
     max_r = float(r.max()) if len(r) else math.nan
@@ -151,3 +157,28 @@ def class_mixing(ind: dict, q: dict, quantity: str) -> dict:
 
 class MisfitWarning(UserWarning):
     """The data sit in the tail of the posterior predictive: the model does not fit them."""
+
+
+#: Walker groups that play the part of chains in R-hat for an ensemble sampler.
+RHAT_GROUPS = 4
+
+
+def ensemble_rhat(arr, n_groups: int = RHAT_GROUPS) -> float:
+    """Rank-normalised split R-hat (Vehtari et al. 2021) of an ensemble run, shape (walker, draw).
+
+    Walkers of an affine-invariant or DE ensemble are not independent chains, and each is short
+    (tens of autocorrelation times), so R-hat over walkers is biased upwards by roughly
+    ``tau / n_draws`` even for a converged run. Here walker ``w`` joins group ``w mod n_groups``
+    and each group's draws are interleaved in time order (draw ``t`` of every walker of the group
+    before draw ``t + 1``): split R-hat then compares the first and second halves of the run and
+    the groups against each other, each chain being as long as the whole group. With fewer
+    walkers than ``2 n_groups`` the walkers are used as chains.
+    """
+    import arviz as az
+
+    a = np.asarray(arr, float)
+    nw, nd = a.shape
+    if nw >= 2 * n_groups:
+        k = nw // n_groups
+        a = a[: k * n_groups].reshape(k, n_groups, nd).transpose(1, 2, 0).reshape(n_groups, -1)
+    return float(az.rhat(a))
