@@ -24,7 +24,7 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
     import pandas as pd
 
     from ..report.caution import caution_text
-    from ..report.tables import to_markdown
+    from ..report.layer_report import layer_section
 
     seed = study.seed if args.seed is None else args.seed
     chosen = select_layers(study, layer_names)
@@ -66,14 +66,21 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
     extra = {"command": "invert", "method": method, "seed": seed,
              "layer_seeds": seeds, "wall_time_s": times}
     write_text(dest / "run.toml", run_toml(study, extra))
-    lines = [f"# {study.title}", "", "Results of `bayescrust invert`.", "",
-             caution_text(assumptions(study)), "## Interpretations", ""]
+    lines = [f"# {study.title}", "", "Results of `bayescrust invert`.", ""]
+    misfits = [n for n, r in results.items() if r.misfit]
+    if misfits:
+        lines += [f"> **Warning: data misfit in layer(s) {', '.join(misfits)}.** The model "
+                  "cannot reproduce the observations there (posterior-predictive check); the "
+                  "probabilities of those layers are conditional on a model that does not fit.",
+                  ""]
+    lines += [caution_text(assumptions(study)), "## Interpretations", ""]
     for name, res in results.items():
-        lines += [f"### {name}", "", to_markdown(res.hypotheses[[
-            "prior_probability", "posterior_probability", "posterior_mcse", "bayes_factor",
-            "evidence_category"]]),
-            f"log evidence: {res.log_evidence:.3f} ± {res.log_evidence_error:.3f}; "
-            f"converged: {res.diagnostics.get('converged')}", ""]
+        lines += layer_section(name, res)
+        top = res.hypotheses["posterior_probability"].idxmax()
+        flag = " -- DATA MISFIT, see report.md" if res.misfit else ""
+        flag += "" if res.converged else " -- NOT CONVERGED"
+        say(args, f"layer {name!r}: most probable {top!r} "
+                  f"{res.hypotheses.loc[top, 'posterior_probability']:.2f}{flag}")
     if warn.messages:
         lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
     lines += ["## Files", "", "- `summary.*`, `hypotheses.*`: all layers (CSV, Markdown, LaTeX)",

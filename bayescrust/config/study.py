@@ -8,7 +8,6 @@ To add a section ``[NAME]``: write ``config/NAME.py`` with ``read_NAME(r, key, v
 from __future__ import annotations
 
 import dataclasses
-
 import re
 import tomllib
 from pathlib import Path

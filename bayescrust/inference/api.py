@@ -19,7 +19,7 @@ from .model import DERIVED_QUANTITIES, SCALAR_PARAMETERS, LayerModel
 from .results import LayerResult, build_idata, hypothesis_table, probabilities_mcmc, summarize
 from .sampler import MOVES_DESCRIPTION, run_ensemble
 
-__all__ = ["invert_layer", "exact_layer", "resolve_rng"]
+__all__ = ["invert_layer", "exact_layer", "resolve_rng", "resolved_settings"]
 
 _PREDICTED = ("vp", "vs", "density", "vp_vs")
 
@@ -88,6 +88,27 @@ def _trust(model, hyps, post, summary, hyp_table, diagnostics, *, sampler_conver
                       f"{verdict['rule']}); run longer (raise min_ess)", ConvergenceWarning,
                       stacklevel=3)
 # --- end trust ---------------------------------------------------------------------------
+
+
+def resolved_settings(layer, *, rocks=("gabbro", "harzburgite"), priors=None, hypotheses=None,
+                      model_error=None, likelihood="gaussian", nu=4.0, forward=None,
+                      **_sampler_options) -> dict:
+    """Every setting a run of ``layer`` would use, defaults filled in (no sampling).
+
+    Returns a plain dict: rocks, priors (each described), temperature prior, model error,
+    likelihood, forward-model settings, solidus and serpentine limit, and the interpretations
+    ``{name: {quantity: [lo, hi]}}``; the same as ``LayerResult.settings`` without the
+    sampler's part.
+    """
+    import dataclasses
+
+    model, hyps = _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forward)
+    fwd = dict(model.settings.get("forward") or {})
+    if dataclasses.is_dataclass(model.forward):
+        fwd = {f.name: getattr(model.forward, f.name) for f in dataclasses.fields(model.forward)
+               if f.name != "rocks" and not f.name.startswith("_")}
+    return {**model.settings, "forward": fwd,
+            "hypotheses": {k: {q_: list(v) for q_, v in r.items()} for k, r in hyps.items()}}
 
 
 def _needs_prediction(hyps):
