@@ -74,11 +74,14 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
             sub = probs[probs["layer"] == layer.name]
             wide = sub.pivot(index="hypothesis", columns="thermal_prior",
                              values="posterior_probability")
-            wide = wide.loc[list(dict.fromkeys(sub["hypothesis"])),
-                            [t.name for t in thermals]]
+            order = (list(dict.fromkeys(sub["hypothesis"])), [t.name for t in thermals])
+            wide = wide.loc[order[0], order[1]]
+            wide_prior = sub.pivot(index="hypothesis", columns="thermal_prior",
+                                   values="prior_probability").loc[order[0], order[1]]
             e = ev[ev["layer"] == layer.name].set_index("thermal_prior")
             with warn.catch(f"comparison figure of {layer.name!r}"):
-                fig = F.comparison_figure(wide, e, title=f"{layer.name}")
+                fig = F.comparison_figure(wide, e, prior_probabilities=wide_prior,
+                                          title=f"{layer.name}")
                 save_figure(fig, dest / "figures", f"comparison_{slug(layer.name)}")
     extra = {"command": "compare", "method": method, "seed": seed,
              "thermal_priors_compared": [t.name for t in thermals]}

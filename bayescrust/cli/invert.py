@@ -25,6 +25,7 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
 
     from ..report.caution import caution_text
     from ..report.layer_report import layer_section
+    from ..report.tables import printable_hypotheses, printable_summary
 
     seed = study.seed if args.seed is None else args.seed
     chosen = select_layers(study, layer_names)
@@ -44,9 +45,13 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
         sub.mkdir(parents=True)
         res.idata.to_netcdf(str(sub / "posterior.nc"), engine="h5netcdf")
         write_table(sub, "summary", res.summary,
-                     caption=f"Posterior summary, layer {layer.name} (94 % HDI)")
+                    caption=f"Posterior summary, layer {layer.name} (94 % HDI)",
+                    label=f"tab:summary:{slug(layer.name)}",
+                    printable=printable_summary(res.summary))
         write_table(sub, "hypotheses", res.hypotheses,
-                     caption=f"Interpretations, layer {layer.name}")
+                    caption=f"Interpretations, layer {layer.name}",
+                    label=f"tab:hypotheses:{slug(layer.name)}",
+                    printable=printable_hypotheses(res.hypotheses))
         sm = res.summary.reset_index()
         sm.insert(0, "layer", layer.name)
         summaries.append(sm)

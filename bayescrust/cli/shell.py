@@ -133,13 +133,17 @@ def write_text(path: Path, text: str):
     path.write_text(text, encoding="utf-8")
 
 
-def write_table(folder: Path, stem: str, df, *, caption: str, index: bool = True):
+def write_table(folder: Path, stem: str, df, *, caption: str, index: bool = True,
+                label: str | None = None, printable=None):
+    """CSV (full precision) plus Markdown and LaTeX (``printable``: a manuscript-ready version
+    of ``df``, e.g. rounded with units); ``label`` is the LaTeX label (unique per table)."""
     from ..report.tables import to_csv, to_latex, to_markdown
 
+    shown = df if printable is None else printable
     write_text(folder / f"{stem}.csv", to_csv(df, index=index))
-    write_text(folder / f"{stem}.md", to_markdown(df, index=index))
-    write_text(folder / f"{stem}.tex", to_latex(df, index=index, caption=caption,
-                                                 label=f"tab:{slug(stem)}"))
+    write_text(folder / f"{stem}.md", to_markdown(shown, index=index))
+    write_text(folder / f"{stem}.tex", to_latex(shown, index=index, caption=caption,
+                                                 label=label or f"tab:{slug(stem)}"))
 
 
 def save_figure(fig, folder: Path, stem: str):
