@@ -93,7 +93,22 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
               "- `layers/<layer>/figures/`: corner, trace (MCMC only), predictive check, "
               "prior vs posterior (PNG and PDF)", "- `run.toml`: the resolved configuration", ""]
     write_text(dest / "report.md", "\n".join(lines))
+    _write_methods(dest, study, results)
     return results
+
+
+def _write_methods(dest: Path, study, results: dict):
+    """methods.md (a generated methods paragraph with its references) and references.bib."""
+    from ..report.citations import bibtex, methods_paragraph, references
+
+    refs = []
+    for res in results.values():
+        refs += references(res)
+    refs = list(dict.fromkeys(refs))
+    text = ["# Methods", "", methods_paragraph(results), "## References", ""]
+    text += [f"- {r}" for r in refs]
+    write_text(dest / "methods.md", "\n".join(text) + "\n")
+    write_text(dest / "references.bib", bibtex(refs))
 
 
 def _layer_figures(res, layer, folder: Path, method: str):
