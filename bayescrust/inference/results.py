@@ -173,7 +173,7 @@ def build_idata(*, posterior: dict, prior: dict, log_likelihood: dict, sample_st
     with warnings.catch_warnings():
         # arviz warns when there are more chains (walkers) than draws; that is by design here.
         warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
-        return az.from_dict(
+        idata = _from_dict(az, 
             posterior=posterior, prior=prior, log_likelihood=log_likelihood,
             sample_stats=sample_stats,
             observed_data={k: np.array([v]) for k, (v, _) in observed.items()},
@@ -181,6 +181,50 @@ def build_idata(*, posterior: dict, prior: dict, log_likelihood: dict, sample_st
                            **(constant_data or {})},
             attrs=attrs,
         )
+    _set_units(idata)
+    return idata
+
+
+# --- arviz 0.2x / 1.x compatibility and units (issue 9) ------------------------------------
+#: Unit attribute of every variable written to posterior.nc (rock names: volume fraction).
+VARIABLE_UNITS = {
+    "temperature_c": "deg C", "solidus_c": "deg C", "porosity": "volume fraction",
+    "aspect_ratio": "1", "melt_aspect_ratio": "1", "melt_fraction": "volume fraction",
+    "melt_fraction_effective": "volume fraction",
+    "serpentinization": "fraction of the ultramafic volume",
+    "serpentinization_effective": "fraction of the ultramafic volume",
+    "serpentine_fraction": "volume fraction", "vp": "km/s", "vs": "km/s", "vp_vs": "1",
+    "density": "g/cm^3", "vp_sigma": "km/s", "vs_sigma": "km/s", "vp_vs_sigma": "1",
+    "density_sigma": "g/cm^3", "lp": "1 (natural log)",
+}
+
+
+def _from_dict(az, **groups):
+    """``az.from_dict`` of arviz 0.2x (keyword groups, InferenceData) or 1.x (one dict of
+    groups, DataTree); both have the same groups and write the same NetCDF layout."""
+    if int(az.__version__.split(".")[0]) >= 1:
+        attrs = groups.pop("attrs", None)
+        tree = az.from_dict({k: v for k, v in groups.items() if v is not None})
+        if attrs:
+            tree.attrs.update(attrs)
+        return tree
+    return az.from_dict(**groups)
+
+
+def _set_units(idata):
+    groups = ("posterior", "prior", "observed_data", "constant_data", "log_likelihood",
+              "sample_stats")
+    for g in groups:
+        ds = getattr(idata, g, None) if not hasattr(idata, "children") else (
+            idata[g] if g in idata.children else None)
+        if ds is None:
+            continue
+        for v in ds.data_vars:
+            unit = VARIABLE_UNITS.get(str(v), "volume fraction")
+            if g == "log_likelihood":
+                unit = "1 (natural log density)"
+            ds[v].attrs["units"] = unit
+# --- end arviz compatibility ------------------------------------------------------------
 
 
 def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool = True):
