@@ -173,7 +173,7 @@ def build_idata(*, posterior: dict, prior: dict, log_likelihood: dict, sample_st
     with warnings.catch_warnings():
         # arviz warns when there are more chains (walkers) than draws; that is by design here.
         warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
-        idata = _from_dict(az, 
+        idata = _from_dict(az,
             posterior=posterior, prior=prior, log_likelihood=log_likelihood,
             sample_stats=sample_stats,
             observed_data={k: np.array([v]) for k, (v, _) in observed.items()},
@@ -202,13 +202,23 @@ VARIABLE_UNITS = {
 def _from_dict(az, **groups):
     """``az.from_dict`` of arviz 0.2x (keyword groups, InferenceData) or 1.x (one dict of
     groups, DataTree); both have the same groups and write the same NetCDF layout."""
-    if int(az.__version__.split(".")[0]) >= 1:
+    if _major(az) >= 1:
         attrs = groups.pop("attrs", None)
         tree = az.from_dict({k: v for k, v in groups.items() if v is not None})
-        if attrs:
-            tree.attrs.update(attrs)
+        tree.attrs.update(attrs or {})  # provenance at the root, where 0.2x reads it too
         return tree
     return az.from_dict(**groups)
+
+
+def _major(az) -> int:
+    return int(str(az.__version__).split(".")[0])
+
+
+def _hdi(az, flat, prob):
+    """Highest-density interval of a 1-D sample (``hdi_prob=`` in 0.2x, ``prob=`` in 1.x)."""
+    if _major(az) >= 1:
+        return np.asarray(az.hdi(flat, prob=prob), float).ravel()
+    return az.hdi(flat, hdi_prob=prob)
 
 
 def _set_units(idata):
@@ -244,7 +254,7 @@ def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool 
         if const:
             lo = hi = float(flat[0])
         else:
-            lo, hi = (float(v) for v in az.hdi(flat, hdi_prob=HDI_PROB))
+            lo, hi = (float(v) for v in _hdi(az, flat, HDI_PROB))
         if mcmc and not const:
             with warnings.catch_warnings():
                 warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
