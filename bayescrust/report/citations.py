@@ -28,7 +28,8 @@ INFERENCE_REFERENCES = (
     "exploratory analysis of Bayesian models in Python. J. Open Source Softw. 4:1143",
 )
 
-_FULL = re.compile(r"^(?P<authors>[A-Z][^()]{1,200}?) \((?P<year>\d{4})[a-z]?\) (?P<rest>.+)$")
+_FULL = re.compile(r"^(?P<authors>(?:[A-Z]|[a-z]+ [A-Z])[^()]{1,200}?) "
+                   r"\((?P<year>\d{4})[a-z]?\) (?P<rest>.+)$")
 
 
 def _clean(ref: str) -> str | None:
