@@ -54,7 +54,8 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
                 prob_rows.append({"layer": layer.name, "thermal_prior": th.name, "hypothesis": h,
                                   "prior_probability": row["prior_probability"],
                                   "posterior_probability": row["posterior_probability"],
-                                  "posterior_mcse": row["posterior_mcse"]})
+                                  "posterior_mcse": row["posterior_mcse"],
+                                  "data_fit": row.get("data_fit", "")})
         e = cmp.evidence.rename(columns={"posterior_probability":
                                          "posterior_probability_equal_odds"})
         e = e.rename_axis("thermal_prior").reset_index()

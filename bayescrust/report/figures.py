@@ -96,6 +96,11 @@ def effective_names(idata, names) -> list[str]:
     return out
 
 
+def _readable(name) -> str:
+    """A user's key (``young_plate``) as a label (``young plate``)."""
+    return str(name).replace("_", " ")
+
+
 def _fig(fig, figsize):
     if fig is None:
         return new_figure(figsize=figsize)
@@ -317,7 +322,7 @@ def probability_chart(table, *, fig=None, observed=None, title=None):
             ax.set_ylim(-0.02, 1.02)
             ax.set_xlabel("observed Vp (km/s)")
             if pr is not None:
-                ax.set_title(f"thermal prior: {pr}")
+                ax.set_title(f"thermal prior: {_readable(pr)}")
         axes[0].set_ylabel("posterior probability")
         fig.legend(loc="outside right center")
         if title:
@@ -365,11 +370,11 @@ def comparison_figure(probabilities, evidence=None, *, prior_probabilities=None,
             if prior_probabilities is not None:
                 ax.bar(x + off, prior_probabilities.loc[hyps, pr].to_numpy(float), w,
                        facecolor="none", edgecolor=c, lw=1.0, ls="--",
-                       label=f"{pr}: prior")
+                       label=f"{_readable(pr)}: prior")
                 off += w
             ax.bar(x + off, probabilities[pr].to_numpy(float), w, color=c,
                    hatch=hatches[j % len(hatches)], edgecolor="white", lw=0.5,
-                   label=f"{pr}: posterior" if per == 2 else str(pr))
+                   label=f"{_readable(pr)}: posterior" if per == 2 else _readable(pr))
         ax.set_xticks(x, [str(h) for h in hyps], rotation=25, ha="right")
         ax.set_ylim(0, 1)
         ax.set_ylabel("probability")
@@ -386,7 +391,7 @@ def comparison_figure(probabilities, evidence=None, *, prior_probabilities=None,
                              color=PALETTE[j % len(PALETTE)], capsize=3)
             axe.axvline(0, color="#000000", lw=0.6)
             axe.set_xlim(min(-2.0, float(np.min(rel)) - 0.3), 0.25)
-            axe.set_yticks(y, [str(p) for p in priors])
+            axe.set_yticks(y, [_readable(p) for p in priors])
             axe.invert_yaxis()
             axe.set_xlabel("log10 evidence relative to best")
             axe.set_title("evidence (Kass & Raftery 1995 scale)")
