@@ -133,14 +133,21 @@ def test_interrupt_prints_one_clean_line(misfit_study, tmp_path, monkeypatch, ca
 
     def interrupted(*a, **k):
         # a library that prints on the way out, as emcee does for an exception in log_prob
-        os.kill(os.getpid(), signal.SIGINT)
         import time
+        import traceback
 
-        time.sleep(1)
+        try:
+            os.kill(os.getpid(), signal.SIGINT)
+            time.sleep(1)
+        except KeyboardInterrupt:
+            print("emcee: Exception while calling your likelihood function:")
+            traceback.print_exc()
+            raise
 
     monkeypatch.setattr(api, "exact_layer", interrupted)
     rc = main(["invert", str(misfit_study), "--out", str(tmp_path / "o"), "--no-figures", "-q"])
     cap = capsys.readouterr()
     assert rc == 130
     assert cap.err.strip() == "bayescrust: interrupted; no output written"
+    assert "Traceback" not in cap.out + cap.err
     assert not (tmp_path / "o").exists()
