@@ -13,6 +13,8 @@ options), :mod:`.layers` (shared by the layer commands), one module per command 
 
 from __future__ import annotations
 
+import contextlib
+import os
 import sys
 
 from ..config import StudyError
@@ -32,6 +34,33 @@ from .shell import InputError
 __all__ = ["main"]
 
 
+@contextlib.contextmanager
+def _quiet_interrupt():
+    """On Ctrl-C, silence stdout/stderr until the interrupt reaches :func:`main`: libraries on
+    the way (emcee prints the failing call and a traceback) then add nothing to the one clean
+    message. Only in the main thread (where signal handlers live)."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    streams = (sys.stdout, sys.stderr)
+    sink = open(os.devnull, "w")  # noqa: SIM115 - closed below
+
+    def handler(signum, frame):
+        sys.stdout = sys.stderr = sink
+        raise KeyboardInterrupt
+
+    previous = signal.signal(signal.SIGINT, handler)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, previous)
+        sys.stdout, sys.stderr = streams
+        sink.close()
+
+
 def main(argv=None) -> int:
     """Run the command line; return the exit code (0 ok, 1 run failed, 2 bad input)."""
     parser = build_parser()
@@ -39,12 +68,15 @@ def main(argv=None) -> int:
         args = parser.parse_args(argv)
     except SystemExit as exc:  # argparse: --help / --version (0) or a usage error (2)
         return int(exc.code) if isinstance(exc.code, int) else 2
+    streams = (sys.stdout, sys.stderr)
     try:
-        return args.func(args)
+        with _quiet_interrupt():
+            return args.func(args)
     except (StudyError, InputError) as exc:
         print(f"bayescrust: error: {exc}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
+        sys.stdout, sys.stderr = streams
         print("bayescrust: interrupted; no output written", file=sys.stderr)
         return 130
     except Exception as exc:  # noqa: BLE001 - one clean message, no traceback

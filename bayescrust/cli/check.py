@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 
 from ..config import dumps_toml, load_study, study_to_dict
-from .layers import build
+from .layers import build, defaults_used
 from .shell import InputError
 
 __all__ = ["add_parser", "cmd_check"]
@@ -22,9 +22,14 @@ def cmd_check(args) -> int:
             build_thermal_prior(th)
         except (ValueError, TypeError) as exc:
             raise InputError(f"{study.source}: thermal.{th.name}: {exc}") from None
-    text = dumps_toml(study_to_dict(study),
+    data = study_to_dict(study)
+    # every default a run would use (priors, interpretations, thermal prior, sampler,
+    # forward model), per layer, under [run] which the study reader ignores
+    data["run"] = {"defaults_used": defaults_used(study)}
+    text = dumps_toml(data,
                       header=f"{study.source}: valid ({len(study.layers)} layer(s)). "
-                             "Resolved study, defaults filled in:")
+                             "Resolved study; every default a run uses is under "
+                             "[run.defaults_used.<layer>]:")
     sys.stdout.write(text)
     return 0
 

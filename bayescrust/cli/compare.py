@@ -54,7 +54,8 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
                 prob_rows.append({"layer": layer.name, "thermal_prior": th.name, "hypothesis": h,
                                   "prior_probability": row["prior_probability"],
                                   "posterior_probability": row["posterior_probability"],
-                                  "posterior_mcse": row["posterior_mcse"]})
+                                  "posterior_mcse": row["posterior_mcse"],
+                                  "data_fit": row.get("data_fit", "")})
         e = cmp.evidence.rename(columns={"posterior_probability":
                                          "posterior_probability_equal_odds"})
         e = e.rename_axis("thermal_prior").reset_index()
@@ -74,11 +75,14 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
             sub = probs[probs["layer"] == layer.name]
             wide = sub.pivot(index="hypothesis", columns="thermal_prior",
                              values="posterior_probability")
-            wide = wide.loc[list(dict.fromkeys(sub["hypothesis"])),
-                            [t.name for t in thermals]]
+            order = (list(dict.fromkeys(sub["hypothesis"])), [t.name for t in thermals])
+            wide = wide.loc[order[0], order[1]]
+            wide_prior = sub.pivot(index="hypothesis", columns="thermal_prior",
+                                   values="prior_probability").loc[order[0], order[1]]
             e = ev[ev["layer"] == layer.name].set_index("thermal_prior")
             with warn.catch(f"comparison figure of {layer.name!r}"):
-                fig = F.comparison_figure(wide, e, title=f"{layer.name}")
+                fig = F.comparison_figure(wide, e, prior_probabilities=wide_prior,
+                                          title=f"{layer.name}")
                 save_figure(fig, dest / "figures", f"comparison_{slug(layer.name)}")
     extra = {"command": "compare", "method": method, "seed": seed,
              "thermal_priors_compared": [t.name for t in thermals]}

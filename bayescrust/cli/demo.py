@@ -62,7 +62,8 @@ def cmd_demo(args) -> int:
         compare_method = args.method or "exact"
         say(args, f"demo: inverting {len(study.layers)} layers ({method})")
         (tmp / "invert").mkdir()
-        do_invert(args, study, tmp / "invert", method=method, figures=True)
+        results = do_invert(args, study, tmp / "invert", method=method, figures=True)
+        misfits = [n for n, r in results.items() if r.misfit]
         say(args, f"demo: comparing thermal-state priors for the deep layers ({compare_method})")
         (tmp / "compare").mkdir()
         do_compare(args, study, tmp / "compare", method=compare_method, figures=True,
@@ -81,6 +82,10 @@ def cmd_demo(args) -> int:
             "# bayescrust demo (invented data)", "",
             "The Tallowmere Ridge, segment TM-3 and lines TL-07 / TL-12 are fictional; every "
             "velocity in `study/` was made up to exercise the software.", "",
+            *([f"> **Warning: DATA MISFIT in layer(s) {', '.join(misfits)}**: the model cannot "
+               "reproduce those observations (posterior-predictive check; see "
+               "`invert/report.md`). Their probabilities are conditional on a model that does "
+               "not fit.", ""] if misfits else []),
             caution_text(assumptions(study)),
             "## Contents", "",
             "- `study/`: the demo study files (edit them and run `bayescrust invert`)",

@@ -24,7 +24,8 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
     import pandas as pd
 
     from ..report.caution import caution_text
-    from ..report.tables import to_markdown
+    from ..report.layer_report import layer_section
+    from ..report.tables import printable_hypotheses, printable_summary
 
     seed = study.seed if args.seed is None else args.seed
     chosen = select_layers(study, layer_names)
@@ -44,9 +45,13 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
         sub.mkdir(parents=True)
         res.idata.to_netcdf(str(sub / "posterior.nc"), engine="h5netcdf")
         write_table(sub, "summary", res.summary,
-                     caption=f"Posterior summary, layer {layer.name} (94 % HDI)")
+                    caption=f"Posterior summary, layer {layer.name} (94 % HDI)",
+                    label=f"tab:summary:{slug(layer.name)}",
+                    printable=printable_summary(res.summary))
         write_table(sub, "hypotheses", res.hypotheses,
-                     caption=f"Interpretations, layer {layer.name}")
+                    caption=f"Interpretations, layer {layer.name}",
+                    label=f"tab:hypotheses:{slug(layer.name)}",
+                    printable=printable_hypotheses(res.hypotheses))
         sm = res.summary.reset_index()
         sm.insert(0, "layer", layer.name)
         summaries.append(sm)
@@ -66,14 +71,21 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
     extra = {"command": "invert", "method": method, "seed": seed,
              "layer_seeds": seeds, "wall_time_s": times}
     write_text(dest / "run.toml", run_toml(study, extra))
-    lines = [f"# {study.title}", "", "Results of `bayescrust invert`.", "",
-             caution_text(assumptions(study)), "## Interpretations", ""]
+    lines = [f"# {study.title}", "", "Results of `bayescrust invert`.", ""]
+    misfits = [n for n, r in results.items() if r.misfit]
+    if misfits:
+        lines += [f"> **Warning: data misfit in layer(s) {', '.join(misfits)}.** The model "
+                  "cannot reproduce the observations there (posterior-predictive check); the "
+                  "probabilities of those layers are conditional on a model that does not fit.",
+                  ""]
+    lines += [caution_text(assumptions(study)), "## Interpretations", ""]
     for name, res in results.items():
-        lines += [f"### {name}", "", to_markdown(res.hypotheses[[
-            "prior_probability", "posterior_probability", "posterior_mcse", "bayes_factor",
-            "evidence_category"]]),
-            f"log evidence: {res.log_evidence:.3f} ± {res.log_evidence_error:.3f}; "
-            f"converged: {res.diagnostics.get('converged')}", ""]
+        lines += layer_section(name, res)
+        top = res.hypotheses["posterior_probability"].idxmax()
+        flag = " -- DATA MISFIT, see report.md" if res.misfit else ""
+        flag += "" if res.converged else " -- NOT CONVERGED"
+        say(args, f"layer {name!r}: most probable {top!r} "
+                  f"{res.hypotheses.loc[top, 'posterior_probability']:.2f}{flag}")
     if warn.messages:
         lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
     lines += ["## Files", "", "- `summary.*`, `hypotheses.*`: all layers (CSV, Markdown, LaTeX)",
@@ -81,7 +93,22 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
               "- `layers/<layer>/figures/`: corner, trace (MCMC only), predictive check, "
               "prior vs posterior (PNG and PDF)", "- `run.toml`: the resolved configuration", ""]
     write_text(dest / "report.md", "\n".join(lines))
+    _write_methods(dest, study, results)
     return results
+
+
+def _write_methods(dest: Path, study, results: dict):
+    """methods.md (a generated methods paragraph with its references) and references.bib."""
+    from ..report.citations import bibtex, methods_paragraph, references
+
+    refs = []
+    for res in results.values():
+        refs += references(res)
+    refs = list(dict.fromkeys(refs))
+    text = ["# Methods", "", methods_paragraph(results), "## References", ""]
+    text += [f"- {r}" for r in refs]
+    write_text(dest / "methods.md", "\n".join(text) + "\n")
+    write_text(dest / "references.bib", bibtex(refs))
 
 
 def _layer_figures(res, layer, folder: Path, method: str):

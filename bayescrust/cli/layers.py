@@ -7,7 +7,7 @@ from ..config import ThermalSpec, dumps_toml, load_study, study_to_dict
 from .shell import AtomicFolder, InputError, use_agg
 
 __all__ = ["assumptions", "build", "run_one", "select_layers", "run_toml", "thermal_set",
-           "study_command"]
+           "study_command", "defaults_used"]
 
 
 def assumptions(study, layer=None, thermal=None) -> dict:
@@ -71,6 +71,52 @@ def select_layers(study, names):
     return out
 
 
+def _plain(v):
+    """Settings as TOML-writable data (no None; tuples as lists; numpy scalars as floats)."""
+    if isinstance(v, dict):
+        return {str(k): _plain(x) for k, x in v.items() if x is not None}
+    if isinstance(v, (list, tuple)):
+        return [_plain(x) for x in v]
+    if isinstance(v, (bool, int, float, str)):
+        return v
+    try:
+        return float(v)
+    except (TypeError, ValueError):
+        return str(v)
+
+
+def defaults_used(study, method=None) -> dict:
+    """Per layer, every setting a run uses with the package defaults filled in: rocks, priors,
+    temperature prior, interpretations, model error, likelihood, forward model, sampler."""
+    from ..inference.api import resolved_settings
+
+    out = {}
+    for layer in study.layers:
+        lay, kw = build(study, layer)
+        try:
+            s = resolved_settings(lay, **kw)
+        except (ValueError, TypeError) as exc:
+            raise InputError(f"{study.source}: layer {layer.name!r}: {exc}") from None
+        m = method or study.sampler.method
+        s["sampler"] = {"method": m, **_sampler_defaults(m), **study.sampler.arguments(m)}
+        out[layer.name] = _plain(s)
+    return out
+
+
+def _sampler_defaults(method) -> dict:
+    import inspect
+
+    from ..inference.api import exact_layer, invert_layer
+
+    fn = exact_layer if method == "exact" else invert_layer
+    keep = (("n_points", "n_draws", "min_importance_ess") if method == "exact"
+            else ("n_walkers", "min_ess", "max_steps", "tau_factor", "n_evidence", "n_prior"))
+    d = {k: p.default for k, p in inspect.signature(fn).parameters.items() if k in keep}
+    if d.get("n_walkers") is None:
+        d["n_walkers"] = "max(64, 16 * ndim), rounded up to even"
+    return d
+
+
 def run_toml(study, extra: dict) -> str:
     from .. import __version__
 
@@ -78,7 +124,8 @@ def run_toml(study, extra: dict) -> str:
     if extra.get("seed") is not None:
         data["seed"] = extra["seed"]  # the seed actually used (--seed overrides the study's)
     # provenance goes under [run], which study files may carry and the reader ignores
-    data["run"] = {"bayescrust_version": __version__, "study_file": str(study.source), **extra}
+    data["run"] = {"bayescrust_version": __version__, "study_file": str(study.source), **extra,
+                   "defaults_used": defaults_used(study, extra.get("method"))}
     return dumps_toml(data, header="Resolved configuration of this run, written by bayescrust.\n"
                                    "Re-run with: bayescrust invert run.toml --out NEW_FOLDER")
 

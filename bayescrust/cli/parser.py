@@ -31,4 +31,17 @@ def build_parser() -> argparse.ArgumentParser:
     sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
     for command in COMMANDS:
         command.add_parser(sub)
+    for action in sub._choices_actions:  # every subcommand's --help: a description, and
+        _tidy_help(sub.choices[action.dest], action.help)  # its required options shown as such
     return p
+
+
+def _tidy_help(sp: argparse.ArgumentParser, summary: str | None) -> None:
+    if sp.description is None and summary:
+        sp.description = summary[0].upper() + summary[1:] + "."
+    required = [a for a in sp._optionals._group_actions if a.required]
+    if required:
+        group = sp.add_argument_group("required options")
+        for a in required:
+            sp._optionals._group_actions.remove(a)
+            group._group_actions.append(a)

@@ -14,7 +14,7 @@ from ..config import layer_slug
 
 __all__ = ["InputError", "AtomicFolder", "FIG_FORMATS", "slug", "say", "write_text",
            "write_table", "save_figure", "use_agg", "layer_seed", "Warnings",
-           "add_common_options"]
+           "add_common_options", "seed_value"]
 
 FIG_FORMATS = ("png", "pdf")
 
@@ -61,6 +61,7 @@ class AtomicFolder:
                 d.mkdir()
                 self.created.append(d)
             self.tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.partial-", dir=parent))
+            self.tmp.chmod(_folder_mode())  # mkdtemp makes 0o700; results are for sharing
         except OSError as exc:
             self._cleanup()
             reason = exc.strerror or str(exc)
@@ -80,14 +81,41 @@ class AtomicFolder:
             self._cleanup()
             return False
         final = self.final
-        if final.exists():
-            old = Path(tempfile.mkdtemp(prefix=f".{final.name}.old-", dir=final.absolute().parent))
+        if not final.exists():
+            try:
+                self.tmp.rename(final)
+            except OSError as err:
+                self._cleanup()
+                raise InputError(f"{final}: {self.option}: cannot create the folder "
+                                 f"({err.strerror or err})") from None
+            return False
+        old = None
+        try:
+            old = Path(tempfile.mkdtemp(prefix=f".{final.name}.old-",
+                                        dir=final.absolute().parent))
             final.rename(old / "previous")
-            self.tmp.rename(final)
-            shutil.rmtree(old, ignore_errors=True)
-        else:
-            self.tmp.rename(final)
+            try:
+                self.tmp.rename(final)
+            except OSError:
+                (old / "previous").rename(final)  # put the previous results back
+                raise
+        except OSError as err:
+            self._cleanup()
+            raise InputError(f"{final}: {self.option}: cannot replace the folder "
+                             f"({err.strerror or err}); previous results kept") from None
+        finally:
+            if old is not None:
+                shutil.rmtree(old, ignore_errors=True)
         return False
+
+
+def _folder_mode() -> int:
+    """Mode of a new folder under the current umask (what ``mkdir`` would give)."""
+    import os
+
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o777 & ~mask
 
 
 def slug(name: str) -> str:
@@ -105,13 +133,17 @@ def write_text(path: Path, text: str):
     path.write_text(text, encoding="utf-8")
 
 
-def write_table(folder: Path, stem: str, df, *, caption: str, index: bool = True):
+def write_table(folder: Path, stem: str, df, *, caption: str, index: bool = True,
+                label: str | None = None, printable=None):
+    """CSV (full precision) plus Markdown and LaTeX (``printable``: a manuscript-ready version
+    of ``df``, e.g. rounded with units); ``label`` is the LaTeX label (unique per table)."""
     from ..report.tables import to_csv, to_latex, to_markdown
 
+    shown = df if printable is None else printable
     write_text(folder / f"{stem}.csv", to_csv(df, index=index))
-    write_text(folder / f"{stem}.md", to_markdown(df, index=index))
-    write_text(folder / f"{stem}.tex", to_latex(df, index=index, caption=caption,
-                                                 label=f"tab:{slug(stem)}"))
+    write_text(folder / f"{stem}.md", to_markdown(shown, index=index))
+    write_text(folder / f"{stem}.tex", to_latex(shown, index=index, caption=caption,
+                                                 label=label or f"tab:{slug(stem)}"))
 
 
 def save_figure(fig, folder: Path, stem: str):
@@ -158,6 +190,20 @@ class Warnings:
                 say(self.args, f"bayescrust: warning: {msg}")
 
 
+def seed_value(text: str) -> int:
+    """argparse type of ``--seed``: an integer in [0, 2**63 - 1] (else a usage error, exit 2)."""
+    import argparse
+
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a non-negative integer; got {text!r}"
+                                         ) from None
+    if not 0 <= v < 2**63:
+        raise argparse.ArgumentTypeError(f"expected an integer in [0, 2**63 - 1]; got {v}")
+    return v
+
+
 def add_common_options(sp, *, out=True, seed=True, method=True, layer=None, figures=True):
     """Options shared by the study commands (quiet, output folder, seed, method, ...)."""
     sp.add_argument("-q", "--quiet", action="store_true", help="no progress or messages")
@@ -167,7 +213,7 @@ def add_common_options(sp, *, out=True, seed=True, method=True, layer=None, figu
         sp.add_argument("--overwrite", action="store_true",
                         help="replace an output folder that already holds results")
     if seed:
-        sp.add_argument("--seed", type=int, default=None,
+        sp.add_argument("--seed", type=seed_value, default=None,
                         help="random seed (default: the study file's seed, else 0)")
     if method:
         sp.add_argument("--method", choices=("mcmc", "exact"), default=None,

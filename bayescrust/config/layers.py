@@ -52,6 +52,12 @@ def read_model_error(r: Reader, key, value):
     return r.number(key, value, 0.0, 0.5, unit="(fraction of the observed value)")
 
 
+#: Smallest Vp/Vs of any isotropic elastic solid: K = rho (Vp^2 - 4/3 Vs^2) >= 0 requires
+#: Vp/Vs >= sqrt(4/3) (e.g. Mavko, Mukerji & Dvorkin 2009, The Rock Physics Handbook, 2nd ed.,
+#: section 2.2; a mathematical consequence of the definitions of the moduli).
+VP_VS_MIN = (4.0 / 3.0) ** 0.5
+
+
 def read_layer(r: Reader, key, value, study_rocks, thermal_names) -> LayerSpec:
     t = r.table(key, value)
     r.keys(key, t, LAYER_KEYS)
@@ -70,6 +76,13 @@ def read_layer(r: Reader, key, value, study_rocks, thermal_names) -> LayerSpec:
     if not obs:
         r.fail(key, "no observation; expected at least one of vp, vs, vp_vs, density "
                        "as [value, sigma]")
+    if "vp" in obs and "vs" in obs:
+        vp, vs = obs["vp"].value, obs["vs"].value
+        if vp * vp < VP_VS_MIN**2 * vs * vs:
+            r.fail(f"{key}.vs", f"got Vs {vs:g} km/s with Vp {vp:g} km/s, i.e. Vp/Vs "
+                                f"{vp / vs:.3f}; expected Vp/Vs >= sqrt(4/3) = {VP_VS_MIN:.4f} "
+                                f"(Vs <= {vp / VP_VS_MIN:.3f} km/s): a lower ratio needs a "
+                                "negative bulk modulus, K = rho (Vp^2 - 4/3 Vs^2)")
     pressure = None
     if "pressure_gpa" in t:
         pressure = r.number(f"{key}.pressure_gpa", t["pressure_gpa"], 0.0, 5.0, unit="GPa")

@@ -41,7 +41,9 @@ OBSERVABLES: dict[str, tuple[float, float, str]] = {
 #: Derived quantities a hypothesis may constrain besides parameters and rock fractions.
 DERIVED = tuple(DERIVED_QUANTITIES)
 
-DEFAULT_ROCKS = ("basalt", "gabbro", "harzburgite")
+#: Rocks a study may refer to when it names none: the union of the depth-zone rock sets (each
+#: layer then uses the set of its own depth zone, see ``inference.hypotheses.DEPTH_ZONES``).
+DEFAULT_ROCKS = ("basalt", "diabase", "gabbro", "olivine_gabbro", "harzburgite")
 
 
 def layer_slug(name: str) -> str:

@@ -7,6 +7,7 @@ To add a section ``[NAME]``: write ``config/NAME.py`` with ``read_NAME(r, key, v
 
 from __future__ import annotations
 
+import dataclasses
 import re
 import tomllib
 from pathlib import Path
@@ -136,6 +137,13 @@ def read_study(r: Reader, data: dict) -> StudySpec:
             r.got(f"layers[{i}].name", lay.name,
                      f"a name distinct from layer {seen[slug]!r} (both give folder {slug!r})")
         seen[slug] = lay.name
+    if "rocks" not in data:
+        # no rocks named anywhere: each layer gets the rock set of its depth zone
+        # (Layer 2, Layer 3, uppermost mantle; see bayescrust.inference.hypotheses.DEPTH_ZONES)
+        from ..inference.hypotheses import default_rocks
+
+        layers = tuple(lay if lay.rocks is not None else dataclasses.replace(
+            lay, rocks=default_rocks(0.5 * (lay.top_km + lay.bottom_km))) for lay in layers)
     # hypotheses must refer to rocks used by the layer
     for i, lay in enumerate(layers):
         hy = lay.hypotheses if lay.hypotheses is not None else hyps

@@ -13,6 +13,7 @@ from .model import LayerModel
 from .results import LayerResult
 from .sampler import ConvergenceWarning, run_ensemble
 from .thermal_priors import HalfSpaceCooling, HotAxial, UniformTemperature
+from .trust import MisfitWarning
 
 __all__ = [
     "ConvergenceWarning",
@@ -21,6 +22,7 @@ __all__ = [
     "Layer",
     "LayerModel",
     "LayerResult",
+    "MisfitWarning",
     "PriorComparison",
     "UniformTemperature",
     "compare_priors",

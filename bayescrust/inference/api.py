@@ -19,7 +19,7 @@ from .model import DERIVED_QUANTITIES, SCALAR_PARAMETERS, LayerModel
 from .results import LayerResult, build_idata, hypothesis_table, probabilities_mcmc, summarize
 from .sampler import MOVES_DESCRIPTION, run_ensemble
 
-__all__ = ["invert_layer", "exact_layer", "resolve_rng"]
+__all__ = ["invert_layer", "exact_layer", "resolve_rng", "resolved_settings"]
 
 _PREDICTED = ("vp", "vs", "density", "vp_vs")
 
@@ -41,8 +41,74 @@ def _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forwar
     model = LayerModel.build(layer, rocks=rocks, priors=priors, model_error=model_error,
                              likelihood=likelihood, nu=nu, forward=forward)
     allowed = set(model.rock_names) | set(SCALAR_PARAMETERS) | set(DERIVED_QUANTITIES)
-    hyps = default_hypotheses(model.rock_names) if hypotheses is None else hypotheses
+    if hypotheses is None:
+        por = model.scalar_priors["porosity"]
+        hyps = default_hypotheses(model.rock_names, porosity_max=float(por.bounds[1]))
+    else:
+        hyps = hypotheses
     return model, validate_hypotheses(hyps, allowed)
+
+
+# --- trust: posterior-predictive check, convergence rule, mixing per class (issue 9) ---------
+def _trust(model, hyps, post, summary, hyp_table, diagnostics, *, sampler_converged, method,
+           importance_ess=None):
+    """Add the predictive check and the convergence verdict to ``diagnostics``, the mixing
+    fraction and the misfit flag to the hypothesis table; warn on misfit / non-convergence."""
+    import warnings
+
+    from .sampler import ConvergenceWarning
+    from .trust import MisfitWarning, class_mixing, convergence_verdict, misfit_message
+    from .trust import predictive_check as _ppc
+
+    flat = {k: np.asarray(v).ravel() for k, v in post.items()}
+    check = _ppc(model, flat)
+    diagnostics["predictive_check"] = check
+    verdict = convergence_verdict(summary, sampler_converged=sampler_converged, method=method,
+                                  importance_ess=importance_ess)
+    diagnostics["sampler_converged"] = bool(sampler_converged)
+    diagnostics["converged"] = verdict["converged"]
+    diagnostics["convergence_rule"] = verdict["rule"]
+    diagnostics["max_r_hat"] = verdict["max_r_hat"]
+    mix_q = "ultramafic_fraction" if np.any(model.families["ultramafic_fraction"]) else (
+        "gabbroic_fraction" if np.any(model.families["gabbroic_fraction"])
+        else "basaltic_fraction")
+    mix = class_mixing(indicators(hyps, flat), flat, mix_q)
+    hyp_table["mixing_quantity"] = mix_q
+    hyp_table["mixing_median"] = [mix[k][0] for k in hyp_table.index]
+    hyp_table["mixing_q05"] = [mix[k][1] for k in hyp_table.index]
+    hyp_table["mixing_q95"] = [mix[k][2] for k in hyp_table.index]
+    hyp_table["data_fit"] = ("MISFIT (" + ", ".join(check["flagged"]) + ")"
+                             if check["misfit"] else "ok")
+    if check["misfit"]:
+        warnings.warn(f"layer {model.layer.name!r}: {misfit_message(check)}", MisfitWarning,
+                      stacklevel=3)
+    if method == "mcmc" and sampler_converged and not verdict["converged"]:
+        warnings.warn(f"layer {model.layer.name!r}: not converged: R-hat of "
+                      f"{verdict['worst']} is {verdict['max_r_hat']:.3f} (rule: "
+                      f"{verdict['rule']}); run longer (raise min_ess)", ConvergenceWarning,
+                      stacklevel=3)
+# --- end trust ---------------------------------------------------------------------------
+
+
+def resolved_settings(layer, *, rocks=("gabbro", "harzburgite"), priors=None, hypotheses=None,
+                      model_error=None, likelihood="gaussian", nu=4.0, forward=None,
+                      **_sampler_options) -> dict:
+    """Every setting a run of ``layer`` would use, defaults filled in (no sampling).
+
+    Returns a plain dict: rocks, priors (each described), temperature prior, model error,
+    likelihood, forward-model settings, solidus and serpentine limit, and the interpretations
+    ``{name: {quantity: [lo, hi]}}``; the same as ``LayerResult.settings`` without the
+    sampler's part.
+    """
+    import dataclasses
+
+    model, hyps = _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forward)
+    fwd = dict(model.settings.get("forward") or {})
+    if dataclasses.is_dataclass(model.forward):
+        fwd = {f.name: getattr(model.forward, f.name) for f in dataclasses.fields(model.forward)
+               if f.name != "rocks" and not f.name.startswith("_")}
+    return {**model.settings, "forward": fwd,
+            "hypotheses": {k: {q_: list(v) for q_, v in r.items()} for k, r in hyps.items()}}
 
 
 def _needs_prediction(hyps):
@@ -193,9 +259,13 @@ def invert_layer(
         observed=dict(model.observed),
         attrs=_attrs(model, seed_val, "mcmc", settings),
     )
+    summary = summarize(_summary_vars(model, post))
+    table = hypothesis_table(p_prior, p_post, se_post, n_prior_draws,
+                             n_post=float(np.min(run.ess)))
+    _trust(model, hyps, post, summary, table, diagnostics, sampler_converged=run.converged,
+           method="mcmc")
     return LayerResult(
-        idata=idata, hypotheses=hypothesis_table(p_prior, p_post, se_post, n_prior_draws),
-        summary=summarize(_summary_vars(model, post)), log_evidence=log_z,
+        idata=idata, hypotheses=table, summary=summary, log_evidence=log_z,
         log_evidence_error=log_z_err, diagnostics=diagnostics, layer=layer, settings=settings,
     )
 
@@ -313,9 +383,12 @@ def exact_layer(
         observed=dict(model.observed),
         attrs=_attrs(model, seed_val, "exact", settings),
     )
+    summary = summarize(_summary_vars(model, post), ess_override=ess, mcmc=False)
+    table = hypothesis_table(p_prior, p_post, se_post, n_prior_draws, n_post=ess)
+    _trust(model, hyps, post, summary, table, diagnostics, sampler_converged=ess >= 500,
+           method="exact", importance_ess=ess)
     return LayerResult(
-        idata=idata, hypotheses=hypothesis_table(p_prior, p_post, se_post, n_prior_draws),
-        summary=summarize(_summary_vars(model, post), ess_override=ess, mcmc=False),
+        idata=idata, hypotheses=table, summary=summary,
         log_evidence=log_z, log_evidence_error=log_z_err, diagnostics=diagnostics,
         layer=layer, settings=settings,
     )

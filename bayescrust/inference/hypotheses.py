@@ -12,8 +12,9 @@ import math
 
 import numpy as np
 
-__all__ = ["default_hypotheses", "validate_hypotheses", "indicators", "evidence_category",
-           "KASS_RAFTERY"]
+__all__ = ["default_hypotheses", "default_rocks", "depth_zone", "describe_hypotheses",
+           "validate_hypotheses", "indicators", "evidence_category", "KASS_RAFTERY", "MOSTLY",
+           "DEPTH_ZONES"]
 
 #: Kass & Raftery (1995, J. Am. Stat. Assoc. 90, 773, p. 777) categories on 2 ln(B).
 KASS_RAFTERY = (
@@ -26,60 +27,169 @@ KASS_RAFTERY = (
 _INF = math.inf
 
 
-def default_hypotheses(rocks) -> dict:
-    """Default interpretations for the chosen rocks.
+#: Lithology cut: a class "mostly X" needs rock family X to make up at least this volume
+#: fraction; below it in every family a draw is "mixed / transition" (``common practice``:
+#: a rock named after a family is dominated by it; 0.8 keeps 50/50 mixtures out of both).
+MOSTLY = 0.8
+#: Serpentine volume fraction of the rock (from serpentinised peridotite or serpentinite) above
+#: which a mantle rock is "serpentinised" (``common practice``).
+SERPENTINISED = 0.1
+#: Effective melt fraction above which a rock is "partially molten" (``common practice``).
+MOLTEN = 0.005
+#: Temperature dividing cold from hot mantle, deg C (``common practice``).
+HOT_MANTLE_C = 900.0
+#: Temperature dividing cold from hot gabbro, deg C (``common practice``).
+HOT_GABBRO_C = 600.0
+#: Porosity above which a basalt or diabase is "porous" (``common practice``).
+POROUS = 0.05
 
-    - "cold gabbro": gabbroic fraction >= 0.5 and T <= 600 deg C (if a gabbroic rock is present);
-    - "hot mantle": ultramafic fraction >= 0.5 and T >= 900 deg C;
-    - "cold mantle": ultramafic fraction >= 0.5, T <= 600 deg C and effective serpentinisation
-      <= 0.1;
-    - "serpentinised mantle": ultramafic fraction >= 0.5 and effective serpentinisation >= 0.1
-      (if a peridotite is present) - or serpentinite end-member fraction >= 0.5;
-    - "porous basalt": basaltic fraction >= 0.5 and porosity >= 0.05 (if basalt/diabase present);
-    - "melt present": effective melt fraction >= 0.005 (if a rock that can melt is present).
+#: Depth zones below the seafloor (mid-depth of a layer, km) and their default rock sets:
+#: Layer 2 (extrusives and dikes) above the porosity transition of the default priors; Layer 3
+#: (gabbros) down to the normal crustal thickness of ``physics/data/thermal.toml``
+#: (``[lithostatic] crust_thickness_km``); below it the uppermost mantle, where gabbro is kept
+#: for the crust-mantle transition.
+DEPTH_ZONES = (
+    ("Layer 2", ("basalt", "diabase")),
+    ("Layer 3", ("gabbro", "olivine_gabbro")),
+    ("uppermost mantle", ("gabbro", "harzburgite")),
+)
+
+_LITHOLOGY = (("basaltic", "basalt / diabase"), ("gabbroic", "gabbro"),
+              ("ultramafic", "mantle"))
+_NEXT_BELOW = float(np.nextafter(MOSTLY, -_INF))
+
+
+def depth_zone(mid_depth_km: float) -> str:
+    """Name of the depth zone of a layer's mid-depth below the seafloor (see DEPTH_ZONES)."""
+    from ..physics._data import load_table
+    from .model import _DEPTH_POROUS_KM
+
+    moho = float(load_table("thermal")["lithostatic"]["crust_thickness_km"])
+    if mid_depth_km < _DEPTH_POROUS_KM:
+        return "Layer 2"
+    return "Layer 3" if mid_depth_km < moho else "uppermost mantle"
+
+
+def default_rocks(mid_depth_km: float) -> tuple[str, ...]:
+    """Default end-member rocks of a layer from its depth zone (see :data:`DEPTH_ZONES`).
+
+    Examples
+    --------
+    >>> default_rocks(0.5), default_rocks(3.0), default_rocks(6.5)
+    (('basalt', 'diabase'), ('gabbro', 'olivine_gabbro'), ('gabbro', 'harzburgite'))
+    """
+    return dict(DEPTH_ZONES)[depth_zone(mid_depth_km)]
+
+
+def default_hypotheses(rocks, *, porosity_max: float | None = None) -> dict:
+    """Default interpretations for the chosen rocks: a partition of the parameter space.
+
+    Every posterior draw falls in exactly one class. Lithology first: "mostly X" when rock
+    family X (basaltic, gabbroic, ultramafic - peridotites and serpentinites) makes up
+    >= :data:`MOSTLY` of the volume; "mixed / transition" when no family does (offered when
+    two or more families are present). Then the state within each lithology:
+
+    - mantle: "serpentinised mantle" (serpentine >= 0.1 of the rock volume), else "partially
+      molten mantle" (effective melt >= 0.005), else "hot mantle" (T >= 900 deg C) or
+      "cold mantle" (T < 900 deg C);
+    - gabbro: "partially molten gabbro" (effective melt >= 0.005), else "hot gabbro"
+      (T >= 600 deg C) or "cold gabbro";
+    - basalt / diabase: "porous basalt / diabase" (porosity >= 0.05) or "low-porosity basalt /
+      diabase"; not split when ``porosity_max`` (the prior's upper bound) is below 0.05.
 
     Parameters
     ----------
     rocks : sequence of str
         Rock names (as in ``bayescrust.ROCKS``).
+    porosity_max : float, optional
+        Upper bound of the porosity prior.
 
     Returns
     -------
     dict
-        ``{name: {quantity: (lo, hi)}}``.
+        ``{name: {quantity: (lo, hi)}}``; the boxes are disjoint and cover the space.
 
     Examples
     --------
-    >>> sorted(default_hypotheses(("gabbro", "harzburgite")))
-    ['cold gabbro', 'cold mantle', 'hot mantle', 'melt present', 'serpentinised mantle']
+    >>> sorted(default_hypotheses(("gabbro", "harzburgite")))  # doctest: +NORMALIZE_WHITESPACE
+    ['cold gabbro', 'cold mantle', 'hot gabbro', 'hot mantle', 'mixed / transition',
+     'partially molten gabbro', 'partially molten mantle', 'serpentinised mantle']
     """
     from ..physics.rocks import ROCKS
+    from .model import _BASALTIC, _GABBROIC
 
     rocks = tuple(rocks)
     unknown = [r for r in rocks if r not in ROCKS]
     if unknown:
         raise ValueError(f"rocks: unknown rock {unknown}; allowed {sorted(ROCKS)}")
-    peridotite = any(ROCKS[r].ultramafic for r in rocks)
-    serpentinite = any(r in ("serpentinite", "antigorite_serpentinite") for r in rocks)
-    gabbroic = any(r in ("gabbro", "olivine_gabbro", "troctolite") for r in rocks)
-    basaltic = any(r in ("basalt", "diabase") for r in rocks)
+    present = {
+        "basaltic": any(r in _BASALTIC for r in rocks),
+        "gabbroic": any(r in _GABBROIC for r in rocks),
+        "ultramafic": any(r not in _BASALTIC and r not in _GABBROIC for r in rocks),
+    }
+    fams = [f for f, _ in _LITHOLOGY if present[f]]
+    several = len(fams) > 1
     h = {}
-    if gabbroic:
-        h["cold gabbro"] = {"gabbroic_fraction": (0.5, 1.0), "temperature_c": (-_INF, 600.0)}
-    if peridotite or serpentinite:
-        h["hot mantle"] = {"ultramafic_fraction": (0.5, 1.0), "temperature_c": (900.0, _INF)}
-    if peridotite:
-        h["cold mantle"] = {"ultramafic_fraction": (0.5, 1.0), "temperature_c": (-_INF, 600.0),
-                            "serpentinization_effective": (0.0, 0.1)}
-        h["serpentinised mantle"] = {"ultramafic_fraction": (0.5, 1.0),
-                                     "serpentinization_effective": (0.1, 1.0)}
-    elif serpentinite:
-        h["serpentinised mantle"] = {"serpentine_fraction": (0.5, 1.0)}
-    if basaltic:
-        h["porous basalt"] = {"basaltic_fraction": (0.5, 1.0), "porosity": (0.05, 1.0)}
-    if any(r != "serpentinite" and r != "antigorite_serpentinite" for r in rocks):
-        h["melt present"] = {"melt_fraction_effective": (0.005, 1.0)}
-    return h
+    for fam, label in _LITHOLOGY:
+        if not present[fam]:
+            continue
+        base = {f"{fam}_fraction": (MOSTLY, 1.0)} if several else {}
+        if fam == "ultramafic":
+            fresh = {**base, "serpentine_fraction": (0.0, SERPENTINISED)}
+            dry = {**fresh, "melt_fraction_effective": (0.0, MOLTEN)}
+            h["serpentinised mantle"] = {**base, "serpentine_fraction": (SERPENTINISED, 1.0)}
+            h["partially molten mantle"] = {**fresh, "melt_fraction_effective": (MOLTEN, 1.0)}
+            h["hot mantle"] = {**dry, "temperature_c": (HOT_MANTLE_C, _INF)}
+            h["cold mantle"] = {**dry, "temperature_c": (-_INF, HOT_MANTLE_C)}
+        elif fam == "gabbroic":
+            dry = {**base, "melt_fraction_effective": (0.0, MOLTEN)}
+            h["partially molten gabbro"] = {**base, "melt_fraction_effective": (MOLTEN, 1.0)}
+            h["hot gabbro"] = {**dry, "temperature_c": (HOT_GABBRO_C, _INF)}
+            h["cold gabbro"] = {**dry, "temperature_c": (-_INF, HOT_GABBRO_C)}
+        elif porosity_max is not None and porosity_max <= POROUS:
+            h[label] = base or {"basaltic_fraction": (0.0, 1.0)}
+        else:
+            h[f"porous {label}"] = {**base, "porosity": (POROUS, 1.0)}
+            h[f"low-porosity {label}"] = {**base, "porosity": (0.0, POROUS)}
+    if several:
+        h["mixed / transition"] = {f"{f}_fraction": (0.0, _NEXT_BELOW) for f in fams}
+    return _disjoint(h)
+
+
+def _disjoint(h: dict) -> dict:
+    """Make shared cut points belong to one side only (upper bounds open by one ulp)."""
+    cuts = {}
+    for ranges in h.values():
+        for q, (lo, _hi) in ranges.items():
+            cuts.setdefault(q, set()).add(lo)
+    out = {}
+    for name, ranges in h.items():
+        out[name] = {q: (lo, float(np.nextafter(hi, -_INF)) if hi in cuts[q] and
+                         math.isfinite(hi) else hi) for q, (lo, hi) in ranges.items()}
+    return out
+
+
+def describe_hypotheses(hypotheses: dict) -> dict[str, str]:
+    """Readable definition of each interpretation, e.g. ``"ultramafic_fraction >= 0.8 and ..."``."""
+    out = {}
+    for name, ranges in hypotheses.items():
+        parts = []
+        for q, (lo, hi) in ranges.items():
+            lo_s = None if not math.isfinite(lo) else f"{lo:.4g}"
+            hi_s = None if not math.isfinite(hi) else f"{hi:.4g}"
+            up = float(np.nextafter(hi, _INF)) if math.isfinite(hi) else hi
+            strict = math.isfinite(hi) and float(f"{up:.4g}") == up and float(hi_s) != hi
+            op, hi_s = ("<", f"{up:.4g}") if strict else ("<=", hi_s)
+            if lo_s and hi_s:
+                parts.append(f"{lo_s} <= {q} {op} {hi_s}")
+            elif lo_s:
+                parts.append(f"{q} >= {lo_s}")
+            elif hi_s:
+                parts.append(f"{q} {op} {hi_s}")
+            else:
+                parts.append(f"any {q}")
+        out[name] = " and ".join(parts)
+    return out
 
 
 def validate_hypotheses(hypotheses, allowed) -> dict:

@@ -9,6 +9,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .hypotheses import evidence_category, indicators
+from .trust import ensemble_rhat
 
 __all__ = ["LayerResult", "HDI_PROB", "hypothesis_table", "build_idata", "summarize"]
 
@@ -56,13 +57,44 @@ class LayerResult:
         """Posterior probability of hypothesis ``name``."""
         return float(self.hypotheses.loc[name, "posterior_probability"])
 
+    # --- trust (issue 9): predictive check and convergence word -------------------------
+    @property
+    def predictive_check(self) -> dict:
+        """Posterior-predictive check (:func:`bayescrust.inference.trust.predictive_check`)."""
+        return self.diagnostics.get("predictive_check", {})
+
+    @property
+    def misfit(self) -> bool:
+        """True when the data sit in the tail of the posterior predictive (see PPC_ALPHA)."""
+        return bool(self.predictive_check.get("misfit", False))
+
+    @property
+    def converged(self) -> bool:
+        """The one convergence rule (:func:`bayescrust.inference.trust.convergence_verdict`)."""
+        return bool(self.diagnostics.get("converged", False))
+
+    def warnings(self) -> list[str]:
+        """Plain-text warnings a reader must see beside the probabilities."""
+        from .trust import misfit_message
+
+        out = []
+        if self.misfit:
+            out.append(misfit_message(self.predictive_check))
+        if not self.converged:
+            out.append("NOT CONVERGED by the rule " + str(self.diagnostics.get(
+                "convergence_rule", "")) + "; the probabilities carry extra Monte Carlo error.")
+        return out
+    # --- end trust -------------------------------------------------------------------
+
     def __repr__(self) -> str:
         return (f"LayerResult(layer={self.layer.name!r}, method={self.settings.get('method')!r}, "
                 f"log_evidence={self.log_evidence:.3f} +- {self.log_evidence_error:.3f}, "
-                f"hypotheses={list(self.hypotheses.index)})")
+                f"hypotheses={list(self.hypotheses.index)}"
+                + (", MISFIT" if self.misfit else "") + ")")
 
 
-def hypothesis_table(prior_p: dict, post_p: dict, post_se: dict, n_prior: dict | None = None):
+def hypothesis_table(prior_p: dict, post_p: dict, post_se: dict, n_prior: dict | None = None,
+                     n_post: float | None = None):
     """DataFrame of prior and posterior probabilities, Bayes factors, their errors and categories.
 
     ``n_prior`` gives the number of independent prior draws behind each prior probability
@@ -70,8 +102,19 @@ def hypothesis_table(prior_p: dict, post_p: dict, post_se: dict, n_prior: dict |
     the delta method from the errors of both probabilities (independent estimates):
     ``ln B = logit(p) - logit(pi)``, so
     ``se(log10 B) = sqrt((se_p / (p (1 - p)))^2 + (se_pi / (pi (1 - pi)))^2) / ln 10``.
+
+    A probability of exactly 0 or 1 (no draw, or every draw, in the class) gives no finite
+    Bayes factor; it is replaced by its 95 % bound from the number of (effective) draws,
+    ``3 / n`` (:func:`bayescrust.inference.trust.rule_of_three`; ``n_post`` for the posterior,
+    ``n_prior`` for the prior), and ``bayes_factor_bound`` says which side the true value lies
+    on (``"<"`` or ``">"``; ``"="`` for an estimate, ``""`` when undefined).
     """
     import pandas as pd
+
+    from .trust import rule_of_three
+
+    def odds(x):
+        return x / (1.0 - x)
 
     rows = []
     for name in post_p:
@@ -79,25 +122,40 @@ def hypothesis_table(prior_p: dict, post_p: dict, post_se: dict, n_prior: dict |
         se_p = float(post_se[name])
         n_pi = (n_prior or {}).get(name)
         se_pi = math.sqrt(pi * (1.0 - pi) / n_pi) if n_pi else math.nan
-        if not 0 < pi < 1:
-            bf = math.nan  # a hypothesis the prior excludes (or is sure of) has no Bayes factor
-        elif p in (0.0, 1.0):
-            bf = 0.0 if p == 0.0 else math.inf  # python floats raise on division by zero
+        r_pi = rule_of_three(n_pi) if n_pi else math.nan
+        r_p = rule_of_three(n_post) if n_post else math.nan
+        pi_b, p_b, side = pi, p, "="
+        if p == 0.0:
+            p_b, side = r_p, "<"
+        elif p == 1.0:
+            p_b, side = 1.0 - r_p, ">"
+        if pi == 0.0:
+            pi_b, side = r_pi, ("" if side == "<" else ">")
+        elif pi == 1.0:
+            pi_b, side = 1.0 - r_pi, ("" if side == ">" else "<")
+        if side and 0 < p_b < 1 and 0 < pi_b < 1:
+            bf = odds(p_b) / odds(pi_b)
         else:
-            bf = (p / (1 - p)) / (pi / (1 - pi))
-        lbf = math.log10(bf) if bf > 0 else (-math.inf if bf == 0 else math.nan)
+            bf, side = math.nan, ""
+        lbf = math.log10(bf) if bf > 0 else math.nan
         if 0 < p < 1 and 0 < pi < 1:
             lbf_se = math.hypot(se_p / (p * (1 - p)), se_pi / (pi * (1 - pi))) / math.log(10.0)
         else:
             lbf_se = math.nan
+        cat = evidence_category(lbf)
+        if side in ("<", ">"):
+            # a bound gives the category only on the side it bounds
+            informative = (side == "<" and lbf < 0) or (side == ">" and lbf > 0)
+            cat = f"{cat} or more (bound)" if informative else "undetermined (too few draws)"
         rows.append({
             "hypothesis": name, "prior_probability": pi, "prior_mcse": se_pi,
-            "posterior_probability": p, "posterior_mcse": se_p, "bayes_factor": bf,
-            "log10_bayes_factor": lbf, "log10_bayes_factor_mcse": lbf_se,
-            "evidence_category": evidence_category(lbf),
+            "posterior_probability": p, "posterior_mcse": se_p, "bayes_factor_bound": side,
+            "bayes_factor": bf, "log10_bayes_factor": lbf, "log10_bayes_factor_mcse": lbf_se,
+            "evidence_category": cat,
         })
     cols = ["prior_probability", "prior_mcse", "posterior_probability", "posterior_mcse",
-            "bayes_factor", "log10_bayes_factor", "log10_bayes_factor_mcse", "evidence_category"]
+            "bayes_factor_bound", "bayes_factor", "log10_bayes_factor",
+            "log10_bayes_factor_mcse", "evidence_category"]
     if not rows:
         return pd.DataFrame(columns=cols, index=pd.Index([], name="hypothesis"))
     return pd.DataFrame(rows).set_index("hypothesis")[cols]
@@ -115,7 +173,7 @@ def build_idata(*, posterior: dict, prior: dict, log_likelihood: dict, sample_st
     with warnings.catch_warnings():
         # arviz warns when there are more chains (walkers) than draws; that is by design here.
         warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
-        return az.from_dict(
+        idata = _from_dict(az,
             posterior=posterior, prior=prior, log_likelihood=log_likelihood,
             sample_stats=sample_stats,
             observed_data={k: np.array([v]) for k, (v, _) in observed.items()},
@@ -123,6 +181,60 @@ def build_idata(*, posterior: dict, prior: dict, log_likelihood: dict, sample_st
                            **(constant_data or {})},
             attrs=attrs,
         )
+    _set_units(idata)
+    return idata
+
+
+# --- arviz 0.2x / 1.x compatibility and units (issue 9) ------------------------------------
+#: Unit attribute of every variable written to posterior.nc (rock names: volume fraction).
+VARIABLE_UNITS = {
+    "temperature_c": "deg C", "solidus_c": "deg C", "porosity": "volume fraction",
+    "aspect_ratio": "1", "melt_aspect_ratio": "1", "melt_fraction": "volume fraction",
+    "melt_fraction_effective": "volume fraction",
+    "serpentinization": "fraction of the ultramafic volume",
+    "serpentinization_effective": "fraction of the ultramafic volume",
+    "serpentine_fraction": "volume fraction", "vp": "km/s", "vs": "km/s", "vp_vs": "1",
+    "density": "g/cm^3", "vp_sigma": "km/s", "vs_sigma": "km/s", "vp_vs_sigma": "1",
+    "density_sigma": "g/cm^3", "lp": "1 (natural log)",
+}
+
+
+def _from_dict(az, **groups):
+    """``az.from_dict`` of arviz 0.2x (keyword groups, InferenceData) or 1.x (one dict of
+    groups, DataTree); both have the same groups and write the same NetCDF layout."""
+    if _major(az) >= 1:
+        attrs = groups.pop("attrs", None)
+        tree = az.from_dict({k: v for k, v in groups.items() if v is not None})
+        tree.attrs.update(attrs or {})  # provenance at the root, where 0.2x reads it too
+        return tree
+    return az.from_dict(**groups)
+
+
+def _major(az) -> int:
+    return int(str(az.__version__).split(".")[0])
+
+
+def _hdi(az, flat, prob):
+    """Highest-density interval of a 1-D sample (``hdi_prob=`` in 0.2x, ``prob=`` in 1.x)."""
+    if _major(az) >= 1:
+        return np.asarray(az.hdi(flat, prob=prob), float).ravel()
+    return az.hdi(flat, hdi_prob=prob)
+
+
+def _set_units(idata):
+    groups = ("posterior", "prior", "observed_data", "constant_data", "log_likelihood",
+              "sample_stats")
+    for g in groups:
+        ds = getattr(idata, g, None) if not hasattr(idata, "children") else (
+            idata[g] if g in idata.children else None)
+        if ds is None:
+            continue
+        for v in ds.data_vars:
+            unit = VARIABLE_UNITS.get(str(v), "volume fraction")
+            if g == "log_likelihood":
+                unit = "1 (natural log density)"
+            ds[v].attrs["units"] = unit
+# --- end arviz compatibility ------------------------------------------------------------
 
 
 def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool = True):
@@ -142,11 +254,11 @@ def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool 
         if const:
             lo = hi = float(flat[0])
         else:
-            lo, hi = (float(v) for v in az.hdi(flat, hdi_prob=HDI_PROB))
+            lo, hi = (float(v) for v in _hdi(az, flat, HDI_PROB))
         if mcmc and not const:
             with warnings.catch_warnings():
                 warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
-                r_hat = float(az.rhat(arr))
+                r_hat = ensemble_rhat(arr)  # walker groups as chains (trust.py)
                 ess = float(az.ess(arr, method="bulk"))
         else:
             r_hat = math.nan

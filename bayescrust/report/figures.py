@@ -31,6 +31,8 @@ __all__ = [
     "probability_chart",
     "comparison_figure",
     "forward_figure",
+    "effective_names",
+    "piled_at_bound",
 ]
 
 #: Scalar parameters and derived quantities (the latter are not shown in corner plots).
@@ -74,6 +76,31 @@ def _drop_last_fraction(idata, names):
     return names
 
 
+#: Latent parameter -> the effective quantity a reader should see (the latent melt fraction
+#: only acts above the solidus, the latent serpentinisation only below the stability limit).
+EFFECTIVE = {"melt_fraction": "melt_fraction_effective",
+             "serpentinization": "serpentinization_effective"}
+
+
+def effective_names(idata, names) -> list[str]:
+    """``names`` with latent melt / serpentinisation replaced by their effective values; an
+    effective quantity that never varies (e.g. always zero) is left out."""
+    post = idata.posterior
+    out = []
+    for n in names:
+        e = EFFECTIVE.get(n)
+        if e is None:
+            out.append(n)
+        elif e in post.data_vars and np.ptp(np.asarray(post[e].values, float)) > 0:
+            out.append(e)
+    return out
+
+
+def _readable(name) -> str:
+    """A user's key (``young_plate``) as a label (``young plate``)."""
+    return str(name).replace("_", " ")
+
+
 def _fig(fig, figsize):
     if fig is None:
         return new_figure(figsize=figsize)
@@ -97,7 +124,7 @@ def corner_figure(idata, *, var_names=None, fig=None, color=PALETTE[0], bins=30)
     except ImportError as exc:  # pragma: no cover - corner is a dependency
         raise ImportError("corner plots need the 'corner' package: pip install corner") from exc
     names = (list(var_names) if var_names is not None
-             else _drop_last_fraction(idata, free_parameters(idata)))
+             else effective_names(idata, _drop_last_fraction(idata, free_parameters(idata))))
     if not names:
         raise ValueError("corner_figure: no varying posterior variable to plot")
     data = np.column_stack([_draws(idata, "posterior", n).ravel() for n in names])
@@ -115,8 +142,11 @@ def corner_figure(idata, *, var_names=None, fig=None, color=PALETTE[0], bins=30)
             fig.subplots(k, k)
         corner.corner(data, labels=[short_label(n) for n in names], fig=fig, color=color, bins=bins,
                       quantiles=[0.05, 0.5, 0.95], show_titles=True, title_fmt=".3g",
-                      title_kwargs={"fontsize": 8}, label_kwargs={"fontsize": 8},
-                      plot_datapoints=False, fill_contours=True, smooth=1.0)
+                      title_kwargs={"fontsize": 7}, label_kwargs={"fontsize": 8},
+                      plot_datapoints=False, fill_contours=True, smooth=1.0, max_n_ticks=3,
+                      labelpad=0.05)
+        for ax in fig.axes:  # keep rotated tick labels from running into each other
+            ax.tick_params(labelsize=6.5)
     return fig
 
 
@@ -191,8 +221,9 @@ def predictive_figure(idata, *, fig=None, sigma=None):
             ax.axvline(value, color=PALETTE[1], lw=1.8, label="observed")
             ax.set_xlabel(label(n))
             ax.set_yticks([])
-        axes[0].set_ylabel("density")
-        axes[-1].legend(loc="upper right")
+        axes[0].set_ylabel("probability density")
+        fig.legend(*axes[-1].get_legend_handles_labels(), loc="outside lower center",
+                   ncols=4)  # below the panels, clear of the data
         fig.suptitle("Predicted versus observed (forward-model predictions, no noise added)")
     return fig
 
@@ -223,11 +254,36 @@ def marginals_figure(idata, *, var_names=None, fig=None, ncols=3):
             ax.hist(post, bins=bins, density=True, color=PALETTE[0], alpha=0.6, label="posterior")
             ax.set_xlabel(label(n))
             ax.set_yticks([])
+            side = piled_at_bound(post, pri)
+            if side:
+                ax.set_title(f"piled at the prior's {side} bound", color=PALETTE[1],
+                             fontsize=7.5)
         for ax in axes[len(names):]:
             ax.set_visible(False)
         axes[0].legend(loc="best")
         fig.suptitle("Prior and posterior marginals")
     return fig
+
+
+#: A posterior is "piled against a prior bound" when this share of its draws lies in the outer
+#: 2 % of the prior's range (a uniform posterior would put 2 % there; ``common practice``).
+PILED_SHARE = 0.2
+
+
+def piled_at_bound(post, prior) -> str:
+    """'lower' / 'upper' when the posterior crowds a bound of the prior's range, else ''."""
+    if prior is None or not np.size(prior):
+        return ""
+    lo, hi = float(np.min(prior)), float(np.max(prior))
+    if not hi > lo:
+        return ""
+    edge = 0.02 * (hi - lo)
+    post = np.asarray(post, float)
+    if np.mean(post <= lo + edge) >= PILED_SHARE:
+        return "lower"
+    if np.mean(post >= hi - edge) >= PILED_SHARE:
+        return "upper"
+    return ""
 
 
 def probability_chart(table, *, fig=None, observed=None, title=None):
@@ -266,7 +322,7 @@ def probability_chart(table, *, fig=None, observed=None, title=None):
             ax.set_ylim(-0.02, 1.02)
             ax.set_xlabel("observed Vp (km/s)")
             if pr is not None:
-                ax.set_title(f"thermal prior: {pr}")
+                ax.set_title(f"thermal prior: {_readable(pr)}")
         axes[0].set_ylabel("posterior probability")
         fig.legend(loc="outside right center")
         if title:
@@ -274,50 +330,72 @@ def probability_chart(table, *, fig=None, observed=None, title=None):
     return fig
 
 
-def comparison_figure(probabilities, evidence=None, *, fig=None, title=None):
+#: |log10 B| below which evidence is "not worth more than a bare mention" (Kass & Raftery
+#: 1995, 2 ln B < 2, i.e. log10 B < 1 / ln 10 = 0.434).
+BARE_MENTION_LOG10 = 1.0 / np.log(10.0)
+
+
+def comparison_figure(probabilities, evidence=None, *, prior_probabilities=None, fig=None,
+                      title=None):
     """Interpretation probabilities under each thermal-state prior, and each prior's evidence.
 
     Parameters
     ----------
     probabilities : pandas.DataFrame
         Index: hypotheses; columns: thermal-state priors; values: posterior probabilities.
-        Optional prior probabilities as a second frame are not drawn.
     evidence : pandas.DataFrame, optional
         Index: thermal-state priors; columns ``log_evidence`` and ``log_evidence_error`` (natural
-        log). Drawn relative to the largest, as log10 of the evidence ratio.
+        log). Drawn relative to the largest, as log10 of the evidence ratio, with the band in
+        which the evidence is "not worth more than a bare mention" (Kass & Raftery 1995) and an
+        axis at least two log10 units wide, so that small differences look small.
+    prior_probabilities : pandas.DataFrame, optional
+        Same shape as ``probabilities``: each interpretation's prior probability under each
+        thermal-state prior, drawn as an outline bar beside the posterior's filled bar.
     """
     hyps = list(probabilities.index)
     priors = list(probabilities.columns)
     with style_context():
-        fig = _fig(fig, (7.6 if evidence is not None else 5.6, 3.6))
+        fig = _fig(fig, (8.4 if evidence is not None else 6.2, 3.8))
         if evidence is not None:
             ax, axe = fig.subplots(1, 2, width_ratios=(2.3, 1))
         else:
             ax, axe = fig.add_subplot(), None
         x = np.arange(len(hyps))
-        w = 0.8 / max(len(priors), 1)
+        per = 2 if prior_probabilities is not None else 1
+        w = 0.8 / max(len(priors) * per, 1)
         hatches = ("", "///", "..", "xx", "\\\\", "oo")
         for j, pr in enumerate(priors):
-            ax.bar(x + (j - (len(priors) - 1) / 2) * w, probabilities[pr].to_numpy(float), w,
-                   color=PALETTE[j % len(PALETTE)], hatch=hatches[j % len(hatches)],
-                   edgecolor="white", lw=0.5, label=str(pr))
+            c = PALETTE[j % len(PALETTE)]
+            off = (per * j - (per * len(priors) - 1) / 2) * w
+            if prior_probabilities is not None:
+                ax.bar(x + off, prior_probabilities.loc[hyps, pr].to_numpy(float), w,
+                       facecolor="none", edgecolor=c, lw=1.0, ls="--",
+                       label=f"{_readable(pr)}: prior")
+                off += w
+            ax.bar(x + off, probabilities[pr].to_numpy(float), w, color=c,
+                   hatch=hatches[j % len(hatches)], edgecolor="white", lw=0.5,
+                   label=f"{_readable(pr)}: posterior" if per == 2 else _readable(pr))
         ax.set_xticks(x, [str(h) for h in hyps], rotation=25, ha="right")
         ax.set_ylim(0, 1)
-        ax.set_ylabel("posterior probability")
-        ax.legend(title="thermal-state prior", loc="upper right")
+        ax.set_ylabel("probability")
+        ax.legend(title="thermal-state prior", loc="upper right", fontsize=7)
         if axe is not None:
             le = evidence.loc[priors, "log_evidence"].to_numpy(float)
             err = evidence.loc[priors, "log_evidence_error"].to_numpy(float)
             rel = (le - np.max(le)) / np.log(10.0)
             y = np.arange(len(priors))
+            axe.axvspan(-BARE_MENTION_LOG10, 0, color=PRIOR_GREY, alpha=0.2, lw=0,
+                        label="not worth more than\na bare mention")
             for j in range(len(priors)):
                 axe.errorbar(rel[j], y[j], xerr=err[j] / np.log(10.0), fmt=MARKERS[j % 8],
                              color=PALETTE[j % len(PALETTE)], capsize=3)
             axe.axvline(0, color="#000000", lw=0.6)
-            axe.set_yticks(y, [str(p) for p in priors])
+            axe.set_xlim(min(-2.0, float(np.min(rel)) - 0.3), 0.25)
+            axe.set_yticks(y, [_readable(p) for p in priors])
             axe.invert_yaxis()
             axe.set_xlabel("log10 evidence relative to best")
-            axe.set_title("evidence")
+            axe.set_title("evidence (Kass & Raftery 1995 scale)")
+            axe.legend(loc="lower left", fontsize=6.5)
         if title:
             fig.suptitle(title)
     return fig

@@ -62,6 +62,8 @@ _SHORT = {
     "melt_fraction": "melt frac.", "melt_aspect_ratio": "melt aspect", "serpentinization":
     "serpentinisation", "vp": "Vp (km/s)", "vs": "Vs (km/s)", "vp_vs": "Vp/Vs",
     "density": "ρ (g/cm³)", "ultramafic_fraction": "ultramafic frac.",
+    "melt_fraction_effective": "melt (effective)",
+    "serpentinization_effective": "serpentinis. (effective)",
 }
 
 

@@ -11,8 +11,80 @@ import csv
 import io
 import math
 import numbers
+import re
 
-__all__ = ["format_value", "to_csv", "to_markdown", "to_latex", "TABLE_FORMATS"]
+__all__ = ["format_value", "to_csv", "to_markdown", "to_latex", "TABLE_FORMATS", "UNITS",
+           "printable_summary", "printable_hypotheses"]
+
+#: Unit of each summarised quantity (rock and family fractions are volume fractions).
+UNITS = {
+    "temperature_c": "deg C", "solidus_c": "deg C", "porosity": "vol. fraction",
+    "aspect_ratio": "-", "melt_aspect_ratio": "-", "melt_fraction": "vol. fraction",
+    "melt_fraction_effective": "vol. fraction", "serpentinization": "fraction of ultramafic",
+    "serpentinization_effective": "fraction of ultramafic",
+    "serpentine_fraction": "vol. fraction", "vp": "km/s", "vs": "km/s", "vp_vs": "-",
+    "density": "g/cm^3",
+}
+
+
+#: Readable names of summarised quantities (others: underscores become spaces).
+READABLE = {"temperature_c": "temperature", "solidus_c": "solidus", "vp": "Vp", "vs": "Vs",
+            "vp_vs": "Vp/Vs", "serpentinization": "serpentinisation (latent)",
+            "melt_fraction": "melt fraction (latent)",
+            "serpentinization_effective": "serpentinisation (effective)",
+            "melt_fraction_effective": "melt fraction (effective)"}
+
+
+def _decimals(sd: float, sig: int = 2) -> int:
+    """Decimal places that give ``sd`` ``sig`` significant figures (at least 0)."""
+    if not (isinstance(sd, float) and math.isfinite(sd)) or sd <= 0:
+        return 3
+    return max(0, sig - 1 - int(math.floor(math.log10(sd))))
+
+
+def printable_summary(df):
+    """Posterior summary for a manuscript: a unit column, and every value of a row rounded to
+    the decimal place of two significant figures of its sd (mean, median, HDI alike);
+    R-hat to 3 decimals, ESS to an integer. Cells are strings; CSV keeps full precision."""
+    import pandas as pd
+
+    rows = []
+    for q, r in df.iterrows():
+        d = _decimals(float(r["sd"]))
+
+        def f(x, d=d):
+            return "" if not math.isfinite(float(x)) else f"{float(x):.{d}f}"
+
+        rows.append({"quantity": READABLE.get(str(q), str(q).replace("_", " ")),
+                     "unit": UNITS.get(str(q), "vol. fraction"),
+                     "mean": f(r["mean"]), "sd": f(r["sd"]), "median": f(r["median"]),
+                     "94 % HDI": f"[{f(r['hdi_low'])}, {f(r['hdi_high'])}]",
+                     "R-hat": "" if not math.isfinite(float(r["r_hat"]))
+                     else f"{float(r['r_hat']):.3f}",
+                     "ESS (bulk)": "" if not math.isfinite(float(r["ess_bulk"]))
+                     else f"{float(r['ess_bulk']):.0f}"})
+    return pd.DataFrame(rows).set_index("quantity")
+
+
+def printable_hypotheses(df):
+    """Interpretation table for a manuscript: probabilities to 3 decimals with their Monte Carlo
+    error, the Bayes factor to 3 significant figures with its bound, and the category."""
+    import pandas as pd
+
+    rows = []
+    for h, r in df.iterrows():
+        bf = float(r["bayes_factor"])
+        side = str(r.get("bayes_factor_bound", "="))
+        bf_s = "undefined" if not math.isfinite(bf) else (
+            ("" if side in ("=", "") else side + " ") + format_value(bf, 3))
+        rows.append({"interpretation": h,
+                     "prior probability": f"{float(r['prior_probability']):.3f}",
+                     "posterior probability": f"{float(r['posterior_probability']):.3f}",
+                     "MC error": f"{float(r['posterior_mcse']):.3f}",
+                     "Bayes factor": bf_s, "evidence": str(r["evidence_category"]),
+                     "data fit": str(r.get("data_fit", ""))})
+    return pd.DataFrame(rows).set_index("interpretation")
+
 
 
 def format_value(value, digits: int = 4) -> str:
@@ -90,15 +162,23 @@ _LATEX_SPECIAL = {
 }
 
 
+_TEX_UNITS = ((r"cm\textasciicircum{}3", r"cm$^{3}$"), ("deg C", r"$^{\circ}$C"))
+_NUMBERISH = re.compile(r"^[<>]?\s*\[?-?[0-9.e+-]*(, -?[0-9.e+-]*\])?$")
+
+
 def _tex(s: str) -> str:
-    return "".join(_LATEX_SPECIAL.get(c, c) for c in s)
+    out = "".join(_LATEX_SPECIAL.get(c, c) for c in s)
+    for a, b in _TEX_UNITS:
+        out = out.replace(a, b)
+    return out
 
 
 def to_latex(df, *, index: bool = True, digits: int = 4, caption: str | None = None,
              label: str | None = None) -> str:
     """A LaTeX ``table`` with a booktabs ``tabular`` (needs ``\\usepackage{booktabs}``)."""
     header, body = _rows(df, index)
-    numeric = [all(isinstance(row[j], numbers.Real) and not isinstance(row[j], bool)
+    numeric = [all((isinstance(row[j], numbers.Real) and not isinstance(row[j], bool))
+                   or (isinstance(row[j], str) and bool(_NUMBERISH.match(row[j])))
                    for row in body) if body else False for j in range(len(header))]
     spec = "".join("r" if n else "l" for n in numeric)
     lines = [r"\begin{table}", r"\centering"]

@@ -42,8 +42,11 @@ def test_same_seed_bit_identical_and_result_structure():
     assert idata.attrs["seed"] == 5
     assert list(a.hypotheses.columns) == ["prior_probability", "prior_mcse",
                                           "posterior_probability", "posterior_mcse",
-                                          "bayes_factor", "log10_bayes_factor",
-                                          "log10_bayes_factor_mcse", "evidence_category"]
+                                          "bayes_factor_bound", "bayes_factor",
+                                          "log10_bayes_factor", "log10_bayes_factor_mcse",
+                                          "evidence_category", "mixing_quantity",
+                                          "mixing_median", "mixing_q05", "mixing_q95",
+                                          "data_fit"]
     assert {"mean", "sd", "median", "hdi_low", "hdi_high", "r_hat", "ess_bulk"} <= set(
         a.summary.columns)
     assert a.settings["seed"] == 5 and a.settings["rocks"] == ["gabbro", "harzburgite"]
@@ -195,14 +198,16 @@ def test_student_t_likelihood_and_fixed_everything():
 
 
 def test_hypothesis_table_handles_certain_posteriors():
-    # a posterior probability of exactly 0 or 1 gives a Bayes factor of 0 or infinity, not an error
+    # a posterior probability of exactly 0 or 1 gives a bounded Bayes factor (never inf), and
+    # no Bayes factor where the prior gives no draws and neither does the posterior
     from bayescrust.inference.results import hypothesis_table
 
     t = hypothesis_table({"a": 0.3, "b": 0.7, "c": 0.0}, {"a": 1.0, "b": 0.0, "c": 0.0},
-                         {"a": 0.0, "b": 0.0, "c": 0.0})
-    assert t.loc["a", "bayes_factor"] == float("inf")
-    assert t.loc["b", "bayes_factor"] == 0.0
-    assert np.isnan(t.loc["c", "bayes_factor"])
+                         {"a": 0.0, "b": 0.0, "c": 0.0}, {"a": 1000, "b": 1000, "c": 1000},
+                         n_post=1000)
+    assert t.loc["a", "bayes_factor_bound"] == ">" and np.isfinite(t.loc["a", "bayes_factor"])
+    assert t.loc["b", "bayes_factor_bound"] == "<" and t.loc["b", "bayes_factor"] > 0
+    assert np.isnan(t.loc["c", "bayes_factor"]) and t.loc["c", "bayes_factor_bound"] == ""
 
 
 def test_bayes_factor_mcse_matches_replicate_spread():

@@ -11,7 +11,20 @@ import pytest
 import bayescrust as bc
 
 LOWER = dict(top_km=4.0, bottom_km=6.0, water_depth_km=3.0)
-KW = dict(rocks=("gabbro", "harzburgite"), seed=1)
+#: The gabbro-or-mantle readings these facts are about (a cut at half the volume and the
+#: temperatures of the facts), spelled out rather than taken from the package defaults,
+#: which partition the space with other cuts.
+_INF = float("inf")
+READINGS = {
+    "cold gabbro": {"gabbroic_fraction": (0.5, 1.0), "temperature_c": (-_INF, 600.0)},
+    "hot mantle": {"ultramafic_fraction": (0.5, 1.0), "temperature_c": (900.0, _INF)},
+    "cold mantle": {"ultramafic_fraction": (0.5, 1.0), "temperature_c": (-_INF, 600.0),
+                    "serpentinization_effective": (0.0, 0.1)},
+    "serpentinised mantle": {"ultramafic_fraction": (0.5, 1.0),
+                             "serpentinization_effective": (0.1, 1.0)},
+    "melt present": {"melt_fraction_effective": (0.005, 1.0)},
+}
+KW = dict(rocks=("gabbro", "harzburgite"), hypotheses=READINGS, seed=1)
 
 
 def _p(res, *names):

@@ -24,7 +24,9 @@ def idata():
             "melt_fraction": np.zeros((n_chain, n_draw)),
             "vp": rng.normal(7.1, 0.1, (n_chain, n_draw))}
     prior = {k: rng.permutation(v.ravel()).reshape(1, -1) for k, v in post.items()}
-    return az.from_dict(posterior=post, prior=prior, observed_data={"vp": np.array([7.1])})
+    from bayescrust.inference.results import _from_dict  # arviz 0.2x and 1.x alike
+
+    return _from_dict(az, posterior=post, prior=prior, observed_data={"vp": np.array([7.1])})
 
 
 @pytest.fixture

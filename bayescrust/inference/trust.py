@@ -1,0 +1,184 @@
+"""How far a layer's answer can be trusted: posterior-predictive check, the one convergence rule,
+draw-count bounds on probabilities (for Bayes factors) and the mixing fraction within each class.
+
+These read posterior draws; none recomputes the forward model.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import special
+
+__all__ = ["MisfitWarning", "PPC_ALPHA", "RHAT_MAX", "EXACT_MIN_ESS", "predictive_check",
+           "misfit_message", "convergence_verdict", "rule_of_three", "class_mixing",
+           "ensemble_rhat", "RHAT_GROUPS"]
+
+#: Two-sided posterior-predictive p-value below which an observable is flagged as misfit.
+#: 0.01 corresponds to a residual of ~2.6 predictive standard deviations for a Gaussian
+#: (Gelman, Meng & Stern 1996, Statistica Sinica 6, 733: posterior predictive p-values;
+#: the 0.01 level is ``common practice``).
+PPC_ALPHA = 0.01
+
+#: The one convergence rule on R-hat: every summarised quantity must have rank-normalised
+#: split R-hat below 1.01 (Vehtari, Gelman, Simpson, Carpenter & Buerkner 2021, Bayesian
+#: Analysis 16, 667, section 4: "use the sample only if R-hat < 1.01").
+RHAT_MAX = 1.01
+
+#: Exact reference: importance effective size needed to call the result resolved
+#: (the same 500 as the ConvergenceWarning of :func:`bayescrust.exact_layer`).
+EXACT_MIN_ESS = 500.0
+
+_LABEL = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density"}
+
+
+def predictive_check(model, q: dict, *, alpha: float = PPC_ALPHA) -> dict:
+    """Posterior-predictive check of every observable of a layer.
+
+    For posterior draws ``theta_i`` with predictions ``m_i`` and likelihood scales ``s_i``
+    (measurement and model error in quadrature), a replicate is ``y_rep ~ L(. | m_i, s_i)``.
+    Per observable it returns
+
+    - ``p_value``: two-sided posterior-predictive p-value ``2 min(P(y_rep <= y), P(y_rep >= y))``
+      (Gelman, Meng & Stern 1996), computed without simulation as the posterior mean of the
+      likelihood's CDF at the observed value;
+    - ``z``: standardised residual ``(y - E[y_rep]) / sd(y_rep)`` with
+      ``var(y_rep) = var(m) + E[s^2]`` (``E[s^2] nu / (nu - 2)`` for the Student-t);
+    - the predictive mean and sd.
+
+    ``misfit`` is True when any observable has ``p_value < alpha`` (:data:`PPC_ALPHA`): the data
+    sit in the tail of what the model, fitted to them, can produce.
+
+    Parameters
+    ----------
+    model : LayerModel
+    q : dict
+        Posterior quantities (flat arrays, one entry per draw) holding the predictions.
+    alpha : float
+        Flagging threshold on the two-sided p-value.
+
+    Returns
+    -------
+    dict
+        ``{"alpha", "misfit", "flagged": [names], "observables": {name: {...}}}``.
+    """
+    obs = {}
+    for k, (y, _sd) in model.observed.items():
+        m = np.asarray(q[k], float).ravel()
+        m = m[np.isfinite(m)]
+        s = model.total_sigma(k, m)
+        z_i = (y - m) / s
+        if model.likelihood == "gaussian":
+            cdf = special.ndtr(z_i)
+            var_noise = float(np.mean(s * s))
+        else:
+            nu = float(model.nu)
+            from scipy import stats
+
+            cdf = stats.t.cdf(z_i, nu)
+            var_noise = float(np.mean(s * s)) * (nu / (nu - 2.0) if nu > 2 else math.inf)
+        p_le = float(np.mean(cdf)) if m.size else math.nan
+        p = min(1.0, 2.0 * min(p_le, 1.0 - p_le))
+        mean = float(np.mean(m)) if m.size else math.nan
+        sd = math.sqrt(float(np.var(m)) + var_noise) if m.size else math.nan
+        obs[k] = {"observed": float(y), "predicted_mean": mean, "predicted_sd": sd,
+                  "z": (float(y) - mean) / sd if sd > 0 else math.nan, "p_value": p}
+    flagged = [k for k, v in obs.items() if not v["p_value"] >= alpha]
+    return {"alpha": float(alpha), "misfit": bool(flagged), "flagged": flagged,
+            "observables": obs}
+
+
+def misfit_message(check: dict) -> str:
+    """One-line warning text for a flagged check ('' when the data fit)."""
+    if not check.get("misfit"):
+        return ""
+    parts = []
+    for k in check["flagged"]:
+        v = check["observables"][k]
+        parts.append(f"{_LABEL.get(k, k)} observed {v['observed']:.3g}, predicted "
+                     f"{v['predicted_mean']:.3g} +- {v['predicted_sd']:.2g} "
+                     f"(z = {v['z']:+.1f}, p = {v['p_value']:.2g})")
+    return ("DATA MISFIT: the model cannot reproduce the data (posterior-predictive p < "
+            f"{check['alpha']:g}): " + "; ".join(parts)
+            + ". The probabilities are conditional on a model that does not fit; treat them "
+            "with caution.")
+
+
+def convergence_verdict(summary, *, sampler_converged: bool, method: str,
+                        importance_ess: float | None = None, parameters=None) -> dict:
+    """The one convergence rule, applied to every result.
+
+    MCMC: the sampler's own stopping rule was met (>= ``tau_factor`` autocorrelation times,
+    stable tau, ESS >= ``min_ess``) **and** every finite R-hat of ``summary`` (the one the user
+    sees, computed by :func:`ensemble_rhat`; or only the rows named in ``parameters``) is below
+    :data:`RHAT_MAX`. Exact reference: importance effective size >= :data:`EXACT_MIN_ESS`.
+
+    Returns ``{"converged", "rule", "max_r_hat", "worst"}``.
+    """
+    if method == "exact":
+        ok = importance_ess is not None and importance_ess >= EXACT_MIN_ESS
+        return {"converged": bool(ok), "max_r_hat": math.nan, "worst": None,
+                "rule": f"importance effective size >= {EXACT_MIN_ESS:g}"}
+    r = summary["r_hat"].astype(float)
+    if parameters is not None:
+        r = r[[k for k in r.index if k in set(parameters)]]
+    r = r[np.isfinite(r)]
+    worst = str(r.idxmax()) if len(r) else None
+    max_r = float(r.max()) if len(r) else math.nan
+    ok = bool(sampler_converged) and (not len(r) or max_r < RHAT_MAX)
+    return {"converged": ok, "max_r_hat": max_r, "worst": worst,
+            "rule": f"sampler stopping rule met and every R-hat < {RHAT_MAX:g}"}
+
+
+def rule_of_three(n: float) -> float:
+    """Upper 95 % bound ``3 / n`` on a probability seen in none of ``n`` independent draws
+    (Hanley & Lippman-Hand 1983, JAMA 249, 1743), capped at 0.5."""
+    return min(0.5, 3.0 / max(float(n), 1.0))
+
+
+def class_mixing(ind: dict, q: dict, quantity: str) -> dict:
+    """Median and 5-95 % range of ``quantity`` among the posterior draws of each class.
+
+    ``ind`` is ``{class: boolean array}``; returns ``{class: (median, q05, q95)}`` (NaN for a
+    class without draws).
+    """
+    x = np.asarray(q[quantity], float).ravel()
+    out = {}
+    for name, m in ind.items():
+        sel = x[np.asarray(m, bool).ravel()]
+        if sel.size:
+            lo, med, hi = np.quantile(sel, [0.05, 0.5, 0.95])
+            out[name] = (float(med), float(lo), float(hi))
+        else:
+            out[name] = (math.nan, math.nan, math.nan)
+    return out
+
+
+class MisfitWarning(UserWarning):
+    """The data sit in the tail of the posterior predictive: the model does not fit them."""
+
+
+#: Walker groups that play the part of chains in R-hat for an ensemble sampler.
+RHAT_GROUPS = 4
+
+
+def ensemble_rhat(arr, n_groups: int = RHAT_GROUPS) -> float:
+    """Rank-normalised split R-hat (Vehtari et al. 2021) of an ensemble run, shape (walker, draw).
+
+    Walkers of an affine-invariant or DE ensemble are not independent chains, and each is short
+    (tens of autocorrelation times), so R-hat over walkers is biased upwards by roughly
+    ``tau / n_draws`` even for a converged run. Here walker ``w`` joins group ``w mod n_groups``
+    and each group's draws are interleaved in time order (draw ``t`` of every walker of the group
+    before draw ``t + 1``): split R-hat then compares the first and second halves of the run and
+    the groups against each other, each chain being as long as the whole group. With fewer
+    walkers than ``2 n_groups`` the walkers are used as chains.
+    """
+    import arviz as az
+
+    a = np.asarray(arr, float)
+    nw, nd = a.shape
+    if nw >= 2 * n_groups:
+        k = nw // n_groups
+        a = a[: k * n_groups].reshape(k, n_groups, nd).transpose(1, 2, 0).reshape(n_groups, -1)
+    return float(az.rhat(a))

@@ -1,0 +1,153 @@
+"""Command line: warnings a reader must see, defaults shown, and the friction items of issue 9.
+
+The study files are made-up inputs; the checks are structural (messages, files, exit codes) or
+follow from physical facts named beside them.
+"""
+
+import os
+import stat
+import textwrap
+import tomllib
+
+import pytest
+
+from bayescrust.cli import main
+
+#: Vp/Vs 1.30 (Poisson's ratio -0.2): no crustal or mantle rock comes close (Christensen 1996,
+#: JGR 101, 3139: Poisson's ratio 0.25-0.35 for basalt, gabbro and peridotite; from memory).
+MISFIT_STUDY = textwrap.dedent("""\
+    title = "misfit (made-up numbers)"
+    water_depth_km = 3.4
+    [sampler]
+    method = "exact"
+    exact_points = 4096
+    [[layers]]
+    name = "deep"
+    top_km = 5.5
+    bottom_km = 6.5
+    vp = [7.0, 0.05]
+    vs = [5.38, 0.05]
+    """)
+
+
+@pytest.fixture
+def misfit_study(tmp_path):
+    p = tmp_path / "misfit.toml"
+    p.write_text(MISFIT_STUDY, encoding="utf-8")
+    return p
+
+
+def test_misfit_is_flagged_in_cli_output_report_and_tables(misfit_study, tmp_path, capsys):
+    out = tmp_path / "out"
+    assert main(["invert", str(misfit_study), "--out", str(out), "--no-figures"]) == 0
+    err = capsys.readouterr().err
+    assert "DATA MISFIT" in err
+    report = (out / "report.md").read_text()
+    assert "Warning: data misfit" in report and "MISFIT" in report
+    assert "Definitions" in report and "mixed / transition" in report
+    hyp = (out / "layers" / "deep" / "hypotheses.csv").read_text()
+    assert "MISFIT" in hyp
+
+
+def test_defaults_depend_on_depth_and_partition(misfit_study, tmp_path):
+    # at 6 km below the seafloor (mid-depth) no basalt is offered (common practice: Layer 2
+    # basalts lie in the upper ~1.5-2 km); the default classes sum to one
+    out = tmp_path / "out"
+    assert main(["invert", str(misfit_study), "--out", str(out), "--no-figures", "-q"]) == 0
+    run = tomllib.loads((out / "run.toml").read_text())
+    assert "basalt" not in run["layers"][0]["rocks"]
+    assert "Posterior probabilities sum to 1.000" in (out / "report.md").read_text()
+
+
+def test_check_and_run_toml_list_every_default(misfit_study, tmp_path, capsys):
+    assert main(["check", str(misfit_study)]) == 0
+    text = capsys.readouterr().out
+    data = tomllib.loads(text)
+    used = data["run"]["defaults_used"]["deep"]
+    for key in ("priors", "hypotheses", "temperature_prior", "sampler", "forward",
+                "model_error"):
+        assert key in used, key
+    assert used["forward"]["mixing"] and used["sampler"]["n_points"] == 4096
+    out = tmp_path / "out"
+    assert main(["invert", str(misfit_study), "--out", str(out), "--no-figures", "-q"]) == 0
+    run = tomllib.loads((out / "run.toml").read_text())
+    assert "hypotheses" in run["run"]["defaults_used"]["deep"]
+
+
+def test_negative_seed_is_bad_input(misfit_study, tmp_path):
+    assert main(["invert", str(misfit_study), "--out", str(tmp_path / "o"), "--seed", "-1"]) == 2
+    assert not (tmp_path / "o").exists()
+
+
+def test_output_folder_mode_follows_umask(misfit_study, tmp_path):
+    out = tmp_path / "out"
+    old = os.umask(0o022)
+    try:
+        assert main(["invert", str(misfit_study), "--out", str(out), "--no-figures", "-q"]) == 0
+    finally:
+        os.umask(old)
+    assert stat.S_IMODE(out.stat().st_mode) == 0o755
+
+
+def test_failed_overwrite_leaves_no_hidden_folders(misfit_study, tmp_path, monkeypatch):
+    from pathlib import Path
+
+    out = tmp_path / "out"
+    assert main(["invert", str(misfit_study), "--out", str(out), "--no-figures", "-q"]) == 0
+    real = Path.rename
+
+    def fail_on_partial(self, target):
+        if ".partial-" in self.name:
+            raise OSError(13, "Permission denied")
+        return real(self, target)
+
+    monkeypatch.setattr(Path, "rename", fail_on_partial)
+    rc = main(["invert", str(misfit_study), "--out", str(out), "--no-figures", "-q",
+               "--overwrite"])
+    assert rc == 2
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["misfit.toml", "out"]
+    assert (out / "report.md").exists()  # previous results kept
+
+
+def test_vs_too_close_to_vp_is_rejected_by_check(tmp_path, capsys):
+    # Vp/Vs must be >= sqrt(4/3) for a non-negative bulk modulus (a consequence of
+    # K = rho (Vp^2 - 4/3 Vs^2); Mavko, Mukerji & Dvorkin 2009, The Rock Physics Handbook)
+    p = tmp_path / "bad.toml"
+    p.write_text(MISFIT_STUDY.replace("vs = [5.38, 0.05]", "vs = [6.2, 0.05]"))
+    assert main(["check", str(p)]) == 2
+    err = capsys.readouterr().err
+    assert "layers[0].vs" in err and "sqrt(4/3)" in err
+
+
+def test_subcommand_help_has_description_and_required_options(capsys):
+    assert main(["invert", "--help"]) == 0
+    text = capsys.readouterr().out
+    assert "Invert every layer" in text
+    assert "required options:\n  --out DIR" in text
+
+
+def test_interrupt_prints_one_clean_line(misfit_study, tmp_path, monkeypatch, capsys):
+    import signal
+
+    import bayescrust.inference.api as api
+
+    def interrupted(*a, **k):
+        # a library that prints on the way out, as emcee does for an exception in log_prob
+        import time
+        import traceback
+
+        try:
+            os.kill(os.getpid(), signal.SIGINT)
+            time.sleep(1)
+        except KeyboardInterrupt:
+            print("emcee: Exception while calling your likelihood function:")
+            traceback.print_exc()
+            raise
+
+    monkeypatch.setattr(api, "exact_layer", interrupted)
+    rc = main(["invert", str(misfit_study), "--out", str(tmp_path / "o"), "--no-figures", "-q"])
+    cap = capsys.readouterr()
+    assert rc == 130
+    assert cap.err.strip() == "bayescrust: interrupted; no output written"
+    assert "Traceback" not in cap.out + cap.err
+    assert not (tmp_path / "o").exists()

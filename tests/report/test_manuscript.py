@@ -1,0 +1,99 @@
+"""Manuscript-ready outputs: tables, references, methods paragraph, figure fixes (issue 9)."""
+
+import re
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import bayescrust as bc
+from bayescrust.report.citations import bibtex, methods_paragraph, references
+from bayescrust.report.tables import printable_summary, to_latex
+
+
+@pytest.fixture(scope="module")
+def res():
+    return bc.exact_layer(bc.Layer("lower crust", vp=(7.1, 0.1), top_km=4, bottom_km=6,
+                                   water_depth_km=3), rocks=("gabbro", "harzburgite"), seed=1,
+                          n_points=4096)
+
+
+def test_summary_has_units_and_sd_based_rounding(res):
+    t = printable_summary(res.summary)
+    assert t.loc["temperature", "unit"] == "deg C" and t.loc["Vp", "unit"] == "km/s"
+    assert t.loc["density", "unit"] == "g/cm^3"
+    # mean and sd of a row share their decimal places (two significant figures of the sd)
+    for _, r in t.iterrows():
+        if r["sd"] and float(r["sd"]) > 0:
+            dec = lambda s: len(s.split(".")[1]) if "." in s else 0  # noqa: E731
+            assert dec(r["mean"]) == dec(r["sd"])
+            digits = r["sd"].replace(".", "").lstrip("0")
+            assert len(digits) == 2 or "." not in r["sd"]  # 2 significant figures (or integer)
+    tex = to_latex(t, caption="c", label="tab:summary:lower_crust")
+    assert r"g/cm$^{3}$" in tex and r"$^{\circ}$C" in tex and r"\toprule" in tex
+
+
+def test_latex_labels_unique_per_layer(tmp_path):
+    from bayescrust.cli import main
+
+    study = tmp_path / "s.toml"
+    study.write_text('water_depth_km = 3.0\n[sampler]\nmethod = "exact"\nexact_points = 1024\n'
+                     '[[layers]]\nname = "a"\ntop_km = 4.0\nbottom_km = 6.0\nvp = [7.1, 0.1]\n'
+                     '[[layers]]\nname = "b"\ntop_km = 6.0\nbottom_km = 7.0\nvp = [7.8, 0.1]\n')
+    out = tmp_path / "out"
+    assert main(["invert", str(study), "--out", str(out), "--no-figures", "-q"]) == 0
+    labels = re.findall(r"\\label\{([^}]*)\}", "".join(
+        p.read_text() for p in out.rglob("*.tex")))
+    assert len(labels) == len(set(labels)) == 6
+    assert (out / "methods.md").is_file() and (out / "references.bib").is_file()
+
+
+def test_references_are_clean_and_bibtex_parses(res):
+    refs = references(res)
+    assert any(r.startswith("Hill, R. (1952)") for r in refs)
+    assert any("emcee" in r for r in refs)
+    for r in refs:  # no internal notes in a reference list
+        assert not re.search(r"placeholder|low confidence|not re-read|abstract", r), r
+    bib = bibtex(refs)
+    assert bib.count("@") == len(refs)
+    keys = re.findall(r"@\w+\{([^,]+),", bib)
+    assert len(keys) == len(set(keys))
+
+
+def test_methods_paragraph_names_model_priors_sampler_and_checks(res):
+    text = methods_paragraph({"lower crust": res})
+    for word in ("Hill", "prior", "Kass & Raftery", "posterior-predictive", "Sobol"):
+        assert word in text, word
+
+
+def test_corner_shows_effective_not_latent(res):
+    from bayescrust.report.figures import effective_names, free_parameters
+
+    names = effective_names(res.idata, free_parameters(res.idata))
+    assert "melt_fraction" not in names and "serpentinization" not in names
+
+
+def test_piled_at_bound_flags_a_posterior_against_the_prior_edge():
+    from bayescrust.report.figures import piled_at_bound
+
+    rng = np.random.default_rng(0)
+    prior = rng.uniform(0, 1, 4000)
+    assert piled_at_bound(rng.uniform(0, 0.01, 1000), prior) == "lower"
+    assert piled_at_bound(rng.normal(0.5, 0.1, 1000), prior) == ""
+
+
+def test_comparison_figure_draws_priors_and_the_evidence_scale():
+    from bayescrust.report.figures import BARE_MENTION_LOG10, comparison_figure
+
+    post = pd.DataFrame({"uniform": [0.6, 0.4], "hot": [0.2, 0.8]}, index=["a", "b"])
+    prior = pd.DataFrame({"uniform": [0.5, 0.5], "hot": [0.5, 0.5]}, index=["a", "b"])
+    ev = pd.DataFrame({"log_evidence": [-3.0, -3.2], "log_evidence_error": [0.01, 0.01]},
+                      index=["uniform", "hot"])
+    fig = comparison_figure(post, ev, prior_probabilities=prior)
+    ax, axe = fig.axes[:2]
+    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert "uniform: prior" in labels and "hot: posterior" in labels
+    lo, hi = axe.get_xlim()
+    assert hi - lo >= 2.0  # a 0.1 difference in log10 evidence does not fill the axis
+    # Kass & Raftery (1995): 2 ln B < 2 is "not worth more than a bare mention"
+    assert BARE_MENTION_LOG10 == pytest.approx(2 / (2 * np.log(10)))
