@@ -24,7 +24,7 @@ def _tval(v) -> str:
             return "nan"
         if math.isinf(v):
             return "inf" if v > 0 else "-inf"
-        return repr(v)
+        return repr(float(v))  # numpy floats are floats but repr as np.float64(...)
     if isinstance(v, str):
         esc = v.replace("\\", "\\\\").replace('"', '\\"').replace("\n", "\\n")
         return f'"{esc}"'

@@ -76,6 +76,23 @@ DERIVED_QUANTITIES = (
 #: docs/physics.md). It replaces the former 1 % (Vp, Vs, Vp/Vs) / 0.5 % (density) guess.
 DEFAULT_MODEL_ERROR = dict(_LAB_MODEL_ERROR)
 
+
+def _error_correlation(me: dict) -> float:
+    """Correlation of the forward model's fractional Vp and Vs errors.
+
+    The laboratory calibration measures the model's fractional error in Vp (a), Vs (b) and
+    Vp/Vs (c) separately; since ln(Vp/Vs) = ln Vp - ln Vs, c^2 = a^2 + b^2 - 2 rho a b, so
+    rho = (a^2 + b^2 - c^2) / (2 a b) [computed]. Treating the Vp and Vs errors as independent
+    would give Vp/Vs an error of sqrt(a^2 + b^2), wider than measured, and let the model "fit" Vp/Vs
+    pairs no rock produces.
+    """
+    a, b, c = me["vp"], me["vs"], me["vp_vs"]
+    return float(np.clip((a * a + b * b - c * c) / (2 * a * b), 0.0, 0.95))
+
+
+#: Correlation of the default (calibrated) Vp and Vs model errors.
+MODEL_ERROR_CORRELATION = _error_correlation(DEFAULT_MODEL_ERROR)
+
 # Rock families used by derived quantities, default hypotheses and the solidus mix.
 _GABBROIC = ("gabbro", "altered_gabbro", "olivine_gabbro", "troctolite")
 _BASALTIC = ("basalt", "diabase")
@@ -276,8 +293,8 @@ class LayerModel:
         pressure = layer.resolved_pressure_gpa()
         # pore water in hydrostatic contact with the ocean (common practice, physics-reference
         # sec. 8): effective pressure = confining - pore pressure closes thin cracks (Walsh 1965)
-        pore_pressure = min(pressure, thermal.hydrostatic_pore_pressure_gpa(
-            layer.water_depth_km + layer.mid_depth_km))
+        pore_pressure = float(min(pressure, thermal.hydrostatic_pore_pressure_gpa(
+            layer.water_depth_km + layer.mid_depth_km)))
         per_sol = float(thermal.peridotite_solidus_c(pressure))
         gab_sol = float(thermal.gabbro_solidus_c(pressure))
         serp_kind = getattr(fm, "serpentine", "lizardite")
@@ -487,7 +504,16 @@ class LayerModel:
         out = {}
         for k, y in obs.items():
             sig = self.total_sigma(k, pred[k])
-            z = (np.asarray(y) - pred[k]) / sig
+            mean = pred[k]
+            if k == "vs" and self._correlated(obs):
+                # Gaussian model errors of Vp and Vs correlated (MODEL_ERROR_CORRELATION): the
+                # joint density factorises as p(vp) p(vs | vp), so the Vs term is conditional
+                c = (MODEL_ERROR_CORRELATION * self.model_error["vp"] * self.model_error["vs"]
+                     * np.asarray(pred["vp"]) * np.asarray(pred["vs"]))
+                sig_p = self.total_sigma("vp", pred["vp"])
+                mean = pred["vs"] + c / sig_p**2 * (np.asarray(obs["vp"]) - pred["vp"])
+                sig = np.sqrt(np.maximum(sig * sig - (c / sig_p) ** 2, 1e-300))
+            z = (np.asarray(y) - mean) / sig
             if self.likelihood == "gaussian":
                 ll = -0.5 * z * z - np.log(sig) - 0.5 * math.log(2 * math.pi)
             else:
@@ -497,6 +523,12 @@ class LayerModel:
                 ll = c - 0.5 * (nu + 1) * np.log1p(z * z / nu)
             out[k] = np.where(np.isfinite(ll), ll, -np.inf)
         return out
+
+    def _correlated(self, obs) -> bool:
+        """Whether the Vs term is conditional on Vp (Gaussian likelihood, both observed, no
+        separate Vp/Vs datum); Student-t errors are treated as independent."""
+        return (self.likelihood == "gaussian" and "vp" in obs and "vs" in obs
+                and "vp_vs" not in obs and MODEL_ERROR_CORRELATION > 0.0)
 
     def log_prob(self, theta) -> np.ndarray:
         """Log posterior density (unnormalised) of sampled points (n, ndim), vectorised.

@@ -183,3 +183,23 @@ def test_converged_word_agrees_with_the_summary():
     assert res.converged == (bool(res.diagnostics["sampler_converged"])
                              and bool((r < RHAT_MAX).all()))
     assert "1.01" in res.diagnostics["convergence_rule"]
+
+
+def test_correlated_model_error_gives_the_calibrated_vp_vs_error():
+    # identity: with Vp and Vs model errors a, b correlated so that ln(Vp/Vs) has the calibrated
+    # error c (c^2 = a^2 + b^2 - 2 rho a b), the joint likelihood p(vp) p(vs | vp) must be a
+    # normalised density whose ln(Vp/Vs) spread is c to first order [computed]
+    from bayescrust.inference.model import DEFAULT_MODEL_ERROR
+
+    layer = bc.Layer("deep", vp=(7.0, 1e-4), vs=(3.9, 1e-4), **DEEP)
+    m = LayerModel.build(layer, rocks=("gabbro",))
+    pred = {"vp": np.array(7.0), "vs": np.array(3.9)}
+    yp, ys = np.meshgrid(np.linspace(6.0, 8.0, 801), np.linspace(3.3, 4.5, 801), indexing="ij")
+    ll = m.log_likelihood_terms(pred, {"vp": yp, "vs": ys})
+    dens = np.exp(ll["vp"] + ll["vs"])
+    cell = (2.0 / 800) * (1.2 / 800)
+    assert dens.sum() * cell == pytest.approx(1.0, abs=1e-3)  # normalised
+    lr = np.log(yp / ys)
+    mu = np.sum(dens * lr) * cell
+    sd = math.sqrt(np.sum(dens * (lr - mu) ** 2) * cell)
+    assert sd == pytest.approx(DEFAULT_MODEL_ERROR["vp_vs"], rel=0.03)  # first-order propagation
