@@ -14,6 +14,11 @@ Anderson 2003, An Introduction to Multivariate Statistical Analysis, Thm. 2.5.1)
 mean ``pred + tau^2 / (s0^2 + tau^2) (y0 - pred)``, variance
 ``s^2 + tau^2 - tau^4 / (s0^2 + tau^2)``. With the Student-t likelihood the same location and
 scale are used with a t kernel (an approximation, stated in the docs).
+
+When the candidate is Vp or Vs and the layer observed the other one (Gaussian likelihood, no
+Vp/Vs datum), the two forward-model errors are correlated as in the layer's own likelihood
+(:data:`bayescrust.inference.model.MODEL_ERROR_CORRELATION`), and the new datum's factor is the
+conditional density given the other datum (the same bivariate-normal conditional).
 """
 
 from __future__ import annotations
@@ -26,10 +31,21 @@ from scipy import special
 __all__ = ["datum_location_scale", "datum_log_likelihood", "simulate_datum"]
 
 
-def datum_location_scale(pred, *, sigma, model_error, existing=None):
-    """Location and scale (arrays like ``pred``) of the new datum given each state."""
+def datum_location_scale(pred, *, sigma, model_error, existing=None, partner=None):
+    """Location and scale (arrays like ``pred``) of the new datum given each state.
+
+    ``partner`` = ``(pred_other, y_other, sigma_other, model_error_other, rho)`` conditions the
+    datum on an observed other quantity whose model error is correlated (``rho``) with its own.
+    """
     pred = np.asarray(pred, float)
     tau2 = (model_error * pred) ** 2
+    if existing is None and partner is not None:
+        p_o, y_o, s_o, me_o, rho = partner
+        p_o = np.asarray(p_o, float)
+        c = rho * model_error * me_o * pred * p_o
+        var_o = s_o * s_o + (me_o * p_o) ** 2
+        loc = pred + c / var_o * (y_o - p_o)
+        return loc, np.sqrt(np.maximum(sigma * sigma + tau2 - c * c / var_o, 1e-300))
     if existing is None:
         return pred, np.sqrt(sigma * sigma + tau2)
     y0, s0 = existing

@@ -197,7 +197,17 @@ def _loc_scale(ens, cand, q):
     existing = ens.existing.get(obs)
     if existing is not None:  # the forward-model error is shared with the existing datum
         me = ens.model_error.get(obs, me)
-    return datum_location_scale(q[obs], sigma=cand.sigma, model_error=me, existing=existing)
+    partner = None
+    other = {"vp": "vs", "vs": "vp"}.get(obs)
+    if (existing is None and other in ens.existing and other in q
+            and "vp_vs" not in ens.existing and ens.likelihood == "gaussian"):
+        # Vp and Vs model errors are correlated, as in the layer's own likelihood
+        from ..inference.model import MODEL_ERROR_CORRELATION
+
+        y_o, s_o = ens.existing[other]
+        partner = (q[other], y_o, s_o, ens.model_error.get(other, 0.0), MODEL_ERROR_CORRELATION)
+    return datum_location_scale(q[obs], sigma=cand.sigma, model_error=me, existing=existing,
+                                partner=partner)
 
 
 def update(ensemble, candidate, values):

@@ -89,7 +89,14 @@ def test_new_datum_likelihood_is_the_layer_likelihood(likelihood):
     model, _ = _setup(lay, ROCKS, PRIORS, None, None, likelihood, 5.0, None)
     pred = {"vp": np.array([7.0, 7.3]), "vs": np.array([3.8, 4.1])}
     ref = model.log_likelihood_terms(pred)["vs"]
-    loc, scale = datum_location_scale(pred["vs"], sigma=0.1, model_error=model.model_error["vs"])
+    partner = None
+    if likelihood == "gaussian":  # the layer's Vp and Vs model errors are correlated
+        from bayescrust.inference.model import MODEL_ERROR_CORRELATION
+
+        partner = (pred["vp"], *model.observed["vp"], model.model_error["vp"],
+                   MODEL_ERROR_CORRELATION)
+    loc, scale = datum_location_scale(pred["vs"], sigma=0.1, model_error=model.model_error["vs"],
+                                      partner=partner)
     got = datum_log_likelihood(3.9, loc, scale, likelihood=likelihood, nu=5.0)
     np.testing.assert_allclose(got, ref, rtol=1e-12)
 
