@@ -108,7 +108,8 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
              "n_chunks_computed": info["n_chunks_computed"], "fingerprint": info["fingerprint"],
              "zones": "; ".join(f"{z.name}: {z.top_km:g}-{z.bottom_km:g} km below seafloor, "
                                 f"rocks {', '.join(z.rocks)}" for z in zones),
-             "n_nodes": n, "n_masked": int(n - order.size),
+             "n_nodes": n, "n_masked": int(n - order.size), "depth_unit": grid.depth_unit,
+             "depth_reference": grid.depth_reference,
              "n_refined": int(np.sum(q == QUALITY_FLAGS["refined"])),
              "n_poor": int(np.sum(q == QUALITY_FLAGS["poor"]))}
     return xr.Dataset(data, coords=coords, attrs=attrs)

@@ -268,7 +268,7 @@ def _zkey(k):
 
 # ----------------------------------------------------------------------------- driver
 def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0, refine=True,
-             n_refine=2**14, n_table=129, table_tol=0.001, chunk_size=50_000, path="auto",
+             n_refine=None, n_table=129, table_tol=0.001, chunk_size=50_000, path="auto",
              store=None, scheduler=None, n_workers=None, progress=False, model_error=None,
              likelihood="gaussian", nu=4.0, forward=None):
     """Probability maps of a velocity grid by the per-level fast path.
@@ -287,8 +287,8 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
         Thickness of the depth levels sharing one design.
     min_ess : float
         Quality threshold on each node's importance effective sample size; nodes below it are
-        refined (``refine=True``: a second, adaptive stage of ``n_refine`` points from the
-        node's own stream) and flagged ``poor`` if still below.
+        refined (``refine=True``: a second, adaptive stage of ``n_refine`` points, default
+        ``n_points``, from the node's own stream) and flagged ``poor`` if still below.
     n_table, table_tol : int, float
         Table size of the tabulated path; nodes whose table error exceeds ``table_tol`` are
         weighed directly.
@@ -321,7 +321,8 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
                                      ("nu", nu), ("forward", forward)) if v is not None)
     run = GridRun(seed=int(seed) if isinstance(seed, (int, np.integer)) else seed,
                   n_points=int(n_points), level_km=float(level_km),
-                  min_ess=float(min_ess), refine=bool(refine), n_refine=int(n_refine),
+                  min_ess=float(min_ess), refine=bool(refine),
+                  n_refine=int(n_points if n_refine is None else n_refine),
                   n_table=int(n_table), table_tol=float(table_tol), chunk_size=int(chunk_size),
                   path=path, model_options=opts)
     zones = tuple(zones)

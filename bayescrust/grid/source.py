@@ -116,6 +116,8 @@ class GridData:
     source: str
     seafloor_km: np.ndarray
     depth_dim: str
+    depth_unit: str = "km"
+    depth_reference: str = "sea_level"
 
     @property
     def n_nodes(self) -> int:
@@ -261,7 +263,8 @@ def grid_from_dataset(ds, mapping: GridMapping, *, source="<dataset>") -> GridDa
                     water_depth_km=sf_nodes.ravel().astype(float), values=values,
                     sigmas=sigmas, valid=valid, column=column, distance=dist,
                     distance_name=dname, source=source, seafloor_km=sf.ravel(),
-                    depth_dim=m.depth)
+                    depth_dim=m.depth, depth_unit=m.depth_unit,
+                    depth_reference=m.depth_reference)
 
 
 def grid_from_csv(path, mapping: GridMapping) -> GridData:
@@ -317,7 +320,8 @@ def grid_from_csv(path, mapping: GridMapping) -> GridData:
                     depth_km=np.where(np.isfinite(dbsf), dbsf, -1.0), water_depth_km=sf,
                     values=values, sigmas=sigmas, valid=valid, column=column.astype(int),
                     distance=ux.astype(float), distance_name=dname, source=str(path),
-                    seafloor_km=sf_col, depth_dim=mapping.depth)
+                    seafloor_km=sf_col, depth_dim=mapping.depth, depth_unit=mapping.depth_unit,
+                    depth_reference=mapping.depth_reference)
 
 
 def read_grid(path, mapping: GridMapping) -> GridData:
