@@ -42,32 +42,33 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
     shape, dims = grid.shape, grid.dims
     n = grid.n_nodes
 
-    def full(v, fill=np.nan, dtype=np.float32):
+
+    def full(key, fill=np.nan, dtype=np.float32):
         a = np.full(n, fill, dtype=dtype)
-        a[order] = v
+        a[order] = flat.pop(key)  # release each flat result once placed on the grid
         return a.reshape(shape)
 
     data = {}
     for h in hyp_names:
         name = variable_name(h)
-        data[name] = (dims, full(flat[f"p:{h}"]),
+        data[name] = (dims, full(f"p:{h}"),
                       {"long_name": f"posterior probability of '{h}'", "units": "1",
                        "interpretation": h})
-        data[f"{name}_mcse"] = (dims, full(flat[f"mcse:{h}"]),
+        data[f"{name}_mcse"] = (dims, full(f"mcse:{h}"),
                                 {"long_name": f"Monte Carlo standard error of {name}",
                                  "units": "1"})
     for q, unit in _UNITS.items():
         for s, long in _STAT_LONG.items():
-            data[f"{q}_{s}"] = (dims, full(flat[f"{q}:{s}"]),
+            data[f"{q}_{s}"] = (dims, full(f"{q}:{s}"),
                                 {"long_name": f"{long} of {q}", "units": unit})
-    data["importance_ess"] = (dims, full(flat["importance_ess"]),
+    data["importance_ess"] = (dims, full("importance_ess"),
                               {"long_name": "importance effective sample size (Kish)",
                                "units": "1"})
-    data["table_error"] = (dims, full(flat["table_error"]),
+    data["table_error"] = (dims, full("table_error"),
                            {"long_name": "largest probability error of the tabulated path",
                             "units": "1"})
     q = np.full(n, QUALITY_FLAGS["masked"], np.int8)
-    q[order] = flat["quality"].astype(np.int8)
+    q[order] = flat.pop("quality").astype(np.int8)
     data["quality"] = (dims, q.reshape(shape),
                        {"long_name": "quality flag of the fast path",
                         "flag_values": np.array(list(QUALITY_FLAGS.values()), np.int8),

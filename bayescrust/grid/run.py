@@ -117,6 +117,20 @@ def _design(spec, zone, observables, run):
     return entry
 
 
+_TABLES: OrderedDict = OrderedDict()
+
+
+def _table_cache(spec, run):
+    """A per-level dict in which the level's table is kept (for the chunks of one process)."""
+    key = (spec["zone"], spec["key"], run)
+    if key not in _TABLES:
+        _TABLES[key] = {}
+        while len(_TABLES) > _CACHE_SIZE:
+            _TABLES.popitem(last=False)
+    _TABLES.move_to_end(key)
+    return _TABLES[key]
+
+
 def run_chunk(task):
     """Results of one chunk: ``{key: float32 array}`` over the chunk's nodes (sorted order)."""
     run, zones, keys = task["run"], task["zones"], task["keys"]
@@ -131,7 +145,8 @@ def run_chunk(task):
         if spec["path"] == "tabulated":
             name = next(iter(values))
             stats, terr = weigh_tabulated(model, q, tables, name, values[name],
-                                          sigmas[name][0], spec["table"])
+                                          sigmas[name][0], spec["table"],
+                                          cache=_table_cache(spec, run))
             redo = np.flatnonzero(terr > run.table_tol)
             if redo.size:  # interpolation not good enough here: weigh these nodes directly
                 direct = weigh_batched(model, q, tables, {name: values[name][redo]},
@@ -334,7 +349,8 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     st = _Store(store, keys, n, n_chunks, run.chunk_size, fp) if store is not None else None
     done = st.done()[:n_chunks] if st is not None else np.zeros(n_chunks, bool)
     todo = [c for c in range(n_chunks) if not done[c]]
-    results = {} if st is None else None
+    # results go straight into preallocated arrays (no per-chunk list to concatenate)
+    flat = None if st is not None else {k: np.full(n, np.nan, np.float32) for k in keys}
     cs = run.chunk_size
 
     bar = None
@@ -348,7 +364,8 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
         if st is not None:
             st.write(c, a, b, res)
         else:
-            results[c] = res
+            for k in keys:
+                flat[k][a:b] = res[k]
         if bar is not None:
             bar.update(b - a)
 
@@ -365,9 +382,6 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
         bar.close()
     if st is not None:
         flat = st.read(n)
-    else:
-        flat = {k: (np.concatenate([results[c][k] for c in range(n_chunks)]) if n_chunks
-                    else np.empty(0, np.float32)) for k in keys}
     info = {"levels": specs, "mode": mode, "n_chunks": n_chunks,
             "n_chunks_computed": len(todo), "fingerprint": fp,
             "wall_time_s": time.perf_counter() - t0}

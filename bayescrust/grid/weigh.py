@@ -87,22 +87,26 @@ def node_loglik(model, q, values, sigmas):
     for k, y in values.items():
         y = np.asarray(y, float)
         p = np.asarray(q[k], float)[None, :]
-        s = np.asarray(sigmas[k], float)[:, None]
-        sig = np.sqrt(s * s + (model.model_error[k] * p) ** 2)           # (m, n)
+        s = np.asarray(sigmas[k], float)
+        if s.size and np.all(s == s[0]):  # one sigma for every row: the total sigma is a row
+            s = s[:1]
+        s = s[:, None]
+        sig = np.sqrt(s * s + (model.model_error[k] * p) ** 2)           # (m or 1, n)
+        inv = 1.0 / sig
+        lsig = np.log(sig)
         if y.ndim == 2:
             ens = True
-            z = (y[:, :, None] - p[:, None, :]) / sig[:, None, :]         # (m, K, n)
-            lsig = np.log(sig)[:, None, :]
+            z = (y[:, :, None] - p[:, None, :]) * inv[:, None, :]         # (m, K, n)
+            lsig = lsig[:, None, :]
         else:
-            z = (y[:, None] - p) / sig
-            lsig = np.log(sig)
+            z = (y[:, None] - p) * inv
         if model.likelihood == "gaussian":
-            ll = -0.5 * z * z - lsig - 0.5 * math.log(2 * math.pi)
+            ll = -0.5 * z * z - (lsig + 0.5 * math.log(2 * math.pi))
         else:
             nu = model.nu
             c = (special.gammaln(0.5 * (nu + 1)) - special.gammaln(0.5 * nu)
                  - 0.5 * math.log(nu * math.pi))
-            ll = c - lsig - 0.5 * (nu + 1) * np.log1p(z * z / nu)
+            ll = (c - lsig) - 0.5 * (nu + 1) * np.log1p(z * z / nu)
         total = ll if total is None else total + ll
     total = np.where(np.isfinite(total), total, -np.inf)
     if ens:
@@ -191,7 +195,7 @@ def table_values(lo, hi, n_table):
     return np.linspace(lo - pad, hi + pad, n_table)
 
 
-def weigh_tabulated(model, q, tables, name, y_nodes, sigma, y_table):
+def weigh_tabulated(model, q, tables, name, y_nodes, sigma, y_table, cache=None):
     """Node statistics interpolated from a table over the observed value ``name``.
 
     Returns ``(stats, table_error)``: the statistics of every node and, per node, the largest
@@ -199,18 +203,26 @@ def weigh_tabulated(model, q, tables, name, y_nodes, sigma, y_table):
     the midpoint of the node's table interval.
     """
     t = len(y_table)
-    sig_t = np.full(t, float(sigma))
-    tab = weigh_batched(model, q, tables, {name: y_table}, {name: sig_t})
-    mids = 0.5 * (y_table[1:] + y_table[:-1])
-    direct = weigh_batched(model, q, tables, {name: mids}, {name: sig_t[:-1]}, hdi=False)
-    err = np.zeros(t - 1)
-    for h in tables.hyp_names:
-        interp = 0.5 * (tab[f"p:{h}"][1:] + tab[f"p:{h}"][:-1])
-        err = np.maximum(err, np.abs(np.nan_to_num(interp - direct[f"p:{h}"])))
-    y = np.asarray(y_nodes, float)
+    if cache is not None and "tab" in cache:
+        tab, err = cache["tab"], cache["err"]
+    else:
+        sig_t = np.full(t, float(sigma))
+        tab = weigh_batched(model, q, tables, {name: y_table}, {name: sig_t})
+        mids = 0.5 * (y_table[1:] + y_table[:-1])
+        direct = weigh_batched(model, q, tables, {name: mids}, {name: sig_t[:-1]}, hdi=False)
+        err = np.zeros(t - 1)
+        for h in tables.hyp_names:
+            interp = 0.5 * (tab[f"p:{h}"][1:] + tab[f"p:{h}"][:-1])
+            err = np.maximum(err, np.abs(np.nan_to_num(interp - direct[f"p:{h}"])))
+        if cache is not None:
+            cache["tab"], cache["err"] = tab, err
+    y = np.clip(np.asarray(y_nodes, float), y_table[0], y_table[-1])
     j = np.clip(np.searchsorted(y_table, y) - 1, 0, t - 2)
-    out = {key: np.interp(y, y_table, v) for key, v in tab.items()}
-    return out, err[j]
+    f = ((y - y_table[j]) / (y_table[j + 1] - y_table[j]))[:, None]
+    keys = list(tab)
+    mat = np.stack([tab[k] for k in keys], axis=1)                     # (t, n_stats)
+    vals = mat[j] * (1.0 - f) + mat[j + 1] * f                        # linear, all at once
+    return {k: vals[:, i] for i, k in enumerate(keys)}, err[j]
 
 
 def refine_node(model, tables, u_design, w_row, values, sigmas, rng, n_points):

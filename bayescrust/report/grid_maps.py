@@ -32,8 +32,7 @@ def section_map(ds, var, *, contour_vp=7.5, title=None):
 
     da, depth_dim, dist_dim = _section(ds, var)
     fig, ax = plt.subplots(figsize=(7.0, 3.6), constrained_layout=True)
-    cmap = plt.get_cmap("viridis").copy()
-    cmap.set_bad("0.8")
+    cmap = plt.get_cmap("viridis").with_extremes(bad="0.8")
     if depth_dim is None:  # node list
         x = ds["x"].values if "x" in ds else np.arange(da.size)
         z = ds["z"].values if "z" in ds else ds["depth_below_seafloor"].values
