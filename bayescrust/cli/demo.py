@@ -44,7 +44,7 @@ def demo_grid(args, folder: Path, study_folder: Path) -> float:
                              base=study_folder)
     map_args = argparse.Namespace(seed=args.seed, quiet=True, scheduler=None, workers=None)
     do_map(map_args, study, folder, figures=True,
-           maps=("p_mantle", "p_hot_mantle", "p_melt_present"))
+           maps=("p_mantle", "p_hot_mantle", "p_melt_present"), dpi=110)
     return time.perf_counter() - t0
 
 

@@ -11,7 +11,8 @@ from .shell import AtomicFolder, InputError, Warnings, add_common_options, say, 
 __all__ = ["add_parser", "cmd_map", "do_map"]
 
 
-def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, maps=None):
+def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, maps=None,
+           dpi=150):
     """Map ``study`` (a GridStudy) into ``folder``; returns the Dataset."""
     from ..grid import GridInputError, column_summary, map_grid, read_grid, write_netcdf
 
@@ -50,7 +51,7 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
         from ..report.grid_maps import write_section_maps
 
         (folder / "maps").mkdir(exist_ok=True)
-        stems = write_section_maps(ds, folder / "maps", variables=maps)
+        stems = write_section_maps(ds, folder / "maps", variables=maps, dpi=dpi)
         lines.append(f"- `maps/`: {len(stems)} section maps (PNG and PDF)")
     if validate:
         from ..grid import validate_nodes
