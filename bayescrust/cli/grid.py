@@ -76,6 +76,14 @@ def cmd_map(args) -> int:
     study = load_grid_study(args.study)
     out = Path(args.out)
     store = Path(args.store) if args.store else out.with_name(out.name + ".checkpoint.zarr")
+    if not args.no_checkpoint:
+        try:
+            import zarr  # noqa: F401
+        except ImportError:
+            if args.store:
+                raise InputError("--store needs zarr (pip install 'bayescrust[grid]')") from None
+            say(args, "map: zarr is not installed; running without a checkpoint store")
+            args.no_checkpoint = True
     with AtomicFolder(out, overwrite=args.overwrite) as tmp:
         do_map(args, study, tmp, store=None if args.no_checkpoint else store,
                figures=not args.no_figures,
