@@ -42,6 +42,28 @@ def demo_text(name: str) -> str:
     return files("bayescrust").joinpath("demo", name).read_text(encoding="utf-8")
 
 
+def demo_grid(args, folder: Path, study_folder: Path) -> float:
+    """The grid part of the demo: write the invented Tallowmere section and map it.
+
+    Returns its run time (s). The map uses the per-level fast path (tabulated where a level
+    has one sigma).
+    """
+    from ..config.grid import parse_grid_study
+    from ..grid.synthetic import tallowmere_section
+    from .grid import do_map
+
+    t0 = time.perf_counter()
+    tallowmere_section().to_netcdf(study_folder / "tallowmere_section.nc", engine="h5netcdf")
+    text = demo_text("tallowmere_section.toml")
+    write_text(study_folder / "tallowmere_section.toml", text)
+    study = parse_grid_study(text, source=str(study_folder / "tallowmere_section.toml"),
+                             base=study_folder)
+    map_args = argparse.Namespace(seed=args.seed, quiet=True, scheduler=None, workers=None)
+    do_map(map_args, study, folder, figures=True,
+           maps=("p_mantle", "p_hot_mantle", "p_melt_present"), dpi=110)
+    return time.perf_counter() - t0
+
+
 def cmd_demo(args) -> int:
     from ..config import parse_study
     from ..report.caution import caution_text
@@ -77,6 +99,9 @@ def cmd_demo(args) -> int:
         plan_s = demo_plan(args, study, tmp / "plan")
         say(args, "demo: whole profile of line TL-12 (structured exact path)")
         profile_s = demo_profile(args, tmp / "study" / "tallowmere_profile.toml", tmp / "profile")
+        say(args, "demo: probability map of an invented section across the ridge (fast path)")
+        (tmp / "map").mkdir()
+        t_grid = demo_grid(args, tmp / "map", tmp / "study")
         elapsed = time.perf_counter() - t0
         write_text(tmp / "README.md", "\n".join([
             "# bayescrust demo (invented data)", "",
@@ -99,7 +124,10 @@ def cmd_demo(args) -> int:
             "- `profile/`: the whole TL-12 profile tied by one thermal state: crust-mantle "
             "boundary, crustal thickness and which thermal state (half-space, axial, "
             f"uncoupled) the profile favours (structured exact path, {profile_s:.1f} s); start "
-            "with `profile/report.md`", "",
+            "with `profile/report.md`",
+            "- `map/`: probability maps of an invented 2-D section across the ridge "
+            "(`study/tallowmere_section.nc`, written by the package), by the per-level fast "
+            f"path (one prior design per depth level, tabulated over Vp; {t_grid:.1f} s)", "",
             "Reproduce from the shell:", "",
             "    bayescrust invert study/tallowmere_ridge.toml --out my_run",
             "    bayescrust compare study/tallowmere_ridge.toml --out my_compare "
@@ -107,7 +135,8 @@ def cmd_demo(args) -> int:
             f"    bayescrust chart study/tallowmere_ridge.toml --layer '{_DEMO_CHART_LAYER}' "
             "--out my_chart",
             "    bayescrust plan study/tallowmere_ridge.toml --out my_plan",
-            "    bayescrust profile study/tallowmere_profile.toml --out my_profile", "",
+            "    bayescrust profile study/tallowmere_profile.toml --out my_profile",
+            "    bayescrust map study/tallowmere_section.toml --out my_map", "",
             f"Run time of this demo: {elapsed:.1f} s.", ""]))
     say(args, f"demo: done in {time.perf_counter() - t0:.1f} s; start with {out}/README.md")
     print(out)

@@ -9,12 +9,12 @@ from __future__ import annotations
 
 import argparse
 
-from . import chart, check, compare, demo, forward, invert, plan, profile
+from . import chart, check, compare, demo, forward, grid, invert, plan, profile
 
 __all__ = ["COMMANDS", "build_parser"]
 
 #: Command modules, in the order shown by ``bayescrust -h``.
-COMMANDS = (demo, invert, compare, chart, profile, plan, forward, check)
+COMMANDS = (demo, invert, compare, chart, profile, grid, plan, forward, check)
 
 
 def build_parser() -> argparse.ArgumentParser:

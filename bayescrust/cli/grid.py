@@ -1,0 +1,112 @@
+"""``bayescrust map``: probability maps of a velocity grid from a grid study file."""
+
+from __future__ import annotations
+
+import shutil
+import time
+from pathlib import Path
+
+from .shell import AtomicFolder, InputError, Warnings, add_common_options, say, use_agg, write_text
+
+__all__ = ["add_parser", "cmd_map", "do_map"]
+
+
+def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, maps=None,
+           dpi=150):
+    """Map ``study`` (a GridStudy) into ``folder``; returns the Dataset."""
+    from ..grid import GridInputError, column_summary, map_grid, read_grid, write_netcdf
+
+    warn = Warnings(args)
+    try:
+        with warn.catch("grid"):
+            grid = read_grid(study.file, study.mapping)
+    except GridInputError as exc:
+        raise InputError(str(exc)) from None
+    seed = study.seed if getattr(args, "seed", None) is None else args.seed
+    t0 = time.perf_counter()
+    with warn.catch("map"):
+        ds = map_grid(grid, study.zones, seed=seed, store=store,
+                      scheduler=getattr(args, "scheduler", None),
+                      n_workers=getattr(args, "workers", None),
+                      progress=not getattr(args, "quiet", True), **study.options)
+    t_map = time.perf_counter() - t0
+    say(args, f"map: {grid.n_nodes} nodes ({ds.attrs['n_masked']} masked), "
+              f"{ds.attrs['path_choice']}, {ds.attrs['execution']}, {t_map:.1f} s; "
+              f"{ds.attrs['n_refined']} refined, {ds.attrs['n_poor']} below the quality "
+              "threshold")
+    write_netcdf(ds, folder / "map.nc")
+    summary = column_summary(ds)
+    write_text(folder / "column_summary.csv", summary.to_csv(index=False))
+    lines = [f"# Probability map: {study.title or study.source}", "",
+             f"- input: `{study.file.name}`, {grid.n_nodes} nodes, {ds.attrs['n_masked']} masked",
+             f"- method: {ds.attrs['method']}; {ds.attrs['path_choice']}",
+             f"- execution: {ds.attrs['execution']}, {t_map:.1f} s",
+             f"- quality: {ds.attrs['n_refined']} nodes refined, {ds.attrs['n_poor']} flagged "
+             f"poor (importance ESS < {ds.attrs['min_ess']:g}); see the `quality` variable",
+             "- `map.nc`: every probability and posterior summary on the input grid",
+             "- `column_summary.csv`: depth below the seafloor where the mantle becomes more "
+             "likely than not (P = 0.5), with the depths of P = 0.25 and 0.75"]
+    if figures:
+        use_agg()
+        from ..report.grid_maps import write_section_maps
+
+        (folder / "maps").mkdir(exist_ok=True)
+        stems = write_section_maps(ds, folder / "maps", variables=maps, dpi=dpi)
+        lines.append(f"- `maps/`: {len(stems)} section maps (PNG and PDF)")
+    if validate:
+        from ..grid import validate_nodes
+
+        with warn.catch("validation"):
+            df = validate_nodes(grid, study.zones, ds, n_nodes=validate, seed=seed)
+        write_text(folder / "validation.csv", df.to_csv(index=False))
+        t_node = df.groupby("node")["time_s"].first().mean()
+        lines.append(f"- `validation.csv`: {df['node'].nunique()} nodes re-inverted by MCMC; "
+                     f"largest |dP| {df['difference'].abs().max():.4f}; "
+                     f"{t_node:.1f} s a node against {t_map / max(1, grid.n_nodes):.2e} s a "
+                     "node for the map")
+    if warn.messages:
+        lines += ["", "## Warnings", ""] + [f"- {m}" for m in warn.messages]
+    write_text(folder / "README.md", "\n".join(lines) + "\n")
+    return ds
+
+
+def cmd_map(args) -> int:
+    from ..config.grid import load_grid_study
+
+    study = load_grid_study(args.study)
+    out = Path(args.out)
+    store = Path(args.store) if args.store else out.with_name(out.name + ".checkpoint.zarr")
+    if not args.no_checkpoint:
+        try:
+            import zarr  # noqa: F401
+        except ImportError:
+            if args.store:
+                raise InputError("--store needs zarr (pip install 'bayescrust[grid]')") from None
+            say(args, "map: zarr is not installed; running without a checkpoint store")
+            args.no_checkpoint = True
+    with AtomicFolder(out, overwrite=args.overwrite) as tmp:
+        do_map(args, study, tmp, store=None if args.no_checkpoint else store,
+               figures=not args.no_figures,
+               validate=args.validate if args.validate is not None else study.validate_nodes)
+    if not args.no_checkpoint and store.exists():
+        shutil.rmtree(store)  # the finished map holds everything the store held
+    print(out)
+    return 0
+
+
+def add_parser(sub) -> None:
+    """Register the ``map`` command."""
+    sp = sub.add_parser("map", help="probability maps of a 2D/3D velocity grid (fast path)")
+    sp.add_argument("study", help="grid study file (TOML with a [grid] table)")
+    add_common_options(sp, method=False)
+    sp.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                    help="run the chunks on this dask.distributed scheduler")
+    sp.add_argument("--workers", type=int, default=None, metavar="N",
+                    help="start a local dask cluster of N worker processes")
+    sp.add_argument("--store", default=None, metavar="PATH",
+                    help="zarr checkpoint store (default: OUT.checkpoint.zarr beside the "
+                         "output); an interrupted run resumes from it")
+    sp.add_argument("--no-checkpoint", action="store_true", help="keep no checkpoint store")
+    sp.add_argument("--validate", type=int, default=None, metavar="N",
+                    help="re-invert N random nodes by MCMC and compare with the map")
+    sp.set_defaults(func=cmd_map)

@@ -1,0 +1,167 @@
+"""Reader of a grid study file: the velocity grid, its name mapping, depth zones and run options.
+
+A grid study is its own TOML file (``bayescrust map STUDY``)::
+
+    title = "..."
+    seed = 1
+    [thermal.young]            # thermal-state priors, as in a layer study
+    kind = "half_space"
+    [grid]
+    file = "section.nc"        # NetCDF or CSV, relative to the study file
+    depth = "z"                # depth dim (or CSV column), positive down
+    depth_unit = "km"          # or "m"
+    depth_reference = "sea_level"   # or "seafloor"
+    seafloor = "seafloor"      # variable/column name, or a number
+    variables = { vp = "vp" }  # observable -> variable
+    sigmas = { vp = 0.1 }      # observable -> variable name or number
+    [[grid.zones]]
+    name = "upper crust"
+    top_km = 0.0               # below the seafloor
+    bottom_km = 1.5
+    rocks = ["basalt", "diabase"]
+    thermal_prior = "young"    # optional, a [thermal.NAME]
+    priors = { porosity = { dist = "uniform", lo = 0.0, hi = 0.3 } }
+
+Errors are :class:`~.errors.StudyError` naming the file and the dotted key.
+"""
+
+from __future__ import annotations
+
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+
+from .errors import StudyError
+from .limits import known_rocks
+from .priors import read_priors
+from .reader import Reader
+from .thermal import read_thermal, read_thermal_name
+
+__all__ = ["GridStudy", "load_grid_study", "parse_grid_study", "GRID_KEYS"]
+
+TOP = ("title", "description", "seed", "thermal", "grid")
+GRID_KEYS = ("file", "depth", "depth_unit", "depth_reference", "seafloor", "distance",
+             "ensemble", "variables", "sigmas", "zones", "level_km", "n_points", "min_ess",
+             "chunk_size", "path", "n_table", "validate_nodes")
+ZONE_KEYS = ("name", "top_km", "bottom_km", "rocks", "thermal_prior", "priors")
+_OBS = ("vp", "vs", "vp_vs", "density")
+
+
+@dataclass(frozen=True)
+class GridStudy:
+    """A validated grid study: ``mapping`` (GridMapping), ``zones`` (Zone objects), options."""
+
+    source: str
+    title: str
+    seed: int
+    file: Path
+    mapping: object
+    zones: tuple
+    options: dict
+    validate_nodes: int
+
+
+def load_grid_study(path) -> GridStudy:
+    """Read and validate a grid study file (see the module docstring)."""
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise StudyError(str(path), "", "file not found") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise StudyError(str(path), "", f"cannot read the study file ({exc})") from None
+    return parse_grid_study(text, source=str(path), base=p.parent)
+
+
+def parse_grid_study(text, *, source="<string>", base=None) -> GridStudy:
+    """Validate the TOML text of a grid study; see :func:`load_grid_study`."""
+    from ..grid.levels import Zone
+    from ..grid.source import GridMapping
+    from .build import build_prior, build_thermal_prior
+
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise StudyError(source, "", f"TOML syntax error: {exc}") from None
+    r = Reader(source)
+    r.keys("", data, TOP)
+    if "grid" not in data:
+        r.fail("grid", "missing; a grid study needs a [grid] table")
+    g = r.table("grid", data["grid"])
+    r.keys("grid", g, GRID_KEYS)
+    for k in ("file", "depth", "variables", "sigmas", "zones"):
+        if k not in g:
+            r.fail(f"grid.{k}", "missing")
+    seed = r.integer("seed", data.get("seed", 0), 0, 2**63 - 1)
+    thermal = read_thermal(r, "thermal", data["thermal"]) if "thermal" in data else {}
+    variables = r.table("grid.variables", g["variables"])
+    r.keys("grid.variables", variables, _OBS)
+    variables = {k: r.string(f"grid.variables.{k}", v) for k, v in variables.items()}
+    sigmas = r.table("grid.sigmas", g["sigmas"])
+    r.keys("grid.sigmas", sigmas, _OBS)
+    sig = {}
+    for k, v in sigmas.items():
+        sig[k] = v if isinstance(v, str) else r.number(f"grid.sigmas.{k}", v, 0.0, None,
+                                                       lo_open=True)
+    for k in variables:
+        if k not in sig:
+            r.fail(f"grid.sigmas.{k}", f"missing; every variable needs a sigma ({k})")
+    sf = g.get("seafloor", 0.0)
+    if not isinstance(sf, str):
+        sf = r.number("grid.seafloor", sf, 0.0, 11000.0)
+    try:
+        mapping = GridMapping(
+            variables=variables, sigmas=sig, depth=r.string("grid.depth", g["depth"]),
+            depth_unit=r.string("grid.depth_unit", g.get("depth_unit", "km"), ("km", "m")),
+            depth_reference=r.string("grid.depth_reference",
+                                     g.get("depth_reference", "sea_level"),
+                                     ("sea_level", "seafloor")),
+            seafloor=sf, ensemble=g.get("ensemble"), distance=g.get("distance"))
+    except ValueError as exc:
+        r.fail("grid", str(exc))
+    zones_raw = g["zones"]
+    if not isinstance(zones_raw, list) or not zones_raw:
+        r.got("grid.zones", zones_raw, "one or more [[grid.zones]] tables")
+    zones = []
+    for i, z in enumerate(zones_raw):
+        key = f"grid.zones[{i}]"
+        z = r.table(key, z)
+        r.keys(key, z, ZONE_KEYS)
+        for k in ("top_km", "bottom_km", "rocks"):
+            if k not in z:
+                r.fail(f"{key}.{k}", "missing")
+        top = r.number(f"{key}.top_km", z["top_km"], 0.0, 100.0, unit="km")
+        bottom = r.number(f"{key}.bottom_km", z["bottom_km"], 0.0, 100.0, unit="km")
+        if not bottom > top:
+            r.got(f"{key}.bottom_km", bottom, f"a depth > top_km ({top:g})")
+        rocks = z["rocks"]
+        if not isinstance(rocks, list) or not rocks:
+            r.got(f"{key}.rocks", rocks, "a list of rock names")
+        allowed = known_rocks()
+        for j, rock in enumerate(rocks):
+            r.string(f"{key}.rocks[{j}]", rock, tuple(allowed))
+        priors = {}
+        if "priors" in z:
+            specs = read_priors(r, f"{key}.priors", z["priors"], rocks)
+            priors = {k: build_prior(v) for k, v in specs.items()}
+        if "thermal_prior" in z:
+            name = read_thermal_name(r, f"{key}.thermal_prior", z["thermal_prior"],
+                                     tuple(thermal))
+            priors["temperature_c"] = build_thermal_prior(thermal[name])
+        zname = r.string(f"{key}.name", z.get("name", f"zone {i + 1}"))
+        zones.append(Zone(zname, top, bottom, rocks=tuple(rocks), priors=priors or None))
+    opts = {}
+    for k, lo, hi in (("level_km", 1e-3, 10.0), ("min_ess", 0.0, 1e6)):
+        if k in g:
+            opts[k] = r.number(f"grid.{k}", g[k], lo, hi)
+    for k, lo, hi in (("n_points", 16, 2**22), ("chunk_size", 1, 10**8), ("n_table", 5, 10**5)):
+        if k in g:
+            opts[k] = r.integer(f"grid.{k}", g[k], lo, hi)
+    if "path" in g:
+        opts["path"] = r.string("grid.path", g["path"], ("auto", "tabulated", "batched"))
+    val = r.integer("grid.validate_nodes", g.get("validate_nodes", 0), 0, 10**4)
+    f = Path(r.string("grid.file", g["file"]))
+    if base is not None and not f.is_absolute():
+        f = Path(base) / f
+    return GridStudy(source=source, title=str(data.get("title", "")), seed=seed, file=f,
+                     mapping=mapping, zones=tuple(zones), options=opts, validate_nodes=val)

@@ -1,0 +1,420 @@
+"""Mapping a whole grid: planning, chunks (in-process or on dask.distributed), zarr checkpoints.
+
+Valid nodes are sorted by (zone, depth level) and cut into chunks of ``chunk_size`` consecutive
+nodes. Every chunk's result depends only on its nodes, their levels' designs (own random
+streams) and the nodes' own refinement streams, so results do not depend on the chunking or on
+the worker count. With ``store=PATH`` each finished chunk is written to a zarr group (results
+first, then the chunk's ``done`` flag); a run started again with the same input and settings
+skips the finished chunks, so a job killed at any point resumes and gives the same output.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import time
+from collections import OrderedDict
+from dataclasses import dataclass
+
+import numpy as np
+
+from .levels import MANTLE_KEY, level_design, node_rng, plan_levels
+from .weigh import (
+    STAT_QUANTITIES,
+    DesignTables,
+    node_loglik,
+    refine_node,
+    table_values,
+    weigh_batched,
+    weigh_tabulated,
+)
+
+__all__ = ["map_grid", "GridRun", "QUALITY_FLAGS", "result_keys"]
+
+#: quality flag values (CF ``flag_values`` / ``flag_meanings``)
+QUALITY_FLAGS = {"good": 0, "refined": 1, "poor": 2, "masked": 3}
+#: sub-second grids stay in-process even when workers are asked for (nodes x design points)
+_IN_PROCESS_WORK = 2e8
+
+
+@dataclass(frozen=True)
+class GridRun:
+    """Settings of one map (see :func:`map_grid`)."""
+
+    seed: int = 0
+    n_points: int = 2**14
+    level_km: float = 0.1
+    min_ess: float = 100.0
+    refine: bool = True
+    n_refine: int = 2**14
+    n_table: int = 129
+    table_tol: float = 0.001
+    chunk_size: int = 50_000
+    path: str = "auto"
+    model_options: tuple = ()
+
+    def __post_init__(self):
+        if self.path not in ("auto", "tabulated", "batched"):
+            raise ValueError(f"path must be 'auto', 'tabulated' or 'batched'; got {self.path!r}")
+        if isinstance(self.seed, bool) or not isinstance(self.seed, (int, np.integer)) \
+                or self.seed < 0:
+            raise ValueError(f"seed must be a non-negative integer; got {self.seed!r}")
+        for k, lo in (("n_points", 2), ("n_refine", 2), ("n_table", 5), ("chunk_size", 1)):
+            if int(getattr(self, k)) < lo:
+                raise ValueError(f"{k} must be >= {lo}; got {getattr(self, k)!r}")
+        if not self.min_ess >= 0 or not self.table_tol > 0:
+            raise ValueError("min_ess must be >= 0 and table_tol > 0")
+
+    @property
+    def options(self) -> dict:
+        return dict(self.model_options)
+
+
+def _hyps_of_zone(zone):
+    from ..inference.hypotheses import default_hypotheses
+
+    h = dict(zone.hypotheses) if zone.hypotheses is not None else default_hypotheses(zone.rocks)
+    h[MANTLE_KEY] = {"ultramafic_fraction": (0.5, 1.0)}
+    return h
+
+
+def result_keys(zones):
+    """Names of the per-node results (the union of every zone's interpretations)."""
+    names = []
+    for z in zones:
+        for h in _hyps_of_zone(z):
+            if h not in names:
+                names.append(h)
+    keys = ["importance_ess", "table_error", "quality"]
+    keys += [f"p:{h}" for h in names] + [f"mcse:{h}" for h in names]
+    for q in STAT_QUANTITIES:
+        keys += [f"{q}:{s}" for s in ("mean", "sd", "hdi_low", "hdi_high")]
+    return keys, names
+
+
+# ----------------------------------------------------------------------------- one chunk
+_CACHE: OrderedDict = OrderedDict()
+_CACHE_SIZE = 3
+
+
+def _design(spec, zone, observables, run):
+    key = (spec["zone"], spec["key"], run.seed, run.n_points, repr(zone), repr(run.options),
+           tuple(observables))
+    if key in _CACHE:
+        _CACHE.move_to_end(key)
+        return _CACHE[key]
+    from .levels import Level
+
+    level = Level(zone=spec["zone"], key=spec["key"], depth_km=spec["depth_km"],
+                  water_depth_km=spec["water_depth_km"], nodes=np.empty(0, int))
+    model, hyps, _, q, u = level_design(level, zone, observables, run.seed, run.n_points,
+                                        run.options)
+    hyps = {**hyps, MANTLE_KEY: {"ultramafic_fraction": (0.5, 1.0)}}
+    entry = (model, DesignTables(q, hyps), q, u)
+    _CACHE[key] = entry
+    while len(_CACHE) > _CACHE_SIZE:
+        _CACHE.popitem(last=False)
+    return entry
+
+
+_TABLES: OrderedDict = OrderedDict()
+
+
+def _table_cache(spec, run):
+    """A per-level dict in which the level's table is kept (for the chunks of one process)."""
+    key = (spec["zone"], spec["key"], run)
+    if key not in _TABLES:
+        _TABLES[key] = {}
+        while len(_TABLES) > _CACHE_SIZE:
+            _TABLES.popitem(last=False)
+    _TABLES.move_to_end(key)
+    return _TABLES[key]
+
+
+def run_chunk(task):
+    """Results of one chunk: ``{key: float32 array}`` over the chunk's nodes (sorted order)."""
+    run, zones, keys = task["run"], task["zones"], task["keys"]
+    m = task["n"]
+    out = {k: np.full(m, np.nan) for k in keys}
+    out["table_error"][:] = 0.0
+    for part in task["parts"]:
+        spec = part["level"]
+        sl = slice(part["start"], part["stop"])
+        values, sigmas = part["values"], part["sigmas"]
+        model, tables, q, u = _design(spec, zones[spec["zone"]], list(values), run)
+        if spec["path"] == "tabulated":
+            name = next(iter(values))
+            stats, terr = weigh_tabulated(model, q, tables, name, values[name],
+                                          sigmas[name][0], spec["table"],
+                                          cache=_table_cache(spec, run))
+            redo = np.flatnonzero(terr > run.table_tol)
+            if redo.size:  # interpolation not good enough here: weigh these nodes directly
+                direct = weigh_batched(model, q, tables, {name: values[name][redo]},
+                                       {name: sigmas[name][redo]})
+                for k in stats:
+                    stats[k][redo] = direct[k]
+                terr[redo] = 0.0
+        else:
+            stats = weigh_batched(model, q, tables, values, sigmas)
+            terr = np.zeros(part["stop"] - part["start"])
+        quality = np.zeros(terr.shape[0])
+        low = np.flatnonzero(~(stats["importance_ess"] >= run.min_ess))
+        for i in low:  # refinement: only the few nodes whose design is too coarse
+            quality[i] = QUALITY_FLAGS["poor"]
+            if not run.refine or u.shape[1] == 0:
+                continue
+            vi = {k: np.asarray(v)[i:i + 1] for k, v in values.items()}
+            si = {k: np.asarray(v)[i:i + 1] for k, v in sigmas.items()}
+            w = np.exp(_safe(node_loglik(model, q, vi, si)[0]))
+            rng = node_rng(run.seed, int(part["nodes"][i]))
+            ref = refine_node(model, tables, u, w, vi, si, rng, run.n_refine)
+            if ref is None:
+                continue
+            for k in ref:
+                stats[k][i] = ref[k][0]
+            if ref["importance_ess"][0] >= run.min_ess:
+                quality[i] = QUALITY_FLAGS["refined"]
+        for k, v in stats.items():
+            out[k][sl] = v
+        out["table_error"][sl] = terr
+        out["quality"][sl] = quality
+    return task["index"], {k: v.astype(np.float32) for k, v in out.items()}
+
+
+def _safe(ll):
+    m = np.max(ll)
+    return ll - (m if np.isfinite(m) else 0.0)
+
+
+# ----------------------------------------------------------------------------- planning
+def _plan(grid, zones, run):
+    levels, zone_of = plan_levels(grid, zones, run.level_km)
+    obs = list(grid.values)
+    specs, order = [], []
+    for lev in levels:
+        nodes = lev.nodes
+        shared = all(np.ptp(grid.sigmas[k][nodes]) == 0 for k in obs)
+        can_tab = len(obs) == 1 and grid.n_ensemble == 1 and shared
+        if run.path == "tabulated" and not can_tab:
+            raise ValueError("path='tabulated' needs one observable, no ensemble and one sigma "
+                             f"per depth level (level at {lev.depth_km:g} km has "
+                             f"{'several observables' if len(obs) > 1 else 'per-node sigma'})")
+        n_table = run.n_table
+        path = "batched"
+        if can_tab and run.path != "batched" and (run.path == "tabulated" or
+                                                  nodes.size > 2 * n_table):
+            path = "tabulated"
+        spec = {"zone": lev.zone, "key": lev.key, "depth_km": lev.depth_km,
+                "water_depth_km": lev.water_depth_km, "path": path}
+        if path == "tabulated":
+            y = grid.values[obs[0]][nodes]
+            spec["table"] = table_values(float(y.min()), float(y.max()), n_table)
+        specs.append(spec)
+        order.append(nodes)
+    order = np.concatenate(order) if order else np.empty(0, int)
+    level_of = np.concatenate([np.full(len(lv.nodes), i) for i, lv in enumerate(levels)]) \
+        if levels else np.empty(0, int)
+    return specs, order, level_of, zone_of
+
+
+def _tasks(grid, zones, run, specs, order, level_of, keys, todo):
+    cs = run.chunk_size
+    for c in todo:
+        a, b = c * cs, min((c + 1) * cs, order.size)
+        parts = []
+        lv = level_of[a:b]
+        cuts = np.flatnonzero(np.diff(lv)) + 1
+        for s, e in zip(np.r_[0, cuts], np.r_[cuts, b - a], strict=True):
+            nodes = order[a + s:a + e]
+            parts.append({"level": specs[int(lv[s])], "start": int(s), "stop": int(e),
+                          "nodes": nodes,
+                          "values": {k: v[nodes] for k, v in grid.values.items()},
+                          "sigmas": {k: v[nodes] for k, v in grid.sigmas.items()}})
+        yield {"index": int(c), "n": int(b - a), "parts": parts, "run": run, "zones": zones,
+               "keys": keys}
+
+
+def _fingerprint(grid, zones, run):
+    h = hashlib.sha256()
+    h.update(grid.fingerprint().encode())
+    h.update(repr([repr(z) for z in zones]).encode())
+    h.update(repr(run).encode())
+    return h.hexdigest()[:16]
+
+
+# ----------------------------------------------------------------------------- the store
+class _Store:
+    """Finished chunks in a zarr group: one array per result, a ``done`` flag per chunk."""
+
+    def __init__(self, path, keys, n, n_chunks, chunk_size, fingerprint):
+        import zarr
+
+        self.path = str(path)
+        self.group = zarr.open_group(self.path, mode="a")
+        fp = self.group.attrs.get("fingerprint")
+        if fp is not None and fp != fingerprint:
+            raise ValueError(f"{self.path}: the checkpoint store belongs to another input or "
+                             "other settings; delete it or choose another store")
+        if fp is None:
+            for k in keys:
+                self.group.create_array(_zkey(k), shape=(max(n, 1),),
+                                        chunks=(max(1, chunk_size),), dtype="float32",
+                                        fill_value=np.nan)
+            self.group.create_array("done", shape=(max(n_chunks, 1),), chunks=(1,),
+                                    dtype="int8", fill_value=0)
+            self.group.attrs["fingerprint"] = fingerprint
+        self.keys = keys
+
+    def done(self):
+        return np.asarray(self.group["done"][:], bool)
+
+    def write(self, c, a, b, result):
+        for k in self.keys:
+            self.group[_zkey(k)][a:b] = result[k]
+        self.group["done"][c] = 1
+
+    def read(self, n):
+        return {k: np.asarray(self.group[_zkey(k)][:n]) for k in self.keys}
+
+
+def _zkey(k):
+    return k.replace(":", "__").replace(" ", "_")
+
+
+# ----------------------------------------------------------------------------- driver
+def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0, refine=True,
+             n_refine=None, n_table=129, table_tol=0.001, chunk_size=50_000, path="auto",
+             store=None, scheduler=None, n_workers=None, progress=False, model_error=None,
+             likelihood="gaussian", nu=4.0, forward=None):
+    """Probability maps of a velocity grid by the per-level fast path.
+
+    Parameters
+    ----------
+    grid : GridData
+        From :func:`bayescrust.grid.read_grid` or :func:`bayescrust.grid.grid_from_dataset`.
+    zones : sequence of Zone
+        Depth zones below the seafloor with their rocks, priors and interpretations.
+    seed : int
+        Seeds every level design and node stream (see :mod:`bayescrust.grid.levels`).
+    n_points : int
+        Prior design per level (rounded up to a power of two).
+    level_km : float
+        Thickness of the depth levels sharing one design.
+    min_ess : float
+        Quality threshold on each node's importance effective sample size; nodes below it are
+        refined (``refine=True``: a second, adaptive stage of ``n_refine`` points, default
+        ``n_points``, from the node's own stream) and flagged ``poor`` if still below.
+    n_table, table_tol : int, float
+        Table size of the tabulated path; nodes whose table error exceeds ``table_tol`` are
+        weighed directly.
+    chunk_size : int
+        Nodes per chunk (a unit of work and of checkpointing).
+    path : {"auto", "tabulated", "batched"}
+        ``auto`` tabulates levels with one observable and one sigma (and more nodes than twice
+        the table), and weighs the others directly.
+    store : path, optional
+        zarr checkpoint store; finished chunks found there are not recomputed.
+    scheduler : str or distributed.Client, optional
+        Address of a running dask.distributed scheduler (or a client).
+    n_workers : int, optional
+        Start a ``LocalCluster`` with this many single-threaded worker processes (ignored for
+        grids small enough to run in about a second in-process).
+    progress : bool
+        A tqdm bar counting nodes.
+    model_error, likelihood, nu, forward
+        As for :func:`bayescrust.exact_layer`.
+
+    Returns
+    -------
+    xarray.Dataset
+        On the input's grid (see :func:`bayescrust.grid.output.build_dataset`).
+    """
+    from .output import build_dataset
+
+    t0 = time.perf_counter()
+    opts = tuple((k, v) for k, v in (("model_error", model_error), ("likelihood", likelihood),
+                                     ("nu", nu), ("forward", forward)) if v is not None)
+    run = GridRun(seed=int(seed) if isinstance(seed, (int, np.integer)) else seed,
+                  n_points=int(n_points), level_km=float(level_km),
+                  min_ess=float(min_ess), refine=bool(refine),
+                  n_refine=int(n_points if n_refine is None else n_refine),
+                  n_table=int(n_table), table_tol=float(table_tol), chunk_size=int(chunk_size),
+                  path=path, model_options=opts)
+    zones = tuple(zones)
+    keys, hyp_names = result_keys(zones)
+    specs, order, level_of, zone_of = _plan(grid, zones, run)
+    n = order.size
+    n_chunks = int(math.ceil(n / run.chunk_size)) if n else 0
+    fp = _fingerprint(grid, zones, run)
+    st = _Store(store, keys, n, n_chunks, run.chunk_size, fp) if store is not None else None
+    done = st.done()[:n_chunks] if st is not None else np.zeros(n_chunks, bool)
+    todo = [c for c in range(n_chunks) if not done[c]]
+    # results go straight into preallocated arrays (no per-chunk list to concatenate)
+    flat = None if st is not None else {k: np.full(n, np.nan, np.float32) for k in keys}
+    cs = run.chunk_size
+
+    bar = None
+    if progress:
+        from tqdm.auto import tqdm
+
+        bar = tqdm(total=n, unit="node", desc="map", initial=int(n - _todo_nodes(todo, cs, n)))
+
+    def finish(c, res):
+        a, b = c * cs, min((c + 1) * cs, n)
+        if st is not None:
+            st.write(c, a, b, res)
+        else:
+            for k in keys:
+                flat[k][a:b] = res[k]
+        if bar is not None:
+            bar.update(b - a)
+
+    tasks = _tasks(grid, zones, run, specs, order, level_of, keys, todo)
+    work = _todo_nodes(todo, cs, n) * run.n_points
+    mode = "in-process"
+    if (scheduler is not None or n_workers) and len(todo) > 1 and \
+            (scheduler is not None or work > _IN_PROCESS_WORK):
+        mode = _run_dask(tasks, finish, scheduler, n_workers)
+    else:
+        for task in tasks:
+            finish(*run_chunk(task))
+    if bar is not None:
+        bar.close()
+    if st is not None:
+        flat = st.read(n)
+    info = {"levels": specs, "mode": mode, "n_chunks": n_chunks,
+            "n_chunks_computed": len(todo), "fingerprint": fp,
+            "wall_time_s": time.perf_counter() - t0}
+    return build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info)
+
+
+def _todo_nodes(todo, cs, n):
+    return sum(min((c + 1) * cs, n) - c * cs for c in todo)
+
+
+def _run_dask(tasks, finish, scheduler, n_workers):
+    from distributed import Client, LocalCluster, as_completed
+
+    cluster = None
+    if scheduler is None:
+        cluster = LocalCluster(n_workers=int(n_workers), threads_per_worker=1, processes=True,
+                               dashboard_address=None)
+        client = Client(cluster)
+        mode = f"dask LocalCluster ({int(n_workers)} workers)"
+    elif isinstance(scheduler, str):
+        client = Client(scheduler)
+        mode = f"dask scheduler {scheduler}"
+    else:
+        client, mode = scheduler, "dask client"
+    try:
+        futures = [client.submit(run_chunk, t, pure=False) for t in tasks]
+        for fut in as_completed(futures):
+            finish(*fut.result())
+            fut.release()
+    finally:
+        if cluster is not None:
+            client.close()
+            cluster.close()
+        elif isinstance(scheduler, str):
+            client.close()
+    return mode

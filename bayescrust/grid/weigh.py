@@ -1,0 +1,245 @@
+"""The fast path: one prior design per depth level, weighed against every node of the level.
+
+Two ways to weigh a level's design (points ``theta_j`` with predictions ``q_j``, ``j < n``):
+
+- **batched** (per-node sigma, several observables, or an ensemble): the likelihood matrix
+  ``L[i, j]`` of node ``i`` and design point ``j`` is formed in blocks of nodes, and each node's
+  posterior expectations are self-normalised importance sums ``sum_j w_ij f(q_j) / sum_j w_ij``
+  (the first stage of :func:`bayescrust.exact_layer`); with an ensemble of ``K`` models the
+  likelihood is the mean over members (marginalising over the realisations, Sambridge 1999).
+- **tabulated** (one observable with a sigma shared by the level): the same sums on a table of
+  observed values spanning the level's data, interpolated linearly per node; the table error
+  (interpolated against direct weighing at the table's midpoints) is stored per node.
+
+Per node the Kish effective sample size ``(sum w)^2 / sum w^2`` (Kish 1965) is the quality
+flag; nodes below ``min_ess`` are refined by a second, adaptive stage from their own random
+stream (:func:`bayescrust.inference.evidence.adaptive_design`), or flagged if still poor.
+
+Credible intervals are highest-density intervals of probability :data:`HDI_PROB` (arviz's
+default, ``common practice``) from each node's weighted histogram on :data:`N_BINS` bins over
+the level design's range of the quantity, so their resolution is that range / ``N_BINS``.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+__all__ = ["STAT_QUANTITIES", "HDI_PROB", "N_BINS", "DesignTables", "node_loglik",
+           "weigh_batched", "weigh_tabulated", "refine_node"]
+
+#: Quantities summarised at every node (mean, sd, HDI); present in every layer model.
+STAT_QUANTITIES = ("temperature_c", "porosity", "melt_fraction_effective",
+                   "serpentinization_effective", "ultramafic_fraction", "gabbroic_fraction",
+                   "basaltic_fraction", "vp", "vs", "vp_vs", "density")
+HDI_PROB = 0.94
+N_BINS = 32
+_N_LOWER = 13  # candidate lower tails of the HDI search, 0 .. 1 - HDI_PROB
+
+
+class DesignTables:
+    """Matrices of one design reused for every node: indicators, values, histogram one-hots."""
+
+    def __init__(self, q, hyps, edges=None):
+        from ..inference.hypotheses import indicators
+
+        self.hyps = dict(hyps)
+        self.hyp_names = list(hyps)
+        ind = indicators(hyps, q)
+        self.ind = np.stack([np.asarray(ind[h], float) for h in self.hyp_names], axis=1)
+        n = self.ind.shape[0]
+        v = np.stack([np.broadcast_to(np.asarray(q[k], float), (n,)) for k in STAT_QUANTITIES],
+                     axis=1)
+        v = np.where(np.isfinite(v), v, 0.0)
+        self.values = v
+        self.values2 = v * v
+        if edges is None:
+            lo, hi = v.min(axis=0), v.max(axis=0)
+            hi = np.where(hi > lo, hi, lo + 1e-9)
+            edges = lo[:, None] + (hi - lo)[:, None] * np.linspace(0, 1, N_BINS + 1)[None, :]
+        self.edges = edges
+        nq = len(STAT_QUANTITIES)
+        b = np.empty((n, nq), int)
+        for k in range(nq):  # loop over a dozen quantities, not samples
+            b[:, k] = np.clip(np.searchsorted(edges[k], v[:, k], side="right") - 1, 0,
+                              N_BINS - 1)
+        from scipy import sparse
+
+        cols = (np.arange(nq)[None, :] * N_BINS + b).ravel()
+        rows = np.repeat(np.arange(n), nq)
+        # transposed one-hot (bins x design points), sparse: n * nq non-zeros
+        self.onehot_t = sparse.csr_matrix((np.ones(rows.size), (cols, rows)),
+                                          shape=(nq * N_BINS, n))
+
+
+def node_loglik(model, q, values, sigmas):
+    """Log-likelihood ``(m, n)`` of ``m`` nodes against ``n`` design predictions.
+
+    ``values[k]`` is (m,) or (m, K) for an ensemble of K models (the likelihood is then the
+    mean over members); ``sigmas[k]`` is (m,). The total sigma adds the model error in
+    quadrature, as :meth:`bayescrust.inference.model.LayerModel.total_sigma`.
+    """
+    from scipy import special
+
+    total = None
+    ens = False
+    for k, y in values.items():
+        y = np.asarray(y, float)
+        p = np.asarray(q[k], float)[None, :]
+        s = np.asarray(sigmas[k], float)
+        if s.size and np.all(s == s[0]):  # one sigma for every row: the total sigma is a row
+            s = s[:1]
+        s = s[:, None]
+        sig = np.sqrt(s * s + (model.model_error[k] * p) ** 2)           # (m or 1, n)
+        inv = 1.0 / sig
+        lsig = np.log(sig)
+        if y.ndim == 2:
+            ens = True
+            z = (y[:, :, None] - p[:, None, :]) * inv[:, None, :]         # (m, K, n)
+            lsig = lsig[:, None, :]
+        else:
+            z = (y[:, None] - p) * inv
+        if model.likelihood == "gaussian":
+            ll = -0.5 * z * z - (lsig + 0.5 * math.log(2 * math.pi))
+        else:
+            nu = model.nu
+            c = (special.gammaln(0.5 * (nu + 1)) - special.gammaln(0.5 * nu)
+                 - 0.5 * math.log(nu * math.pi))
+            ll = (c - lsig) - 0.5 * (nu + 1) * np.log1p(z * z / nu)
+        total = ll if total is None else total + ll
+    total = np.where(np.isfinite(total), total, -np.inf)
+    if ens:
+        k = total.shape[1]
+        total = special.logsumexp(total, axis=1) - math.log(k)
+    return total
+
+
+def _hdi(hist, edges):
+    """Shortest interval holding HDI_PROB of each row's binned density; (m,), (m,)."""
+    m = hist.shape[0]
+    c = np.concatenate([np.zeros((m, 1)), np.cumsum(hist, axis=1)], axis=1)
+    c /= np.where(c[:, -1:] > 0, c[:, -1:], 1.0)
+    tails = np.linspace(0.0, 1.0 - HDI_PROB, _N_LOWER)
+    a = np.concatenate([tails, tails + HDI_PROB])                        # (2L,)
+    j = np.clip(np.sum(c[:, None, 1:] < a[None, :, None], axis=2), 0, N_BINS - 1)  # (m, 2L)
+    lo_c = np.take_along_axis(c, j, axis=1)
+    hi_c = np.take_along_axis(c, j + 1, axis=1)
+    gap = hi_c - lo_c
+    frac = np.where(gap > 0, (a[None, :] - lo_c) / np.where(gap > 0, gap, 1.0), 0.5)
+    x = edges[j] + np.clip(frac, 0.0, 1.0) * (edges[j + 1] - edges[j])
+    lo, hi = x[:, :_N_LOWER], x[:, _N_LOWER:]
+    k = np.argmin(hi - lo, axis=1)
+    rows = np.arange(m)
+    return lo[rows, k], hi[rows, k]
+
+
+def _summarise(w, tables, *, hdi=True):
+    """Statistics of ``m`` weight rows ``w`` (m, n) over a design; dict of (m,) arrays."""
+    sw = w.sum(axis=1)
+    ok = sw > 0
+    sw_safe = np.where(ok, sw, 1.0)
+    wn = w / sw_safe[:, None]
+    out = {"importance_ess": np.where(ok, 1.0 / np.maximum(np.sum(wn * wn, axis=1), 1e-300),
+                                      0.0)}
+    p = wn @ tables.ind
+    w2 = (wn * wn) @ tables.ind
+    s2 = np.sum(wn * wn, axis=1)[:, None]
+    mcse = np.sqrt(np.maximum(w2 * (1 - 2 * p) + p * p * s2, 0.0))
+    for j, h in enumerate(tables.hyp_names):
+        out[f"p:{h}"] = np.where(ok, p[:, j], np.nan)
+        out[f"mcse:{h}"] = np.where(ok, mcse[:, j], np.nan)
+    mean = wn @ tables.values
+    ex2 = wn @ tables.values2
+    sd = np.sqrt(np.maximum(ex2 - mean * mean, 0.0))
+    if hdi:
+        hist = np.asarray(tables.onehot_t @ wn.T).T  # sparse: no dense (n, bins) matrix
+    for k, name in enumerate(STAT_QUANTITIES):
+        out[f"{name}:mean"] = np.where(ok, mean[:, k], np.nan)
+        out[f"{name}:sd"] = np.where(ok, sd[:, k], np.nan)
+        if hdi:
+            lo, hi = _hdi(hist[:, k * N_BINS:(k + 1) * N_BINS], tables.edges[k])
+            out[f"{name}:hdi_low"] = np.where(ok, lo, np.nan)
+            out[f"{name}:hdi_high"] = np.where(ok, hi, np.nan)
+    return out
+
+
+def _weights(loglik):
+    m = np.max(loglik, axis=1, keepdims=True)
+    m = np.where(np.isfinite(m), m, 0.0)
+    return np.exp(loglik - m)
+
+
+def _block(n_design, k=1, budget=2_000_000):
+    return max(1, budget // max(1, n_design * k))
+
+
+def weigh_batched(model, q, tables, values, sigmas, *, hdi=True):
+    """Statistics of every node (dict of (m,) arrays) by direct importance weighing."""
+    m = next(iter(sigmas.values())).shape[0]
+    n = tables.ind.shape[0]
+    k = max(np.asarray(v).shape[1] if np.ndim(v) == 2 else 1 for v in values.values())
+    step = _block(n, k)
+    parts = []
+    for s in range(0, m, step):  # blocks of nodes bound the memory of the m x n matrix
+        sl = slice(s, s + step)
+        ll = node_loglik(model, q, {kk: np.asarray(v)[sl] for kk, v in values.items()},
+                         {kk: np.asarray(v)[sl] for kk, v in sigmas.items()})
+        parts.append(_summarise(_weights(ll), tables, hdi=hdi))
+    return {key: np.concatenate([p[key] for p in parts]) for key in parts[0]}
+
+
+def table_values(lo, hi, n_table):
+    """Observed values of a level's table: ``n_table`` points spanning ``[lo, hi]``."""
+    pad = 1e-6 + 1e-3 * (hi - lo)
+    return np.linspace(lo - pad, hi + pad, n_table)
+
+
+def weigh_tabulated(model, q, tables, name, y_nodes, sigma, y_table, cache=None):
+    """Node statistics interpolated from a table over the observed value ``name``.
+
+    Returns ``(stats, table_error)``: the statistics of every node and, per node, the largest
+    difference over interpretations between interpolated and directly weighed probability at
+    the midpoint of the node's table interval.
+    """
+    t = len(y_table)
+    if cache is not None and "tab" in cache:
+        tab, err = cache["tab"], cache["err"]
+    else:
+        sig_t = np.full(t, float(sigma))
+        tab = weigh_batched(model, q, tables, {name: y_table}, {name: sig_t})
+        mids = 0.5 * (y_table[1:] + y_table[:-1])
+        direct = weigh_batched(model, q, tables, {name: mids}, {name: sig_t[:-1]}, hdi=False)
+        err = np.zeros(t - 1)
+        for h in tables.hyp_names:
+            interp = 0.5 * (tab[f"p:{h}"][1:] + tab[f"p:{h}"][:-1])
+            err = np.maximum(err, np.abs(np.nan_to_num(interp - direct[f"p:{h}"])))
+        if cache is not None:
+            cache["tab"], cache["err"] = tab, err
+    y = np.clip(np.asarray(y_nodes, float), y_table[0], y_table[-1])
+    j = np.clip(np.searchsorted(y_table, y) - 1, 0, t - 2)
+    f = ((y - y_table[j]) / (y_table[j + 1] - y_table[j]))[:, None]
+    keys = list(tab)
+    mat = np.stack([tab[k] for k in keys], axis=1)                     # (t, n_stats)
+    vals = mat[j] * (1.0 - f) + mat[j + 1] * f                        # linear, all at once
+    return {k: vals[:, i] for i, k in enumerate(keys)}, err[j]
+
+
+def refine_node(model, tables, u_design, w_row, values, sigmas, rng, n_points):
+    """Second, adaptive stage for one node; its statistics (dict of (1,) arrays)."""
+    from ..inference.evidence import adaptive_design
+
+    n = w_row.shape[0]
+    sw = w_row.sum()
+    if not sw > 0:
+        p = np.full(n, 1.0 / n)
+    else:
+        p = w_row / sw
+    centres = u_design[rng.choice(n, size=min(256, n), p=p)]
+    if centres.shape[1] == 0:
+        return None
+    _, q2, log_q, inside = adaptive_design(model, rng, centres, n_points)
+    ll = node_loglik(model, q2, values, sigmas)[0]
+    logw = ll - log_q[inside]
+    w = _weights(logw[None, :])
+    return _summarise(w, DesignTables(q2, tables.hyps, edges=tables.edges))

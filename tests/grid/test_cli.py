@@ -1,0 +1,59 @@
+"""``bayescrust map``: outputs, CF attributes, bad input with exit code 2."""
+
+import numpy as np
+import xarray as xr
+
+from bayescrust.cli import main
+
+STUDY = """
+title = "tiny invented section"
+seed = 3
+[grid]
+file = "g.nc"
+depth = "z"
+seafloor = 3.0
+variables = {{ vp = "vp" }}
+sigmas = {{ vp = {sigma} }}
+level_km = 1.0
+n_points = 1024
+min_ess = 0
+[[grid.zones]]
+name = "lower"
+top_km = 1.5
+bottom_km = 20.0
+rocks = ["gabbro", "harzburgite"]
+"""
+
+
+def _setup(tmp_path, section, sigma="0.1"):
+    section.isel(x=[0, 1]).to_netcdf(tmp_path / "g.nc", engine="h5netcdf")
+    p = tmp_path / "study.toml"
+    p.write_text(STUDY.format(sigma=sigma))
+    return p
+
+
+def test_map_command_writes_netcdf_summary_and_maps(tmp_path, section):
+    study = _setup(tmp_path, section)
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "-q"]) == 0
+    ds = xr.open_dataset(out / "map.nc")
+    assert ds["p_mantle"].attrs["units"] == "1"
+    assert ds["temperature_c_mean"].attrs["units"] == "degC"
+    assert ds["vp_mean"].attrs["units"] == "km s-1"
+    assert ds.attrs["Conventions"].startswith("CF")
+    assert np.isnan(ds["p_mantle"].isel(x=0, z=0))          # above the zone: masked
+    assert int(ds["quality"].isel(x=0, z=0)) == 3
+    ds.close()
+    assert (out / "column_summary.csv").read_text().startswith("distance,")
+    assert (out / "maps" / "map_p_mantle.png").exists()
+    assert (out / "maps" / "map_p_mantle.pdf").exists()
+    assert not (tmp_path / "out.checkpoint.zarr").exists()
+
+
+def test_bad_grid_study_exits_2_and_names_the_key(tmp_path, section, capsys):
+    study = _setup(tmp_path, section, sigma='"vp_error"')
+    assert main(["map", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
+    assert "vp_error" in capsys.readouterr().err
+    study.write_text(STUDY.format(sigma="-1"))
+    assert main(["map", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
+    assert "grid.sigmas.vp" in capsys.readouterr().err
