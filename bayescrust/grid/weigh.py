@@ -82,24 +82,48 @@ def node_loglik(model, q, values, sigmas):
     """
     from scipy import special
 
+    from ..inference.model import MODEL_ERROR_CORRELATION
+
     total = None
     ens = False
-    for k, y in values.items():
-        y = np.asarray(y, float)
+    # Vp and Vs model errors are correlated as in LayerModel.log_likelihood_terms: the Vs term
+    # is then the conditional density given Vp (Gaussian likelihood, no Vp/Vs datum)
+    corr = (model.likelihood == "gaussian" and "vp" in values and "vs" in values
+            and "vp_vs" not in values and MODEL_ERROR_CORRELATION > 0.0)
+    order = sorted(values, key=lambda k: k != "vp")  # Vp first: the Vs term may need it
+    sig_vp = None
+    for k in order:
+        y = np.asarray(values[k], float)
         p = np.asarray(q[k], float)[None, :]
         s = np.asarray(sigmas[k], float)
         if s.size and np.all(s == s[0]):  # one sigma for every row: the total sigma is a row
             s = s[:1]
         s = s[:, None]
         sig = np.sqrt(s * s + (model.model_error[k] * p) ** 2)           # (m or 1, n)
+        shift = None
+        if k == "vp":
+            sig_vp = sig
+        elif k == "vs" and corr:
+            p_vp = np.asarray(q["vp"], float)[None, :]
+            c = (MODEL_ERROR_CORRELATION * model.model_error["vp"] * model.model_error["vs"]
+                 * p_vp * p)
+            gain = c / sig_vp**2
+            sig = np.sqrt(np.maximum(sig * sig - c * gain, 1e-300))
+            y_vp = np.asarray(values["vp"], float)
+            shift = ((y_vp[:, :, None] - p_vp[:, None, :]) * gain[:, None, :] if y_vp.ndim == 2
+                     else (y_vp[:, None] - p_vp) * gain)
         inv = 1.0 / sig
         lsig = np.log(sig)
         if y.ndim == 2:
             ens = True
-            z = (y[:, :, None] - p[:, None, :]) * inv[:, None, :]         # (m, K, n)
+            z = (y[:, :, None] - p[:, None, :])                            # (m, K, n)
+            if shift is not None:
+                z = z - shift
+            z = z * inv[:, None, :]
             lsig = lsig[:, None, :]
         else:
-            z = (y[:, None] - p) * inv
+            z = (y[:, None] - p) if shift is None else (y[:, None] - p - shift)
+            z = z * inv
         if model.likelihood == "gaussian":
             ll = -0.5 * z * z - (lsig + 0.5 * math.log(2 * math.pi))
         else:

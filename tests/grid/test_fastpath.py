@@ -127,3 +127,20 @@ def test_bad_settings_are_rejected(section):
         map_grid(g, ZONES, path="fast")
     with pytest.raises(ValueError, match="overlap"):
         map_grid(g, [Zone("a", 0, 2), Zone("b", 1, 3)])
+
+
+def test_node_likelihood_is_the_layer_likelihood():
+    # identity: the grid's batched likelihood must equal the layer model's own (correlated Vp
+    # and Vs model errors included), or maps and layer inversions would disagree
+    from bayescrust.grid.weigh import node_loglik
+    from bayescrust.inference.model import LayerModel
+
+    layer = Layer("node", top_km=6.0, bottom_km=6.1, water_depth_km=3.0, vp=(7.4, 0.1),
+                  vs=(4.1, 0.08))
+    model = LayerModel.build(layer, rocks=("gabbro", "harzburgite"))
+    q = {"vp": np.array([7.0, 7.5, 8.1]), "vs": np.array([3.8, 4.2, 4.6])}
+    vals = {"vp": np.array([7.4, 7.9]), "vs": np.array([4.1, 4.5])}
+    got = node_loglik(model, q, vals, {"vp": np.array([0.1, 0.1]), "vs": np.array([0.08, 0.08])})
+    for i in range(2):
+        ref = sum(model.log_likelihood_terms(q, {k: v[i] for k, v in vals.items()}).values())
+        np.testing.assert_allclose(got[i], ref, rtol=1e-12)
