@@ -16,13 +16,15 @@ except PackageNotFoundError:  # running from a source tree that is not installed
 
 from .physics.minerals import list_minerals, mineral_properties
 from .physics.rocks import ROCKS, ForwardModel, RockProperties, list_rocks, rock_properties
-from .physics.sources import citations
+from .report.citations import bibtex
+from .report.citations import references as citations
 
 __all__ = [
     "ROCKS",
     "ForwardModel",
     "RockProperties",
     "__version__",
+    "bibtex",
     "citations",
     "list_minerals",
     "list_rocks",

@@ -49,8 +49,25 @@ def references(rocks_or_result=None) -> list[str]:
     """
     from ..physics.sources import citations
 
-    out = [c for c in (_clean(s) for s in citations(rocks_or_result)) if c]
-    return list(dict.fromkeys(out + list(INFERENCE_REFERENCES)))
+    sources = citations(rocks_or_result)
+    out = [c for c in (_clean(s) for s in sources) if c]
+    # free-form source notes (e.g. a mineral's "Hill averages of ... Brown, Angel & Ross 2016,
+    # Elasticity of plagioclase feldspars, JGR ...") still name their references: keep each as
+    # "Authors (Year)" unless the full reference is already listed
+    short = []
+    for s in sources:
+        if _clean(s):
+            continue
+        for authors, year in _INLINE.findall(s):
+            first = authors.split()[0].rstrip(",")
+            if not any(r.startswith(first) and f"({year})" in r for r in out):
+                short.append(f"{authors} ({year})")
+    return list(dict.fromkeys(out + short + list(INFERENCE_REFERENCES)))
+
+
+#: An inline citation "Surname[, Surname][ & Surname| et al.] [(]YYYY" inside a source note.
+_INLINE = re.compile(r"\b((?:[A-Z][a-z][A-Za-z'\-]+)(?:(?:, | & | and )[A-Z][a-z][A-Za-z'\-]+)*"
+                     r"(?: et al\.)?),? \(?((?:19|20)\d\d)\b")
 
 
 def _key(authors: str, year: str, seen: set) -> str:
@@ -72,6 +89,13 @@ def bibtex(refs) -> str:
     for ref in refs:
         m = _FULL.match(ref)
         if not m:
+            short = re.match(r"^(?P<authors>.+) \((?P<year>\d{4})\)$", ref)
+            if short:  # an inline citation of a data note: authors and year only
+                key = _key(short["authors"], short["year"], seen)
+                authors = " and ".join(a.strip() for a in re.split(r",? & |, ", short["authors"]))
+                entries.append(f"@misc{{{key},\n  author = {{{authors}}},\n  year = "
+                               f"{{{short['year']}}},\n  note = {{cited in bayescrust's data "
+                               "files; full reference in the source note}\n}")
             continue
         title, _, venue = m["rest"].partition(". ")
         key = _key(m["authors"], m["year"], seen)
