@@ -206,7 +206,7 @@ def run_ensemble(
     watch=None,
     min_ess: float = 1000.0,
     tau_factor: float = 50.0,
-    tau_rtol: float = 0.2,
+    tau_rtol: float | None = 0.5,
     burn_factor: float = 5.0,
     min_steps: int = 300,
     max_steps: int = 20000,
@@ -233,8 +233,9 @@ def run_ensemble(
         independent draws: ``var(f) / mcse^2`` (see :func:`ensemble_mcse`).
     tau_factor : float
         The kept chain must be at least ``tau_factor * tau_max`` steps long (default 50).
-    tau_rtol : float
-        ``tau_max`` must not have grown by more than this fraction since the previous check.
+    tau_rtol : float or None
+        ``tau_max`` must not have grown by more than this fraction since the previous check
+        (default 0.5; ``None``: no such check).
     burn_factor : float
         Burn-in is ``burn_factor * tau_max`` steps (default 5), see Notes.
     min_steps, max_steps : int
@@ -349,11 +350,12 @@ def run_ensemble(
             burn_new = max(int(math.ceil(burn_factor * tmax)) if finite else n // 2,
                            reseed_step)
             n_kept = n - burn_new
-            # tau_max must not have grown since the previous check (a falling estimate is
-            # fine: the mode-population series gives noisy estimates, +-30 % at 50 tau)
-            stable = finite and tmax_old is not None and tmax <= (1.0 + tau_rtol) * tmax_old
+            # tau_max must not have grown much since the previous check (a falling estimate
+            # is fine: the mode-population series gives noisy estimates, +-30 % at 50 tau)
+            stable = tau_rtol is None or (finite and tmax_old is not None
+                                          and tmax <= (1.0 + tau_rtol) * tmax_old)
             if (finite and stable and n_kept >= tau_factor * tmax
-                    and np.all(ess_series >= min_ess) and burn_new <= burn + tmax):
+                    and np.all(ess_series >= min_ess)):
                 burn = burn_new
                 converged = True
                 break
