@@ -325,6 +325,9 @@ def run_ensemble(
                     watched[-1, stuck] = watched[-1, pick]
                 n_reseeded += int(stuck.sum())
                 reseed_step = n
+                tmax_old = None
+                target = min(max_steps, n + max(min_steps, stuck_steps))
+                continue
             # measure on the chain after the provisional burn-in
             start = min(max(burn, reseed_step), n - 1)
             kept = chain[start:]
