@@ -379,6 +379,7 @@ def run_ensemble(
     n = sampler.iteration
     burn = min(burn, n - 1)
     thin = max(1, int(np.min(tau) // 2)) if np.all(np.isfinite(tau)) else 1
+    thin = min(thin, n - burn)  # emcee keeps steps discard + thin - 1, ... : never none
     if not converged:
         warnings.warn(
             f"sampler stopped at max_steps={max_steps} before convergence: chain {n} steps, "
