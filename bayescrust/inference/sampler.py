@@ -212,6 +212,7 @@ def run_ensemble(
     max_steps: int = 20000,
     stuck_steps: int = 100,
     rare: float = 0.05,
+    series_factor: float = 25.0,
     moves=None,
     progress: bool = False,
 ) -> EnsembleRun:
@@ -246,6 +247,10 @@ def run_ensemble(
         A walker that has never moved in its first ``stuck_steps`` steps while others did
         (a start in a spot the moves cannot leave) is re-seeded from the position of a random
         other walker; the burn-in then starts after the re-seeding.
+    series_factor : float
+        The kept chain must be at least ``series_factor`` times the tau of each monitored
+        ensemble average (default 25; Geyer's estimator is stable at that length, and the ESS
+        target bounds the error itself).
     rare : float
         Watched functions whose mean is below ``rare`` or above ``1 - rare`` (rare regions)
         do not enter the stopping rule (their MCSE is still measured and reported).
@@ -359,10 +364,13 @@ def run_ensemble(
                                    (wmean < rare) | (wmean > 1.0 - rare)])
             series_tau = np.where(skip, np.nan, series_tau)
             ess_series = np.where(skip, np.inf, ess_series)
-            all_tau = np.concatenate([tau, series_tau[~skip]])
+            # the kept chain must be tau_factor walker taus long; ensemble averages need
+            # series_factor of their own tau (their ESS target is checked separately)
+            all_tau = np.concatenate([tau, series_tau[~skip] * series_factor / tau_factor])
             finite = bool(np.all(np.isfinite(all_tau)) and not np.any(np.isnan(ess_series)))
             tmax = float(np.max(all_tau)) if finite else math.nan
-            burn_new = max(int(math.ceil(burn_factor * tmax)) if finite else n // 2,
+            t_burn = float(np.max(np.concatenate([tau, series_tau[~skip]]))) if finite else 0.0
+            burn_new = max(int(math.ceil(burn_factor * t_burn)) if finite else n // 2,
                            reseed_step)
             n_kept = n - burn_new
             # tau_max must not have grown much since the previous check (a falling estimate
