@@ -212,7 +212,7 @@ def run_ensemble(
     max_steps: int = 20000,
     stuck_steps: int = 100,
     rare: float = 0.05,
-    series_factor: float = 25.0,
+    series_factor: float = 50.0,
     moves=None,
     progress: bool = False,
 ) -> EnsembleRun:
@@ -249,7 +249,8 @@ def run_ensemble(
         other walker; the burn-in then starts after the re-seeding.
     series_factor : float
         The kept chain must be at least ``series_factor`` times the tau of each monitored
-        ensemble average (default 25; Geyer's estimator is stable at that length, and the ESS
+        ensemble average (default 50; at 25 the two-mode case gave z rms 1.18 and spread/MCSE 1.23
+        over 18 seeds against 1.04 and 1.13 at 50, at half the cost; the ESS
         target bounds the error itself).
     rare : float
         Watched functions whose mean is below ``rare`` or above ``1 - rare`` (rare regions)
