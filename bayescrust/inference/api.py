@@ -11,7 +11,9 @@ from .evidence import (
     adaptive_design,
     evidence_from_posterior,
     log_mean_exp,
+    n_blocks,
     prior_design,
+    scramble_estimates,
     weigh_design,
 )
 from .hypotheses import default_hypotheses, indicators, validate_hypotheses
@@ -115,6 +117,55 @@ def _needs_prediction(hyps):
     return any(q in _PREDICTED for r in hyps.values() for q in r)
 
 
+def _initial_walkers(model, rng, w, n_candidates=None):
+    """``w`` distinct starting points resampled from prior draws by their likelihood.
+
+    Sampling-importance-resampling (Rubin 1988) without replacement from ``32 w`` prior draws:
+    the ensemble starts close to the posterior with each mode roughly as populated as it
+    should be. From raw prior draws the ensemble first collapses onto the larger mode and
+    refills a smaller one only slowly (on the two-mode test case the smaller mode was still
+    10 % short after 500 steps), which a burn-in of a few autocorrelation times does not
+    remove. The cost is one forward call on ``32 w`` points (~ 30 ensemble steps).
+    """
+    n = 32 * w if n_candidates is None else int(n_candidates)
+    cand = model.sample_prior(rng, n)
+    lp = model.log_prob(cand)
+    good = np.flatnonzero(np.isfinite(lp))
+    if good.size < w:
+        raise ValueError(f"only {good.size} of {n} prior draws have a finite posterior "
+                         "density; check the observations and priors")
+    ll = lp[good] - model.log_prior(cand[good])
+    wts = np.exp(ll - ll.max())
+    # at least a tiny weight everywhere, so that w distinct points can always be drawn
+    wts = np.maximum(wts, 1e-12 * wts.sum() / good.size)
+    pick = rng.choice(good.size, size=w, replace=False, p=wts / wts.sum())
+    return cand[good[pick]]
+
+
+def _watch(model, hyps):
+    """Hypothesis indicators of sampled points, (m, n_hypotheses), for the stopping rule."""
+    if not hyps:
+        return None
+    names, predict = list(hyps), _needs_prediction(hyps)
+
+    def watch(theta):
+        ind = indicators(hyps, model.quantities(theta, predict=predict))
+        return np.stack([np.asarray(ind[k], float) for k in names], axis=1)
+
+    return watch
+
+
+def _series_names(model, hyps):
+    return list(model.parameter_names) + ["lp"] + [f"hypothesis:{k}" for k in hyps]
+
+
+def _ess_ref(run):
+    """Smallest ESS of the sampler's monitored ensemble averages (coordinates, log-prob)."""
+    e = np.asarray(run.series_ess, float)
+    e = e[np.isfinite(e)]
+    return float(np.min(e)) if e.size else float("nan")
+
+
 def _prior_probabilities(model, hyps, rng, n):
     theta = model.sample_prior(rng, n)
     q = model.quantities(theta, predict=_needs_prediction(hyps))
@@ -213,16 +264,10 @@ def invert_layer(
     if w < 2 * d + 2:
         raise ValueError(f"n_walkers must be >= 2 * ndim + 2 = {2 * d + 2}; got {w}")
     w += w % 2
-    # Initial walkers from the prior, kept where the posterior is finite.
-    cand = model.sample_prior(r_init, 4 * w)
-    lp = model.log_prob(cand)
-    good = np.flatnonzero(np.isfinite(lp))
-    if good.size < w:
-        raise ValueError(f"only {good.size} of {4 * w} prior draws have a finite posterior "
-                         "density; check the observations and priors")
-    init = cand[good[:w]]
-    run = run_ensemble(model.log_prob, init, rng=r_run, min_ess=min_ess, max_steps=max_steps,
-                       tau_factor=tau_factor, progress=progress)
+    init = _initial_walkers(model, r_init, w)
+    run = run_ensemble(model.log_prob, init, rng=r_run, watch=_watch(model, hyps),
+                       min_ess=min_ess, max_steps=max_steps, tau_factor=tau_factor,
+                       progress=progress)
     nd, nw, _ = run.samples.shape
     flat = run.samples.transpose(1, 0, 2).reshape(-1, d)   # walker-major: (chain, draw)
     q = model.quantities(flat)
@@ -233,7 +278,7 @@ def invert_layer(
     prior = _posterior_dict(model, qp, (1, n_prior))
     p_prior = _prior_probabilities(model, hyps, r_hyp, 10 * n_prior)
     n_prior_draws = {k: 10 * n_prior for k in p_prior}
-    p_post, se_post = probabilities_mcmc(hyps, post, ess_ref=float(np.min(run.ess)))
+    p_post, se_post = probabilities_mcmc(hyps, post, ess_ref=_ess_ref(run))
     if evidence:
         log_z, log_z_err = evidence_from_posterior(
             model.log_prob, model.log_prior, model.sample_prior, flat, r_ev, n=n_evidence)
@@ -243,6 +288,11 @@ def invert_layer(
         "method": "mcmc", "n_walkers": nw, "n_steps": run.n_steps, "burn": run.burn,
         "thin": run.thin, "tau": dict(zip(model.parameter_names, run.tau.tolist(), strict=True)),
         "ess_stopping": dict(zip(model.parameter_names, run.ess.tolist(), strict=True)),
+        "tau_ensemble": dict(zip(_series_names(model, hyps), run.series_tau.tolist(),
+                                 strict=True)),
+        "ess_ensemble": dict(zip(_series_names(model, hyps), run.series_ess.tolist(),
+                                 strict=True)),
+        "n_reseeded": run.n_reseeded,
         "converged": run.converged, "acceptance": float(np.mean(run.acceptance)),
         "n_checks": run.n_checks, "sampling_time_s": run.wall_time_s,
         "total_time_s": time.perf_counter() - t0,
@@ -300,9 +350,10 @@ def exact_layer(
     forward=None,
     seed=None,
     rng=None,
-    n_points=2**15,
+    n_points=2**16,
     n_draws=4000,
     min_importance_ess=2000,
+    n_scrambles=8,
     **_ignored_sampler_options,
 ) -> LayerResult:
     """Exact reference: posterior and evidence by randomised quasi-Monte Carlo integration.
@@ -310,13 +361,18 @@ def exact_layer(
     Same arguments as :func:`invert_layer` (sampler options are accepted and ignored). Points
     of a scrambled Sobol sequence (``n_points``, rounded up to a power of two) are mapped
     through the prior's quantile transform and weighted by the likelihood; hypothesis
-    probabilities are self-normalised weighted means with delta-method standard errors; the
-    evidence is the mean likelihood with standard error ``sd(L) / (sqrt(n) mean(L))`` (the
-    plain Monte Carlo error, conservative for a randomised QMC design). The posterior group
+    probabilities are self-normalised weighted means and the evidence is the mean likelihood.
+    The design is ``n_scrambles`` (default 8) independently scrambled sequences, and the
+    errors come from the spread of their estimates
+    (:func:`bayescrust.inference.evidence.scramble_estimates`; the plain Monte Carlo formula
+    overstates a QMC design's error 10-70 times, which would make every agreement test
+    toothless). With 8 replicates an error is itself uncertain by ~27 % (z-scores against it
+    follow a t distribution with 7 degrees of freedom). The posterior group
     holds ``n_draws`` weighted resamples. When the weights' effective size is below
     ``min_importance_ess`` (a concentrated posterior), a second stage draws ``n_points`` from a
     defensive mixture of the prior and a Gaussian kernel mixture fitted to the first stage (in
-    the prior's unit hypercube) and uses those weights instead (see
+    the prior's unit hypercube) and uses those weights instead, with delta-method errors
+    (plain importance sampling, for which they are right; see
     :func:`bayescrust.inference.evidence.adaptive_design`); prior probabilities always come
     from the first-stage prior design. Practical up to ~4 free parameters; a
     :class:`~bayescrust.inference.sampler.ConvergenceWarning` is issued when the weights'
@@ -330,14 +386,20 @@ def exact_layer(
     model, hyps = _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forward)
     r_design, r_draw, r_adapt = rng.spawn(3)
     t0 = time.perf_counter()
-    theta, q, u1 = prior_design(model, r_design, n_points)
+    theta, q, u1 = prior_design(model, r_design, n_points, n_scrambles=n_scrambles)
     loglik, ll_terms = weigh_design(model, q)
     n = loglik.shape[0]
+    k_scr = n_blocks(n_points, n_scrambles) if model.ndim else 1
     ind = indicators(hyps, q)
     p_prior = {k: float(np.mean(v)) for k, v in ind.items()}
     n_prior_draws = {k: n for k in ind}
     q_prior = q  # the stage-1 design is a prior sample; stage 2 replaces q below
     log_z, log_z_err, wts, ess = _weights(loglik, np.zeros(n))
+    scr = None
+    if k_scr >= 2:
+        log_z, log_z_err, p_scr, se_scr = scramble_estimates(
+            loglik, {k: v for k, v in ind.items()}, k_scr)
+        scr = (p_scr, se_scr)
     stages = 1
     if ess < min_importance_ess and n > 1:
         # Stage 2: adaptive importance sampling from a kernel mixture fitted to stage 1.
@@ -352,6 +414,7 @@ def exact_layer(
         n = loglik.shape[0]
         ind = indicators(hyps, q)
         stages = 2
+        scr = None
     sw = wts.sum()
     if not sw > 0:
         raise ValueError("the likelihood is zero at every design point; check the observations")
@@ -364,6 +427,8 @@ def exact_layer(
         p = float(np.sum(wts * v) / sw)
         p_post[k] = p
         se_post[k] = float(np.sqrt(np.sum(wts**2 * (v - p) ** 2)) / sw)
+    if scr is not None:
+        p_post, se_post = scr
     idx = r_draw.choice(n, size=n_draws, p=wts / sw)
     qd = {k: np.asarray(v)[idx] if np.ndim(v) else np.full(n_draws, v) for k, v in q.items()}
     post = _posterior_dict(model, qd, (1, n_draws))
@@ -376,7 +441,8 @@ def exact_layer(
     settings = {**model.settings, "method": "exact", "seed": seed_val,
                 "hypotheses": {k: {q_: list(v) for q_, v in r.items()} for k, r in hyps.items()},
                 "exact": {"design": "scrambled Sobol through the prior quantiles",
-                          "n_points": n, "n_draws": n_draws}}
+                          "n_points": n, "n_draws": n_draws,
+                          "n_scrambles": k_scr if stages == 1 else 1}}
     idata = build_idata(
         posterior=post, prior=prior, log_likelihood=ll,
         sample_stats={"lp": (model.log_prior(theta[idx]) + loglik[idx]).reshape(1, n_draws)},

@@ -270,28 +270,27 @@ def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool 
 
 
 def probabilities_mcmc(hyps: dict, q: dict, ess_ref: float | None = None):
-    """Posterior probability and MCSE of each hypothesis from (chain, draw) quantity arrays.
+    """Posterior probability and MCSE of each hypothesis from (walker, draw) quantity arrays.
 
-    The MCSE is ``sqrt(p~ (1 - p~) / ESS)`` with ``ESS`` the smaller of the indicator's
-    effective sample size (arviz, method "mean") and ``ess_ref`` (the sampler's
-    autocorrelation-based ESS, which stays reliable when an indicator has few hits), and
-    ``p~ = (ESS p + 2) / (ESS + 4)`` the Agresti & Coull (1998) adjusted proportion computed with
-    effective counts, so that rare (or absent) regions do not get a near-zero error.
+    The error is measured on the ensemble (:func:`bayescrust.inference.sampler.ensemble_mcse`):
+    the autocorrelation of the ensemble-average indicator series, which sees walker-to-walker
+    correlation and slow hopping between modes, gives the indicator's effective sample size
+    ``ESS = p (1 - p) / mcse^2``. The reported error is ``sqrt(p~ (1 - p~) / ESS)`` with
+    ``p~ = (ESS p + 2) / (ESS + 4)``, the Agresti & Coull (1998) adjusted proportion with
+    effective counts, so that rare (or absent) regions do not get a near-zero error; when the
+    indicator is constant over the run (p = 0 or 1) ``ESS`` is ``ess_ref`` (the smallest
+    effective sample size of the sampler's monitored averages), else the number of draws.
     """
-    import arviz as az
+    from .sampler import ensemble_mcse
 
     ind = indicators(hyps, q)
     p, se = {}, {}
     for name, m in ind.items():
-        m = np.asarray(m, float)
-        pm = float(m.mean())
-        ess = float(m.size) if ess_ref is None else float(ess_ref)
-        if 0.0 < pm < 1.0:
-            with warnings.catch_warnings():
-                warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
-                ess_i = float(az.ess(m, method="mean"))
-            if np.isfinite(ess_i):
-                ess = min(ess, ess_i)
+        m = np.atleast_2d(np.asarray(m, float))
+        pm, mc, _ = ensemble_mcse(m)
+        ess = float(m.size) if ess_ref is None or not np.isfinite(ess_ref) else float(ess_ref)
+        if 0.0 < pm < 1.0 and mc > 0:
+            ess = min(float(m.size), pm * (1.0 - pm) / mc**2)
         ess = max(ess, 1.0)
         pt = (ess * pm + 2.0) / (ess + 4.0)
         se[name] = math.sqrt(pt * (1 - pt) / ess)

@@ -17,8 +17,9 @@ def test_chart_equals_exact_reference_at_each_vp():
     tab = bc.probability_chart(LAYER, vps, thermal_priors=tp, seed=3, **KW)
     for v in vps:
         layer = bc.Layer("lc", top_km=4.0, bottom_km=6.0, water_depth_km=3.0, vp=(v, 0.1))
+        # the chart's design: one scrambled Sobol sequence of 2^15 points
         ex = bc.exact_layer(layer, seed=3, priors={**KW["priors"], "temperature_c": tp["uniform"]},
-                            rocks=KW["rocks"])
+                            rocks=KW["rocks"], n_points=2**15, n_scrambles=1)
         assert ex.diagnostics["stages"] == 1
         sub = tab[np.isclose(tab.vp, v)].set_index("hypothesis")
         for h, row in ex.hypotheses.iterrows():

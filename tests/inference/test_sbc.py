@@ -1,9 +1,20 @@
-"""Simulation-based calibration (Talts et al. 2018, arXiv:1804.06788) on a small model.
+"""Simulation-based calibration (Talts et al. 2018, arXiv:1804.06788) that can fail.
 
-Draw parameters from the prior, simulate observations from the likelihood, infer, and record
-the rank of the true value among L = 99 posterior draws. A calibrated method gives ranks
-uniform on {0, ..., 99}: tested by a chi-square test on 10 equal bins (p > 0.01), and by the
-coverage of central 50 % and 90 % credible intervals (ranks 25-74 and 5-94).
+Draw parameters from the prior, simulate observations from the likelihood, infer, and rank
+the true value of each test quantity among L = 99 posterior draws. Calibrated inference gives
+ranks uniform on {0, ..., 99}. Test quantities (Modrak et al. 2023, Bayesian Analysis,
+"Simulation-based calibration checking for Bayesian computation: the choice of test
+quantities shapes sensitivity"): every free parameter (harzburgite fraction, temperature,
+melt fraction, serpentinisation), the *effective* melt and serpentinisation (which switch on
+and off at the solidus and the serpentine limit; point masses at zero, ties broken at random),
+the predicted Vp and Vs, and the log-likelihood of the simulated data, which reacts to a
+wrong data model. Hypothesis probabilities (including T <= 300 C, the small cold mode of the
+two-mode case) are checked by the calibration identity E[1(theta in H) - P(H | y)] = 0.
+
+Decision rule (``_suite_passes``): chi-square on 10 rank bins per quantity and the
+hypothesis z-scores, Bonferroni over all of them at a 1 % family-wise level. The same rule must
+reject deliberately wrong inference (the likelihood's sigma halved; Vp biased by
++0.06 km/s) at the replicate count used: the suite has power, measured and stated below.
 """
 
 import numpy as np
@@ -12,86 +23,156 @@ from scipy import stats
 
 import bayescrust as bc
 from bayescrust.inference.evidence import prior_design
+from bayescrust.inference.hypotheses import indicators
 from bayescrust.inference.model import LayerModel
 
 L_DRAWS = 99
+SIGMA = 0.08  # km/s, of Vp and Vs
 LAYER = bc.Layer("lower crust", top_km=4.0, bottom_km=6.0, water_depth_km=3.0,
-                 vp=(7.0, 0.1), vs=(3.9, 0.1))
-# Two free parameters (harzburgite fraction, temperature): everything else fixed.
-CONFIG = dict(rocks=("gabbro", "harzburgite"),
-              priors={"porosity": 0.0, "melt_fraction": 0.0, "serpentinization": 0.0,
-                      "temperature_c": bc.priors.Uniform(0.0, 1200.0)},
+                 vp=(7.4, SIGMA), vs=(4.1, SIGMA))
+# Free: harzburgite fraction, temperature, melt fraction, serpentinisation (porosity fixed).
+CONFIG = dict(rocks=("gabbro", "harzburgite"), priors={"porosity": 0.0},
               forward={"inclusion_scheme": "kuster_toksoz"})
+HYPOTHESES = {"cold (T <= 300 C)": {"temperature_c": (-np.inf, 300.0)},
+              "serpentinised": {"serpentinization_effective": (0.1, np.inf)},
+              "melt present": {"melt_fraction_effective": (0.005, np.inf)},
+              "mostly mantle": {"ultramafic_fraction": (0.5, np.inf)}}
+RANKED = ("harzburgite", "temperature_c", "melt_fraction", "serpentinization",
+          "melt_fraction_effective", "serpentinization_effective", "vp", "vs", "loglik")
 
 
-def _simulate(model, rng, m):
-    theta = model.sample_prior(rng, m)
-    q = model.quantities(theta)
-    y = {k: q[k] + model.total_sigma(k, q[k]) * rng.standard_normal(m) for k in model.observed}
-    return theta, y
+def _model(sigma=SIGMA):
+    layer = bc.Layer("sbc", top_km=4.0, bottom_km=6.0, water_depth_km=3.0,
+                     vp=(7.4, sigma), vs=(4.1, sigma))
+    return LayerModel.build(layer, **CONFIG)
 
 
-def _check(ranks, m):
-    for j in range(ranks.shape[1]):
-        counts = np.bincount(ranks[:, j] // 10, minlength=10)
-        assert stats.chisquare(counts).pvalue > 0.01, counts
-        cov50 = np.mean((ranks[:, j] >= 25) & (ranks[:, j] <= 74))
-        cov90 = np.mean((ranks[:, j] >= 5) & (ranks[:, j] <= 94))
-        # 3 binomial standard errors for m replicates
-        assert abs(cov50 - 0.5) < 3 * np.sqrt(0.25 / m), cov50
-        assert abs(cov90 - 0.9) < 3 * np.sqrt(0.09 / m), cov90
+def _rank(draws, true, rng):
+    """Rank of ``true`` among ``draws`` (last axis), ties broken uniformly at random."""
+    below = np.sum(draws < true[..., None], axis=-1)
+    ties = np.sum(draws == true[..., None], axis=-1)
+    return below + np.floor(rng.random(below.shape) * (ties + 1)).astype(int)
 
 
-def _ranks_exact(m, seed):
-    model = LayerModel.build(LAYER, **CONFIG)
+def sbc_exact(m, seed, *, infer_sigma=SIGMA, vp_bias=0.0, n_design=2**14):
+    """Ranks (m, len(RANKED)) and hypothesis z-scores of the exact path on m replicates.
+
+    Data are simulated from the model with ``SIGMA``; inference uses ``infer_sigma`` and
+    observations shifted by ``vp_bias`` (both equal to the truth for calibrated inference).
+    The prior design is shared by all replicates (the batched grid fast path).
+    """
+    sim, fit = _model(), _model(infer_sigma)
     rng = np.random.default_rng(seed)
-    theta_true, y = _simulate(model, rng, m)
-    theta, q, _ = prior_design(model, rng, 2**14)
-    # batched likelihood: one row per simulated data set (the grid fast path)
-    ll = sum(model.log_likelihood_terms(q, {k: v[:, None] for k, v in y.items()}).values())
+    theta_true = sim.sample_prior(rng, m)
+    q_true = sim.quantities(theta_true)
+    y = {k: q_true[k] + sim.total_sigma(k, q_true[k]) * rng.standard_normal(m)
+         for k in sim.observed}
+    y_fit = {"vp": y["vp"] + vp_bias, "vs": y["vs"]}
+    ll_true = sum(sim.log_likelihood_terms(q_true, y_fit).values())
+    _, q, _ = prior_design(fit, rng, n_design)
+    ll = sum(fit.log_likelihood_terms(q, {k: v[:, None] for k, v in y_fit.items()}).values())
     w = np.exp(ll - ll.max(axis=1, keepdims=True))
-    ranks = np.empty((m, model.ndim), int)
-    for i in range(m):  # one resampling per replicate
-        idx = rng.choice(w.shape[1], size=L_DRAWS, p=w[i] / w[i].sum())
-        ranks[i] = np.sum(theta[idx] < theta_true[i], axis=0)
-    return ranks
+    w /= w.sum(axis=1, keepdims=True)
+    ess = 1.0 / np.sum(w * w, axis=1)
+    assert np.median(ess) > 200  # the exact reference resolves the typical posterior
+    ind_true = indicators(HYPOTHESES, q_true)
+    ind_design = indicators(HYPOTHESES, q)
+    p_h = {h: w @ ind_design[h].astype(float) for h in HYPOTHESES}
+    cum = np.cumsum(w, axis=1)
+    idx = np.minimum((cum[:, None, :] < rng.random((m, L_DRAWS, 1))).sum(axis=2),
+                     w.shape[1] - 1)  # L draws per replicate, inverse-CDF resampling
+    ranks = np.empty((m, len(RANKED)), int)
+    for j, name in enumerate(RANKED):
+        if name == "loglik":
+            draws, true = ll[np.arange(m)[:, None], idx], ll_true
+        else:
+            draws, true = np.asarray(q[name])[idx], np.asarray(q_true[name])
+        ranks[:, j] = _rank(draws, true, rng)
+    z = {}
+    for h in HYPOTHESES:
+        p = p_h[h]
+        z[h] = float(np.sum(ind_true[h] - p) / np.sqrt(np.sum(p * (1 - p)) + 1e-12))
+    return ranks, z
 
 
-def test_sbc_exact_reference():
-    m = 300
-    _check(_ranks_exact(m, seed=2024), m)
+def suite_pvalue(ranks, z):
+    """Bonferroni-adjusted smallest p-value of the rank chi-squares and hypothesis z-tests."""
+    p = [stats.chisquare(np.bincount(ranks[:, j] * 10 // (L_DRAWS + 1), minlength=10)).pvalue
+         for j in range(ranks.shape[1])]
+    p += [2 * stats.norm.sf(abs(v)) for v in z.values()]
+    return min(1.0, min(p) * len(p))
+
+
+def _suite_passes(ranks, z, alpha=0.01):
+    return suite_pvalue(ranks, z) > alpha
+
+
+M_DEFAULT = 300
+
+
+def test_sbc_exact_calibrated():
+    ranks, z = sbc_exact(M_DEFAULT, seed=2024)
+    assert _suite_passes(ranks, z), (suite_pvalue(ranks, z), z)
+    # central-interval coverage of every ranked quantity, 3 binomial standard errors
+    cov90 = np.mean((ranks >= 5) & (ranks <= 94), axis=0)
+    assert np.all(np.abs(cov90 - 0.9) < 3 * np.sqrt(0.09 / M_DEFAULT)), cov90
+
+
+@pytest.mark.parametrize("fault", [{"infer_sigma": SIGMA / 2}, {"vp_bias": 0.06}],
+                         ids=["sigma halved", "Vp bias +0.06"])
+def test_sbc_detects_injected_miscalibration(fault):
+    # The suite must fail for wrong inference at the replicate count it uses.
+    ranks, z = sbc_exact(M_DEFAULT, seed=2024, **fault)
+    assert not _suite_passes(ranks, z), suite_pvalue(ranks, z)
 
 
 @pytest.mark.slow
-def test_sbc_exact_reference_large():
-    m = 2000
-    _check(_ranks_exact(m, seed=7), m)
+@pytest.mark.parametrize("fault", [{}, {"infer_sigma": SIGMA / 2}, {"infer_sigma": 2 * SIGMA},
+                                   {"vp_bias": 0.06}, {"vp_bias": 0.03}],
+                         ids=["none", "sigma halved", "sigma doubled", "Vp bias 0.06",
+                              "Vp bias 0.03"])
+def test_sbc_exact_power_large(fault):
+    # Over 10 independent suites of the default size: the calibrated one passes (>= 8 of 10,
+    # nominal 9.9), the faulty ones fail (<= 2 of 10), except the small 0.03 bias, whose power
+    # is only reported (printed).
+    passes = [_suite_passes(*sbc_exact(M_DEFAULT, seed=100 + i, **fault)) for i in range(10)]
+    print(f"fault {fault}: suite passed {sum(passes)} of 10")
+    if not fault:
+        assert sum(passes) >= 8
+    elif fault != {"vp_bias": 0.03}:
+        assert sum(passes) <= 2
 
 
-def _ranks_mcmc(m, seed):
+def _sbc_mcmc(m, seed):
     import warnings
 
-    model = LayerModel.build(LAYER, **CONFIG)
     rng = np.random.default_rng(seed)
-    theta_true, y = _simulate(model, rng, m)
-    ranks = np.empty((m, model.ndim), int)
+    sim = _model()
+    theta_true = sim.sample_prior(rng, m)
+    q_true = sim.quantities(theta_true)
+    names = RANKED[:-1]
+    ranks = np.empty((m, len(names)), int)
     for i in range(m):
+        y = {k: float(q_true[k][i] + sim.total_sigma(k, q_true[k][i]) * rng.standard_normal())
+             for k in sim.observed}
         layer = bc.Layer("sim", top_km=4.0, bottom_km=6.0, water_depth_km=3.0,
-                         vp=(float(np.clip(y["vp"][i], 0.5, 12)), 0.1),
-                         vs=(float(np.clip(y["vs"][i], 0.1, 8)), 0.1))
+                         vp=(float(np.clip(y["vp"], 0.5, 12)), SIGMA),
+                         vs=(float(np.clip(y["vs"], 0.1, 8)), SIGMA))
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", bc.ConvergenceWarning)
-            res = bc.invert_layer(layer, **CONFIG, seed=int(rng.integers(2**31)), min_ess=400,
-                                  max_steps=4000, evidence=False, n_prior=100)
+            res = bc.invert_layer(layer, **CONFIG, hypotheses=HYPOTHESES,
+                                  seed=int(rng.integers(2**31)), min_ess=400, max_steps=6000,
+                                  evidence=False, n_prior=100)
         post = res.idata.posterior
-        draws = np.stack([post["gabbro"].values.ravel(),
-                          post["temperature_c"].values.ravel()], axis=1)
-        idx = rng.choice(draws.shape[0], size=L_DRAWS, replace=False)
-        ranks[i] = np.sum(draws[idx] < theta_true[i], axis=0)
+        flat = {k: post[k].values.ravel() for k in names}
+        idx = rng.choice(flat[names[0]].size, size=L_DRAWS, replace=False)
+        for j, k in enumerate(names):
+            ranks[i, j] = _rank(flat[k][idx], np.asarray(q_true[k][i]), rng)
     return ranks
 
 
 @pytest.mark.slow
 def test_sbc_mcmc():
-    m = 100
-    _check(_ranks_mcmc(m, seed=99), m)
+    m = 150
+    ranks = _sbc_mcmc(m, seed=99)
+    assert _suite_passes(ranks, {}), suite_pvalue(ranks, {})
