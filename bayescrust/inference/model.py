@@ -524,6 +524,29 @@ class LayerModel:
             out[k] = np.where(np.isfinite(ll), ll, -np.inf)
         return out
 
+    def simulate_observations(self, pred: dict, rng: np.random.Generator) -> dict:
+        """Observations drawn from the likelihood at predictions ``pred`` (one per element).
+
+        The same law as :meth:`log_likelihood_terms`: measurement and model error in
+        quadrature, the Vp and Vs model errors correlated (Vs drawn given the simulated Vp),
+        Gaussian or Student-t noise. Used for simulation-based calibration.
+        """
+        obs = self.observed
+        out = {}
+        for k in sorted(obs, key=lambda name: name != "vp"):
+            mean = np.asarray(pred[k], float)
+            sig = self.total_sigma(k, mean)
+            if k == "vs" and self._correlated(obs):
+                c = (MODEL_ERROR_CORRELATION * self.model_error["vp"] * self.model_error["vs"]
+                     * np.asarray(pred["vp"]) * mean)
+                sig_p = self.total_sigma("vp", pred["vp"])
+                mean = mean + c / sig_p**2 * (out["vp"] - pred["vp"])
+                sig = np.sqrt(np.maximum(sig * sig - (c / sig_p) ** 2, 1e-300))
+            noise = (rng.standard_normal(mean.shape) if self.likelihood == "gaussian"
+                     else rng.standard_t(self.nu, size=mean.shape))
+            out[k] = mean + sig * noise
+        return out
+
     def _correlated(self, obs) -> bool:
         """Whether the Vs term is conditional on Vp (Gaussian likelihood, both observed, no
         separate Vp/Vs datum); Student-t errors are treated as independent."""

@@ -290,11 +290,13 @@ def run_ensemble(
     bar = None
     if progress:
         from tqdm.auto import tqdm
-
-        bar = tqdm(total=max_steps, desc="sampling", unit="step")
     t0 = time.perf_counter()
     state = emcee.State(initial)
     target = min(max(min_steps, 1), max_steps)
+    if progress:
+        # sized to the steps planned so far (re-sized at every check), not to max_steps
+        bar = tqdm(total=target, desc="sampling (planned length grows as tau is measured)",
+                   unit="step")
     tmax_old = None
     tau = np.full(ndim, np.nan)
     series_tau = np.full(ndim + 1, np.nan)
@@ -337,6 +339,9 @@ def run_ensemble(
                 reseed_step = n
                 tmax_old = None
                 target = min(max_steps, n + max(min_steps, stuck_steps))
+                if bar is not None:
+                    bar.total = target
+                    bar.refresh()
                 continue
             # measure on the chain after the provisional burn-in
             start = min(max(burn, reseed_step), n - 1)
@@ -382,6 +387,9 @@ def run_ensemble(
                     and np.all(ess_series >= min_ess)):
                 burn = burn_new
                 converged = True
+                if bar is not None:  # done: the bar ends at 100 %
+                    bar.total = n
+                    bar.refresh()
                 break
             burn = min(burn_new, n - 1)
             if n >= max_steps:
@@ -392,6 +400,9 @@ def run_ensemble(
             else:
                 need = 2 * n
             target = int(min(max_steps, max(1.1 * need, 1.25 * n, n + 50)))
+            if bar is not None:
+                bar.total = target
+                bar.refresh()
             tmax_old = tmax if finite else None
     finally:
         if bar is not None:

