@@ -14,7 +14,8 @@ two-mode case) are checked by the calibration identity E[1(theta in H) - P(H | y
 Decision rule (``_suite_passes``): chi-square on 10 rank bins per quantity and the
 hypothesis z-scores, Bonferroni over all of them at a 1 % family-wise level. The same rule must
 reject deliberately wrong inference (the likelihood's measurement sigma halved; Vp biased by
-+0.12 km/s, ~0.55 of the total Vp sigma) at the replicate count used: the suite has power, measured and stated below.
++0.12 km/s, ~0.55 of the total Vp sigma) at the replicate count used: the suite has
+power, measured and stated below.
 """
 
 import numpy as np
