@@ -123,7 +123,8 @@ def cmd_demo(args) -> int:
             "- `study/`: the demo study files (edit them and run `bayescrust invert`)",
             f"- `invert/`: every layer inverted ({method}); start with `invert/report.md`",
             *(["- `mcmc/`: the deep layer of TL-12 by MCMC (emcee), the main sampler; its "
-               "probabilities, with their Monte Carlo errors, can be set beside the exact reference in `invert/`"]
+               "probabilities, with their Monte Carlo errors, can be set beside the exact "
+               "reference in `invert/`"]
               if method != "mcmc" else []),
             f"- `compare/`: the deep layers under three thermal-state priors ({compare_method})",
             "- `chart/`: probability of each interpretation against observed Vp",
