@@ -356,13 +356,17 @@ class ForwardModel:
         flat = [np.ascontiguousarray(a, dtype=float).ravel() for a in args[:-1]]
         f = np.broadcast_to(f, shape + (f.shape[-1],)).reshape(-1, f.shape[-1])
         n = f.shape[0]
-        out = np.empty((3, n))
+        t_c, p, phi, ar, melt, mar, serp, p_pore = flat
+        solid = np.empty((3, n))
         for start in range(0, n, _CHUNK):  # loop over cache-sized blocks, not over samples
             sl = slice(start, start + _CHUNK)
-            out[:, sl] = self._evaluate(f[sl], *(a[sl] for a in flat))
-        return out[0].reshape(shape), out[1].reshape(shape), out[2].reshape(shape)
+            solid[:, sl] = self._solid(f[sl], t_c[sl], p[sl], serp[sl])
+        # the inclusion schemes block their own work internally: one call on every row
+        vp, vs, rho = self._finish(*solid, t_c, p, phi, ar, melt, mar, p_pore)
+        return vp.reshape(shape), vs.reshape(shape), rho.reshape(shape)
 
-    def _evaluate(self, f, t_c, p, phi, ar, melt, mar, serp, p_pore):
+    def _solid(self, f, t_c, p, serp):
+        """Moduli (GPa) and density of the pore- and melt-free aggregate of flat rows."""
         t_k = t_c + CELSIUS_TO_KELVIN
         x = self.mineral_fractions(f, serp)
         rho_m, k_m, g_m = minerals._mineral_state(self._table, t_k, p)
@@ -381,6 +385,11 @@ class ForwardModel:
             k_sp, g_sp = mix(np.broadcast_to(self._serp_modes, x.shape), k_m, g_m)
             k_s, g_s = serpentinization.SERPENTINE_MIXING[self.serpentine_mixing](
                 k_f, g_f, k_sp, g_sp, s_rock)
+        return k_s, g_s, rho_s
+
+    def _finish(self, k_s, g_s, rho_s, t_c, p, phi, ar, melt, mar, p_pore):
+        """Pores, melt and anelasticity on the solid aggregate: Vp, Vs (km/s), density."""
+        t_k = t_c + CELSIUS_TO_KELVIN
         rho = rho_s
         has = (phi > 0) | (melt > 0)
         if has.any():
