@@ -44,7 +44,7 @@ def evidence_table(comparison):
 
 
 def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=None):
-    """Four panels against depth: temperature, Vp/Vs, interpretations, boundary depth.
+    """Five panels against depth: temperature, velocities, Vp/Vs, interpretations, boundary.
 
     Parameters
     ----------
@@ -62,8 +62,8 @@ def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=
     import matplotlib.pyplot as plt
 
     prof = result.profile
-    fig = fig or plt.figure(figsize=(13, 5.5))
-    axes = fig.subplots(1, 4, sharey=True)
+    fig = fig or plt.figure(figsize=(16, 5.5))
+    axes = fig.subplots(1, 5, sharey=True)
     mids = prof.mid_depths_km
     tops, bots = prof.tops_km, prof.bottoms_km
     lay = result.draws["layers"]
@@ -99,8 +99,30 @@ def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=
     handles, labels = ax.get_legend_handles_labels()
     keep = dict(zip(labels, handles, strict=True))
     ax.legend(keep.values(), keep.keys(), fontsize=7)
-    # 3. stacked interpretation probabilities
+    # 3. Vp/Vs observed (a Vp/Vs datum, or Vp and Vs with first-order error propagation)
+    #    and predicted
     ax = axes[2]
+    ratio = lay["vp_vs"] if "vp_vs" in lay else lay["vp"] / lay["vs"]
+    r = np.nanquantile(ratio, [0.05, 0.5, 0.95], axis=0)
+    ax.errorbar(r[1], mids + 0.08, xerr=[r[1] - r[0], r[2] - r[1]], fmt="s", ms=3,
+                color=PALETTE[2], label="Vp/Vs predicted")
+    for i, layer in enumerate(prof.layers):
+        ob = layer.observed
+        if "vp_vs" in ob:
+            val, err = ob["vp_vs"]
+        elif "vp" in ob and "vs" in ob:
+            val = ob["vp"][0] / ob["vs"][0]
+            err = val * np.hypot(ob["vp"][1] / ob["vp"][0], ob["vs"][1] / ob["vs"][0])
+        else:
+            continue
+        ax.errorbar(val, mids[i] - 0.08, xerr=err, fmt="o", mfc="none", color=PALETTE[2],
+                    label="Vp/Vs observed")
+    ax.set_xlabel("Vp/Vs")
+    handles, labels = ax.get_legend_handles_labels()
+    keep = dict(zip(labels, handles, strict=True))
+    ax.legend(keep.values(), keep.keys(), fontsize=7)
+    # 4. stacked interpretation probabilities
+    ax = axes[3]
     h = result.hypotheses[result.hypotheses["hypothesis"] != "mantle rock"]
     names = list(dict.fromkeys(h["hypothesis"]))
     for i, layer in enumerate(prof.names):
@@ -113,8 +135,8 @@ def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=
             left += w
     ax.set_xlabel("probability (hypotheses may overlap)")
     ax.legend(fontsize=7, loc="lower right")
-    # 4. boundary depth
-    ax = axes[3]
+    # 5. boundary depth
+    ax = axes[4]
     b = result.boundary
     ax.barh(b["depth_km"].iloc[:-1], b["probability"].iloc[:-1], height=0.3, color=PALETTE[4])
     ax.set_xlabel("P(crust-mantle boundary)")

@@ -151,3 +151,23 @@ def test_uncoupled_heat_flow_and_evidence_runs():
     r = exact_profile(_profile(Uncoupled(), HeatFlow(200.0, 50.0)), n_layer=2**10,
                       n_replicates=2, seed=0)
     assert math.isfinite(r.log_evidence) and r.thermal.empty
+
+
+def test_profile_figure_shows_observed_and_predicted_vp_vs():
+    # the profile figure carries a Vp/Vs panel: predicted per layer, and observed where a layer
+    # has Vp and Vs (the ratio and its first-order error)
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from bayescrust.profile import exact_profile
+    from bayescrust.report.profile import profile_figure
+
+    layers = [Layer("a", top_km=1.0, bottom_km=4.0, vp=(6.8, 0.1), vs=(3.8, 0.1)),
+              Layer("b", top_km=4.0, bottom_km=7.0, vp=(8.0, 0.1))]
+    r = exact_profile(Profile(layers, Uncoupled(), water_depth_km=3.0), n_layer=2**10,
+                      n_replicates=2, seed=0)
+    fig = profile_figure(r)
+    ax = [a for a in fig.axes if a.get_xlabel() == "Vp/Vs"]
+    assert len(ax) == 1
+    labels = ax[0].get_legend_handles_labels()[1]
+    assert "Vp/Vs predicted" in labels and "Vp/Vs observed" in labels
