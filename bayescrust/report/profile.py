@@ -59,10 +59,10 @@ def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=
     -------
     matplotlib.figure.Figure
     """
-    import matplotlib.pyplot as plt
+    from matplotlib.figure import Figure
 
     prof = result.profile
-    fig = fig or plt.figure(figsize=(16, 5.5))
+    fig = fig or Figure(figsize=(16, 5.5))  # not pyplot: nothing left in its global state
     axes = fig.subplots(1, 5, sharey=True)
     mids = prof.mid_depths_km
     tops, bots = prof.tops_km, prof.bottoms_km

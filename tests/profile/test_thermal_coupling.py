@@ -166,7 +166,10 @@ def test_profile_figure_shows_observed_and_predicted_vp_vs():
               Layer("b", top_km=4.0, bottom_km=7.0, vp=(8.0, 0.1))]
     r = exact_profile(Profile(layers, Uncoupled(), water_depth_km=3.0), n_layer=2**10,
                       n_replicates=2, seed=0)
+    import matplotlib.pyplot as plt
+
     fig = profile_figure(r)
+    assert plt.get_fignums() == []  # a Figure, not left open in pyplot's global state
     ax = [a for a in fig.axes if a.get_xlabel() == "Vp/Vs"]
     assert len(ax) == 1
     labels = ax[0].get_legend_handles_labels()[1]
