@@ -9,12 +9,11 @@ from pathlib import Path
 from ..config import load_study
 from .layers import assumptions, build, run_one, run_toml, select_layers, thermal_set
 from .shell import (
-    AtomicFolder,
     InputError,
     Warnings,
     add_common_options,
+    folder_command,
     save_figure,
-    use_agg,
     write_text,
 )
 
@@ -136,13 +135,9 @@ def do_chart(args, study, dest: Path, *, layer_name, method, figures: bool):
 
 def cmd_chart(args) -> int:
     study = load_study(args.study)
-    if not args.no_figures:
-        use_agg()
-    with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
-        do_chart(args, study, tmp, layer_name=args.layer, method=args.method,
-                  figures=not args.no_figures)
-    print(args.out)
-    return 0
+    return folder_command(args, lambda tmp: do_chart(args, study, tmp, layer_name=args.layer,
+                                                     method=args.method,
+                                                     figures=not args.no_figures))
 
 
 def add_parser(sub) -> None:

@@ -4,7 +4,7 @@ building the API objects, running one layer, the assumptions text and the ``run.
 from __future__ import annotations
 
 from ..config import ThermalSpec, dumps_toml, load_study, study_to_dict
-from .shell import AtomicFolder, InputError, use_agg
+from .shell import InputError, folder_command
 
 __all__ = ["assumptions", "build", "run_one", "select_layers", "run_toml", "thermal_set",
            "study_command", "defaults_used"]
@@ -142,10 +142,6 @@ def study_command(args, run) -> int:
     """Shared shell of ``invert`` and ``compare``: read the study, run into an atomic folder."""
     study = load_study(args.study)
     method = args.method or study.sampler.method
-    if not args.no_figures:
-        use_agg()
-    with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
-        run(args, study, tmp, method=method, figures=not args.no_figures,
-            layer_names=args.layer)
-    print(args.out)
-    return 0
+    return folder_command(args, lambda tmp: run(args, study, tmp, method=method,
+                                                figures=not args.no_figures,
+                                                layer_names=args.layer))

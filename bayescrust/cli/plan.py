@@ -7,13 +7,12 @@ from pathlib import Path
 from ..config import load_study
 from .layers import assumptions, build, run_one, run_toml, select_layers
 from .shell import (
-    AtomicFolder,
     InputError,
     Warnings,
     add_common_options,
+    folder_command,
     save_figure,
     say,
-    use_agg,
     write_table,
     write_text,
 )
@@ -147,13 +146,9 @@ def do_plan(args, study, dest: Path, *, layer_name, method, figures: bool):
 
 def cmd_plan(args) -> int:
     study = load_study(args.study)
-    if not args.no_figures:
-        use_agg()
-    with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
-        do_plan(args, study, tmp, layer_name=args.layer, method=args.method,
-                figures=not args.no_figures)
-    print(args.out)
-    return 0
+    return folder_command(args, lambda tmp: do_plan(args, study, tmp, layer_name=args.layer,
+                                                    method=args.method,
+                                                    figures=not args.no_figures))
 
 
 def add_parser(sub) -> None:

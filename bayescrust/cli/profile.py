@@ -8,13 +8,12 @@ from pathlib import Path
 import numpy as np
 
 from .shell import (
-    AtomicFolder,
     InputError,
     Warnings,
     add_common_options,
+    folder_command,
     save_figure,
     say,
-    use_agg,
     write_table,
     write_text,
 )
@@ -136,13 +135,9 @@ def do_profile(args, study, dest: Path, *, method="exact", figures=True, exact_o
 
 def cmd_profile(args) -> int:
     study = load_profile_study(args.study)
-    if not args.no_figures:
-        use_agg()
-    with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
-        do_profile(args, study, tmp, method=args.method or "exact",
-                   figures=not args.no_figures)
-    print(args.out)
-    return 0
+    return folder_command(args, lambda tmp: do_profile(args, study, tmp,
+                                                       method=args.method or "exact",
+                                                       figures=not args.no_figures))
 
 
 def add_parser(sub) -> None:

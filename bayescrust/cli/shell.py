@@ -14,7 +14,7 @@ from ..config import layer_slug
 
 __all__ = ["InputError", "AtomicFolder", "FIG_FORMATS", "slug", "say", "write_text",
            "write_table", "save_figure", "use_agg", "layer_seed", "Warnings",
-           "add_common_options", "seed_value"]
+           "add_common_options", "seed_value", "folder_command"]
 
 FIG_FORMATS = ("png", "pdf")
 
@@ -157,6 +157,17 @@ def use_agg():
     import matplotlib
 
     matplotlib.use("Agg", force=True)
+
+
+def folder_command(args, run) -> int:
+    """Shared shell of the commands that write a results folder: the Agg backend unless
+    ``--no-figures``, ``run(tmp)`` into an atomic folder at ``args.out``, then print it."""
+    if not args.no_figures:
+        use_agg()
+    with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
+        run(tmp)
+    print(args.out)
+    return 0
 
 
 def layer_seed(seed: int, index: int) -> int:
