@@ -408,6 +408,24 @@ def _dem_one(km, gm, k_i, g_i, w, t_end, geo, n_steps):
     return math.exp(lk), math.exp(lg)
 
 
+def _dem_layout(k_m, g_m, k_i, g_i, aspect_i, frac_i):
+    """Broadcast DEM inputs and lay them out with the inclusion axis FIRST and the batch
+    flattened: host quantities (shape n) broadcast along the leading axis, and a leading slice
+    ``[:, :a]`` of the batch stays cheap to take. Returns ``(batch_shape, k_m, g_m, k_i, g_i,
+    frac_i, aspect_i)``, the host moduli (n,) and the inclusion arrays (m, n)."""
+    k_m = np.asarray(k_m, dtype=float)
+    g_m = np.asarray(g_m, dtype=float)
+    shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), np.shape(k_i),
+                                np.shape(g_i), np.shape(aspect_i), np.shape(frac_i))
+    batch, m = shape[:-1], shape[-1]
+
+    def lead(x):
+        return np.moveaxis(np.broadcast_to(x, shape), -1, 0).reshape(m, -1).astype(float)
+
+    return (batch, np.broadcast_to(k_m, batch).ravel(), np.broadcast_to(g_m, batch).ravel(),
+            lead(k_i), lead(g_i), lead(frac_i), lead(aspect_i))
+
+
 def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=None):
     """Differential effective medium moduli; kernel of :func:`dem`, no checks.
 
@@ -423,21 +441,8 @@ def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=None):
     elements' step counts, not the batch size times the largest count. Converged reference:
     :func:`_dem_reference`.
     """
-    k_m = np.asarray(k_m, dtype=float)
-    g_m = np.asarray(g_m, dtype=float)
-    shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), np.shape(k_i),
-                                np.shape(g_i), np.shape(aspect_i), np.shape(frac_i))
-    batch, m = shape[:-1], shape[-1]
-
-    # inclusion axis FIRST and the batch flattened: host quantities (shape n) broadcast along
-    # the leading axis, and a leading slice [:, :a] of the batch stays cheap to take
-    def lead(x):
-        return np.moveaxis(np.broadcast_to(x, shape), -1, 0).reshape(m, -1).astype(float)
-
-    k_i, g_i, frac_i = lead(k_i), lead(g_i), lead(frac_i)
-    geo = np.stack(_geometry(lead(aspect_i)))
-    km = np.broadcast_to(k_m, batch).ravel()
-    gm = np.broadcast_to(g_m, batch).ravel()
+    batch, km, gm, k_i, g_i, frac_i, aspect = _dem_layout(k_m, g_m, k_i, g_i, aspect_i, frac_i)
+    geo = np.stack(_geometry(aspect))
     n = km.size
     if n == 0:
         return np.empty(batch), np.empty(batch)
@@ -506,19 +511,8 @@ def _dem_reference(k_m, g_m, k_i, g_i, aspect_i, frac_i, rtol=1e-12):
     """
     from scipy.integrate import solve_ivp
 
-    k_m = np.asarray(k_m, dtype=float)
-    g_m = np.asarray(g_m, dtype=float)
-    shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), np.shape(k_i),
-                                np.shape(g_i), np.shape(aspect_i), np.shape(frac_i))
-    batch, m = shape[:-1], shape[-1]
-
-    def lead(x):
-        return np.moveaxis(np.broadcast_to(x, shape), -1, 0).reshape(m, -1).astype(float)
-
-    k_i, g_i, frac_i = lead(k_i), lead(g_i), lead(frac_i)
-    geo = _geometry(lead(aspect_i))
-    km = np.broadcast_to(k_m, batch).ravel()
-    gm = np.broadcast_to(g_m, batch).ravel()
+    batch, km, gm, k_i, g_i, frac_i, aspect = _dem_layout(k_m, g_m, k_i, g_i, aspect_i, frac_i)
+    geo = _geometry(aspect)
     n = km.size
     phi = frac_i.sum(axis=0)
     w = frac_i / np.maximum(phi, np.finfo(float).tiny)
