@@ -7,6 +7,7 @@ import re
 import sys
 from pathlib import Path
 
+from ..config.forward import DEFAULT_ATTENUATION_LAW, FORWARD_KEYS
 from .shell import FIG_FORMATS, InputError, use_agg
 
 __all__ = ["add_parser", "cmd_forward"]
@@ -77,12 +78,13 @@ def cmd_forward(args) -> int:
                          f"{', '.join(known_rocks())}; minerals: {', '.join(minerals)}")
     rock = args.rock if args.rock in known_rocks() else {args.rock: 1.0}  # one-mineral rock
     kw = {k: (v if v.size > 1 else float(v[0])) for k, v in vals.items()}
+    law = args.attenuation_law
     try:
         # melt only above the solidus, serpentine only below its stability (as the inversion)
         kw, notes = bc.physics.rocks.apply_stability(rock, **kw)
         for note in notes:
             print(f"warning: {note}", file=sys.stderr)
-        props = bc.rock_properties(rock, **kw)
+        props = bc.rock_properties(rock, **kw, attenuation_law=law)
     except ValueError as exc:
         raise InputError(f"forward: {exc}") from None
     n = max([v.size for v in vals.values()] + [1])
@@ -161,6 +163,9 @@ def add_parser(sub) -> None:
     sp.add_argument("--melt-fraction", metavar="FRAC", help="melt volume fraction")
     sp.add_argument("--serpentinization", metavar="FRAC",
                     help="serpentine fraction of the ultramafic volume")
+    sp.add_argument("--attenuation-law", default=DEFAULT_ATTENUATION_LAW,
+                    choices=FORWARD_KEYS["attenuation_law"],
+                    help="anelasticity law (default %(default)s; docs/physics.md)")
     sp.add_argument("--json", action="store_true", help="JSON output")
     sp.add_argument("--plot", metavar="FILE.png|pdf", help="plot against the ranged option")
     sp.add_argument("--overwrite", action="store_true", help="replace an existing --plot file")

@@ -6,7 +6,11 @@ from typing import Any
 
 from .reader import Reader
 
-__all__ = ["FORWARD_KEYS", "read_forward"]
+__all__ = ["DEFAULT_ATTENUATION_LAW", "FORWARD_KEYS", "read_forward"]
+
+#: Names of ``physics.anelastic.ATTENUATION_LAWS`` and its default, kept here so that reading a
+#: study file does not import the physics (a test checks that the two agree).
+DEFAULT_ATTENUATION_LAW = "jackson2002"
 
 #: Forward-model settings ([forward] table): key -> allowed values or (lo, hi, unit).
 FORWARD_KEYS: dict[str, Any] = {
@@ -16,6 +20,7 @@ FORWARD_KEYS: dict[str, Any] = {
     "frequency_hz": (1e-3, 1e3, "Hz"),
     "grain_size_mm": (1e-3, 100.0, "mm"),
     "anelastic": (True, False),
+    "attenuation_law": (DEFAULT_ATTENUATION_LAW, "yamauchi_takei2016"),
     "salinity": (0.0, 0.3, "mass fraction"),
 }
 

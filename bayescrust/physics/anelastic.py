@@ -24,15 +24,18 @@ from collections.abc import Callable
 
 import numpy as np
 
+from bayescrust.physics import premelting
 from bayescrust.physics._checks import as_float_array, check_range
 from bayescrust.physics._data import CELSIUS_TO_KELVIN, load_table
 
 __all__ = [
     "ANELASTIC_DATA",
     "ATTENUATION_LAWS",
+    "DEFAULT_ATTENUATION_LAW",
     "dispersion_factor",
     "q_shear",
     "qp_inverse_from_qs",
+    "velocity_factors",
 ]
 
 
@@ -69,9 +72,18 @@ def _q_inv_jackson2002(temperature_k, pressure_gpa, frequency_hz, grain_size_mm)
     return _J02_A * np.exp(_J02_ALPHA * log_x), _J02_ALPHA
 
 
+def _q_inv_yamauchi_takei2016(temperature_k, pressure_gpa, frequency_hz, grain_size_mm):
+    """Shear Q^-1 = J2/J1 of Yamauchi & Takei (2016) (:mod:`~.premelting`); no checks."""
+    j1, j2 = premelting.compliance_ratio(temperature_k, pressure_gpa, frequency_hz, grain_size_mm)
+    return j2 / j1, None
+
+
 #: Shear-dissipation laws: name -> f(temperature_k, pressure_gpa, frequency_hz, grain_size_mm)
-#: returning (unclipped q_s_inv, alpha).
-_SHEAR_Q: dict[str, Callable] = {"jackson2002": _q_inv_jackson2002}
+#: returning (unclipped q_s_inv, alpha); alpha is None for laws with a full compliance.
+_SHEAR_Q: dict[str, Callable] = {
+    "jackson2002": _q_inv_jackson2002,
+    "yamauchi_takei2016": _q_inv_yamauchi_takei2016,
+}
 
 
 def _half_cot(alpha):
@@ -103,10 +115,34 @@ def _factors_jackson2002(temperature_k, pressure_gpa, frequency_hz, grain_size_m
     return _factors(q_s_inv, alpha, vp, vs)
 
 
+def _factors_yamauchi_takei2016(temperature_k, pressure_gpa, frequency_hz, grain_size_mm, vp,
+                                vs):
+    """Dispersion factors (fp, fs, q_s_inv) of Yamauchi & Takei (2016); no checks.
+
+    fs follows from the complex compliance exactly (:func:`premelting.shear_velocity_factor`);
+    with no bulk dissipation the relaxed P modulus is K + (4/3) mu_U fs^2, so
+    fp^2 = 1 - (4/3)(Vs/Vp)^2 (1 - fs^2) (the same no-bulk-loss rule as Anderson & Given 1982).
+    Q_S^-1 = J2/J1 is not clipped: no first-order expansion is involved.
+    """
+    j1, j2 = premelting.compliance_ratio(temperature_k, pressure_gpa, frequency_hz, grain_size_mm)
+    fs = premelting.shear_velocity_factor(j1, j2)
+    vp = np.asarray(vp, dtype=float)
+    vs = np.asarray(vs, dtype=float)
+    ratio2 = np.divide(vs * vs, vp * vp, out=np.zeros(np.broadcast(vp, vs).shape), where=vp > 0)
+    fp = np.sqrt(1.0 - (4.0 / 3.0) * ratio2 * (1.0 - fs * fs))
+    return fp, fs, j2 / j1
+
+
 #: Attenuation laws by name, each ``(temperature_k, pressure_gpa, frequency_hz, grain_size_mm,
 #: vp, vs) -> (fp, fs, q_s_inv)``; ``fp, fs`` multiply unrelaxed velocities. Module-level
 #: functions, so they pickle by reference.
-ATTENUATION_LAWS: dict[str, Callable] = {"jackson2002": _factors_jackson2002}
+ATTENUATION_LAWS: dict[str, Callable] = {
+    "jackson2002": _factors_jackson2002,
+    "yamauchi_takei2016": _factors_yamauchi_takei2016,
+}
+
+#: The default law (docs/physics.md, "Anelasticity", gives the reasons).
+DEFAULT_ATTENUATION_LAW = "jackson2002"
 
 
 def _anelastic_factors(temperature_k, pressure_gpa, frequency_hz, grain_size_mm, vp, vs,
@@ -152,12 +188,15 @@ def q_shear(temperature_c, pressure_gpa, *, frequency_hz, grain_size_mm, law="ja
         Grain size, mm, in (0, 100].
     law : str, optional
         Name in :data:`ATTENUATION_LAWS`; default ``"jackson2002"``.
+        ``"yamauchi_takei2016"`` is the near-solidus master-curve model of
+        :mod:`~.premelting` (Q_S^-1 = J2/J1).
 
     Returns
     -------
     numpy.ndarray
-        :math:`Q_S^{-1}` (dimensionless), broadcast shape of the inputs, clipped to at most 0.1
-        (:math:`Q_S \\ge 10`); essentially zero in cold rock.
+        :math:`Q_S^{-1}` (dimensionless), broadcast shape of the inputs; for the first-order
+        law (Jackson 2002) clipped to at most 0.1 (:math:`Q_S \\ge 10`); essentially zero in
+        cold rock.
 
     Raises
     ------
@@ -197,8 +236,48 @@ def q_shear(temperature_c, pressure_gpa, *, frequency_hz, grain_size_mm, law="ja
     p = check_range("pressure_gpa", pressure_gpa, 0.0, 15.0, unit="GPa")
     f = check_range("frequency_hz", frequency_hz, 1e-5, 1e3, unit="Hz")
     d = check_range("grain_size_mm", grain_size_mm, 0.0, 100.0, lo_open=True, unit="mm")
-    q_s_inv, _ = _SHEAR_Q[law](t + CELSIUS_TO_KELVIN, p, f, d)
-    return np.minimum(q_s_inv, _Q_INV_MAX)
+    q_s_inv, alpha = _SHEAR_Q[law](t + CELSIUS_TO_KELVIN, p, f, d)
+    # the first-order (Karato) laws are bounded at q_inv_max; full-compliance laws are not
+    return q_s_inv if alpha is None else np.minimum(q_s_inv, _Q_INV_MAX)
+
+
+def velocity_factors(temperature_c, pressure_gpa, *, frequency_hz, grain_size_mm, vp_vs=1.8,
+                     law=DEFAULT_ATTENUATION_LAW):
+    """Factors on unrelaxed Vp and Vs, and Q_S^-1, of an attenuation law (checked).
+
+    Parameters
+    ----------
+    temperature_c, pressure_gpa, frequency_hz, grain_size_mm : array_like
+        As in :func:`q_shear`; broadcast.
+    vp_vs : array_like, optional
+        Unrelaxed Vp/Vs, in [1.2, 3] (only P is affected by it; default 1.8).
+    law : str, optional
+        Name in :data:`ATTENUATION_LAWS`.
+
+    Returns
+    -------
+    fp, fs, q_s_inv : numpy.ndarray
+        ``Vp = fp Vp_unrelaxed``, ``Vs = fs Vs_unrelaxed`` (both <= 1) and Q_S^-1.
+
+    Raises
+    ------
+    ValueError
+        If an argument is non-finite or out of range, or ``law`` is unknown.
+
+    Examples
+    --------
+    >>> fp, fs, q = velocity_factors(600.0, 0.3, frequency_hz=5.0, grain_size_mm=5.0,
+    ...                              law="yamauchi_takei2016")
+    >>> bool(fs > 0.99)
+    True
+    """
+    _check_law(law)
+    t = check_range("temperature_c", temperature_c, -20.0, 2000.0, unit="deg C")
+    p = check_range("pressure_gpa", pressure_gpa, 0.0, 15.0, unit="GPa")
+    f = check_range("frequency_hz", frequency_hz, 1e-5, 1e3, unit="Hz")
+    d = check_range("grain_size_mm", grain_size_mm, 0.0, 100.0, lo_open=True, unit="mm")
+    r = check_range("vp_vs", vp_vs, 1.2, 3.0)
+    return ATTENUATION_LAWS[law](t + CELSIUS_TO_KELVIN, p, f, d, r, np.ones_like(r))
 
 
 def dispersion_factor(q_inv, alpha):

@@ -493,6 +493,7 @@ def rock_properties(
     pore_pressure_gpa=None,
     pore_fluid: str = "connected",
     crack_closure: bool = True,
+    attenuation_law: str = "jackson2002",
 ) -> RockProperties:
     """Vp, Vs and density of a rock at pressure and temperature, with pores, melt and serpentine.
 
@@ -533,6 +534,9 @@ def rock_properties(
         Unrelaxed fluid in isolated pores, or relaxed (dry frame + Gassmann) connected pores.
     crack_closure : bool, optional
         Close thin cracks with effective pressure (Walsh 1965).
+    attenuation_law : str, optional
+        Name from :data:`bayescrust.physics.anelastic.ATTENUATION_LAWS`: ``"jackson2002"``
+        (default) or ``"yamauchi_takei2016"`` (near-solidus pre-melting, docs/physics.md).
 
     Returns
     -------
@@ -576,6 +580,7 @@ def rock_properties(
         anelastic=bool(anelastic),
         pore_fluid=pore_fluid,
         crack_closure=bool(crack_closure),
+        attenuation_law=attenuation_law,
     )
     if fr is None:
         fr = np.ones(np.broadcast(t, p, phi, ar, melt, mar, serp, pp).shape + (1,))
