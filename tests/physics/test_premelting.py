@@ -231,3 +231,52 @@ def test_unknown_law_is_refused_with_the_allowed_names():
         ForwardModel(rocks=("gabbro",), attenuation_law="faul2005")
     with pytest.raises(ValueError, match="attenuation_law"):
         rock_properties("gabbro", temperature_c=20.0, pressure_gpa=0.1, attenuation_law="x")
+
+
+def test_study_file_forward_section_selects_the_law():
+    import textwrap
+
+    from bayescrust.config import StudyError, build_layer, layer_arguments, parse_study
+    from bayescrust.inference.model import LayerModel
+
+    text = textwrap.dedent("""\
+        title = "law wiring (made-up numbers)"
+        water_depth_km = 3.0
+        rocks = ["gabbro", "harzburgite"]
+        thermal_prior = "flat"
+        [thermal.flat]
+        kind = "uniform"
+        lo = 0.0
+        hi = 1400.0
+        [forward]
+        attenuation_law = "%s"
+        [[layers]]
+        name = "deep"
+        top_km = 5.0
+        bottom_km = 7.0
+        vp = [7.2, 0.1]
+        """)
+    study = parse_study(text % LAW)
+    assert study.forward["attenuation_law"] == LAW
+    spec = study.layers[0]
+    model = LayerModel.build(build_layer(study, spec), **layer_arguments(study, spec))
+    assert model.forward.attenuation_law == LAW
+    with pytest.raises(StudyError, match="attenuation_law"):
+        parse_study(text % "faul2005")
+
+
+def test_cli_forward_takes_the_law(capsys):
+    from bayescrust.cli import main
+
+    t = float(peridotite_solidus_c(1.6)) - 5.0
+    rows = {}
+    for law in sorted(ATTENUATION_LAWS):
+        assert main(["forward", "--rock", "harzburgite", "--temperature", f"{t}", "--pressure",
+                     "1.6", "--attenuation-law", law, "--json"]) == 0
+        rows[law] = __import__("json").loads(capsys.readouterr().out)["rows"][0]
+    expected = rock_properties("harzburgite", temperature_c=t, pressure_gpa=1.6,
+                               attenuation_law=LAW)
+    assert rows[LAW]["vs"] == pytest.approx(float(expected.vs), rel=1e-12)
+    assert rows[LAW]["vs"] != rows["jackson2002"]["vs"]
+    assert main(["forward", "--rock", "harzburgite", "--temperature", "20", "--pressure", "0.1",
+                 "--attenuation-law", "nope"]) == 2
