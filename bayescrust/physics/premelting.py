@@ -69,10 +69,9 @@ _SOL_P = tuple(float(x) for x in _SOL["pressure_range_gpa"])
 
 _C_TO_K = 273.15
 # Numerical guards (not literature numbers): temperature and grain size floored so that exp()
-# and powers stay finite; the normalised period is floored where tau^alpha would underflow.
+# and logs stay finite.
 _T_MIN_K = 1.0
 _D_MIN_MM = 1e-9
-_TAU_MIN = 1e-300
 
 
 def homologous_temperature(temperature_k, pressure_gpa):
@@ -160,13 +159,12 @@ def compliance_ratio(temperature_k, pressure_gpa, frequency_hz, grain_size_mm,
     # ln tau' = ln(tau_S) - ln(2 pi) - ln(eta / mu_U)
     ln_tau = -np.log(np.asarray(frequency_hz, dtype=float)) - np.log(2.0 * np.pi) - ln_eta
     ln_tau += np.log(mu_pa)
-    tau = np.maximum(np.exp(ln_tau), _TAU_MIN)
     a_p, s_p = peak_parameters(t_h)
     x = np.log(_TAU_P) - ln_tau  # ln(tau_P'/tau')
-    bg = _A_B * tau**_ALPHA_B
-    j1 = 1.0 + bg / _ALPHA_B + 0.5 * np.sqrt(2.0 * np.pi) * a_p * s_p * erfc(
-        x / (np.sqrt(2.0) * s_p))
-    j2 = 0.5 * np.pi * (bg + a_p * np.exp(-x * x / (2.0 * s_p * s_p))) + tau
+    bg = _A_B * np.exp(_ALPHA_B * ln_tau)  # A_B tau'^alpha_B; underflows to 0 harmlessly
+    z = x / (np.sqrt(2.0) * s_p)
+    j1 = 1.0 + bg / _ALPHA_B + 0.5 * np.sqrt(2.0 * np.pi) * a_p * s_p * erfc(z)
+    j2 = 0.5 * np.pi * (bg + a_p * np.exp(-z * z)) + np.exp(ln_tau)
     return j1, j2
 
 

@@ -77,10 +77,12 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__)
     ap.add_argument("--max-batch", type=int, default=10**6)
     ap.add_argument("--seconds", type=float, default=1.0, help="minimum time per measurement")
+    ap.add_argument("--attenuation-law", default="jackson2002",
+                    help="attenuation law of the forward model (physics.anelastic)")
     args = ap.parse_args(argv)
     rng = np.random.default_rng(0)
-    fm = ForwardModel(rocks=("gabbro", "harzburgite"))
-    print("gabbro/harzburgite mixture, Voigt-Reuss-Hill, anelastic")
+    fm = ForwardModel(rocks=("gabbro", "harzburgite"), attenuation_law=args.attenuation_law)
+    print(f"gabbro/harzburgite mixture, Voigt-Reuss-Hill, anelastic ({args.attenuation_law})")
     print("cases: solid only; + melt above 1100 C (DEM); + seawater pores aspect 1e-3..1 (DEM)")
     print(f"{'batch':>9} {'case':>11} {'evals/s':>12} {'us/eval':>9}")
     rates = {}
