@@ -11,10 +11,19 @@ Laws are plain functions with one shared signature, chosen by name from
 
     law(temperature_k, pressure_gpa, frequency_hz, grain_size_mm, vp, vs) -> (fp, fs, q_s_inv)
 
-where ``fp, fs <= 1`` multiply unrelaxed Vp and Vs. To add a law, write its
-``(temperature_k, pressure_gpa, frequency_hz, grain_size_mm) -> (q_s_inv, alpha)`` function,
-register it in ``_SHEAR_Q``, and register a module-level wrapper calling :func:`_factors` in
-``ATTENUATION_LAWS`` (see :func:`_factors_jackson2002`).
+where ``fp, fs <= 1`` multiply unrelaxed Vp and Vs. Two laws are registered:
+
+- ``"jackson2002"`` (default, :data:`DEFAULT_ATTENUATION_LAW`): the Jackson et al. (2002)
+  absorption band with Karato's first-order dispersion;
+- ``"yamauchi_takei2016"``: the near-solidus ("pre-melting") master curve of Yamauchi & Takei
+  (2016), a full complex compliance (:mod:`~.premelting`), so no first-order expansion.
+
+To add a first-order law, write its ``(temperature_k, pressure_gpa, frequency_hz,
+grain_size_mm) -> (q_s_inv, alpha)`` function, register it in ``_SHEAR_Q``, and register a
+module-level wrapper calling :func:`_factors` in ``ATTENUATION_LAWS`` (see
+:func:`_factors_jackson2002`); a law with its own compliance returns ``alpha=None`` in
+``_SHEAR_Q`` (see :func:`_factors_yamauchi_takei2016`). Add its name to
+``config.forward.FORWARD_KEYS`` (a test checks the two agree).
 Numbers live in ``physics/data/anelastic.toml``.
 """
 
