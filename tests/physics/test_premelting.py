@@ -280,3 +280,15 @@ def test_cli_forward_takes_the_law(capsys):
     assert rows[LAW]["vs"] != rows["jackson2002"]["vs"]
     assert main(["forward", "--rock", "harzburgite", "--temperature", "20", "--pressure", "0.1",
                  "--attenuation-law", "nope"]) == 2
+
+
+def test_kernel_is_finite_at_extremes():
+    # [numerical guard] the kernel never returns NaN/inf over the forward model's whole input
+    # box, including zero grain size, T = 0 K and a fluid (vs = 0), and its factors stay in (0, 1].
+    t = np.array([0.0, 1.0, 273.0, 1500.0, 2073.0, 3000.0])[:, None, None]
+    p = np.array([0.0, 1.0, 15.0])[None, :, None]
+    f = np.array([1e-5, 5.0, 1e3])[None, None, :]
+    for d, vs in ((0.0, 4.0), (1e-3, 4.0), (100.0, 4.0), (5.0, 0.0)):
+        fp, fs, q = ATTENUATION_LAWS[LAW](t, p, f, d, 7.5, vs)
+        assert np.all(np.isfinite(fp)) and np.all(np.isfinite(fs)) and np.all(np.isfinite(q))
+        assert np.all((fs > 0) & (fs <= 1)) and np.all((fp > 0) & (fp <= 1))
