@@ -37,6 +37,8 @@ import warnings
 import numpy as np
 
 from ._checks import check_range
+from . import _jit
+from ._jit import jitable
 
 __all__ = [
     "spheroid_pq",
@@ -139,6 +141,7 @@ def _geometry(aspect):
     )
 
 
+@jitable
 def _pq(rk, rg, r, geo):
     """P and Q from the modulus ratios rk = K_i/K, rg = G_i/G and R = 3G/(3K + 4G) of the host.
 
@@ -450,6 +453,15 @@ def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=None):
     # inclusion mix added in fixed proportion w_i; integrate in t = -ln(1 - y), t in [0, T]
     w = frac_i / np.maximum(phi, np.finfo(float).tiny)
     t_end = -np.log1p(-phi)
+    if _jit.enabled():  # the compiled per-element loop (same equations; tested to rounding)
+        from . import _accel
+
+        k, g = _accel.dem_elements(km, gm, np.ascontiguousarray(k_i), np.ascontiguousarray(g_i),
+                                   np.ascontiguousarray(w), t_end, np.ascontiguousarray(geo),
+                                   -1 if n_steps is None else int(n_steps),
+                                   DEM_LOG_CHANGE_PER_STEP, DEM_MAX_STEPS,
+                                   DEM_SOLID_INCLUSION_FACTOR, _TINY)
+        return k.reshape(batch), g.reshape(batch)
     if n == 1:
         k, g = _dem_one(float(km[0]), float(gm[0]), k_i[:, 0], g_i[:, 0], w[:, 0],
                         float(t_end[0]), geo[:, :, 0], n_steps)
