@@ -20,9 +20,14 @@ import numpy as np
 from numba import njit
 
 from .inclusions import _pq
+from .minerals import _state_formula, _table_columns
+
+#: LLVM fast-math flags without "no NaN / no inf" (the floors and clips must see inf and NaN
+#: as numpy does): reassociation and reciprocals change results at the rounding level only.
+_FASTMATH = {"nsz", "arcp", "contract", "afn", "reassoc"}
 
 
-@njit(cache=True, nogil=True, error_model="numpy")
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
 def _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, k_i, g_i, w, geo, e):
     """d ln K*/dt, d ln G*/dt of one element ``e``: :func:`inclusions._dem_rate` per element."""
     k = math.exp(min(max(lk, lk_lo), lk_hi))
@@ -44,7 +49,7 @@ def _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, k_i, g_i, w, geo, e):
     return dk, dg
 
 
-@njit(cache=True, nogil=True, error_model="numpy")
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
 def dem_elements(km, gm, k_i, g_i, w, t_end, geo, n_fixed, log_change, max_steps,
                  solid_factor, tiny):
     """The DEM integration of :func:`inclusions._dem` element by element.
@@ -106,3 +111,30 @@ def dem_elements(km, gm, k_i, g_i, w, t_end, geo, n_fixed, log_change, max_steps
         out_k[e] = math.exp(lk)
         out_g[e] = math.exp(lg)
     return out_k, out_g
+
+
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
+def _mineral_state_loop(t, p, rho0, ks0, g0, a0, a1, a2, half_a1, gamma_th, delta_s, gamma_g,
+                        log_offset, bm_b, three_ksp, three_gp):
+    n = t.size
+    m = rho0.size
+    rho = np.empty((n, m))
+    ks = np.empty((n, m))
+    g = np.empty((n, m))
+    for i in range(n):
+        for j in range(m):
+            rho[i, j], ks[i, j], g[i, j] = _state_formula(
+                t[i], p[i], rho0[j], ks0[j], g0[j], a0[j], a1[j], a2[j], half_a1[j],
+                gamma_th[j], delta_s[j], gamma_g[j], log_offset[j], bm_b[j], three_ksp[j],
+                three_gp[j])
+    return rho, ks, g
+
+
+def mineral_state(table, temperature_k, pressure_gpa):
+    """:func:`minerals._mineral_state` by the compiled loop over (sample, mineral)."""
+    t, p = np.broadcast_arrays(np.asarray(temperature_k, dtype=float),
+                               np.asarray(pressure_gpa, dtype=float))
+    shape = t.shape + (len(table.names),)
+    out = _mineral_state_loop(np.ascontiguousarray(t).ravel(), np.ascontiguousarray(p).ravel(),
+                              *_table_columns(table))
+    return tuple(x.reshape(shape) for x in out)
