@@ -132,9 +132,12 @@ def _mineral_state_loop(t, p, rho0, ks0, g0, a0, a1, a2, half_a1, gamma_th, delt
 
 def mineral_state(table, temperature_k, pressure_gpa):
     """:func:`minerals._mineral_state` by the compiled loop over (sample, mineral)."""
-    t, p = np.broadcast_arrays(np.asarray(temperature_k, dtype=float),
-                               np.asarray(pressure_gpa, dtype=float))
-    shape = t.shape + (len(table.names),)
-    out = _mineral_state_loop(np.ascontiguousarray(t).ravel(), np.ascontiguousarray(p).ravel(),
-                              *_table_columns(table))
+    t = np.asarray(temperature_k, dtype=float)
+    p = np.asarray(pressure_gpa, dtype=float)
+    batch = np.broadcast_shapes(t.shape, p.shape)
+    def flat(x):  # a fresh array: views of np.broadcast_arrays warn when numba types them
+        return np.array(np.broadcast_to(x, batch), dtype=float).ravel()
+
+    out = _mineral_state_loop(flat(t), flat(p), *_table_columns(table))
+    shape = batch + (len(table.names),)
     return tuple(x.reshape(shape) for x in out)

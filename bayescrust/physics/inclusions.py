@@ -456,8 +456,9 @@ def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=None):
     if _jit.enabled():  # the compiled per-element loop (same equations; tested to rounding)
         from . import _accel
 
-        k, g = _accel.dem_elements(km, gm, np.ascontiguousarray(k_i), np.ascontiguousarray(g_i),
-                                   np.ascontiguousarray(w), t_end, np.ascontiguousarray(geo),
+        # fresh C arrays (views of np.broadcast_arrays warn when numba types them)
+        k, g = _accel.dem_elements(np.array(km), np.array(gm), np.array(k_i), np.array(g_i),
+                                   np.array(w), t_end, np.array(geo),
                                    -1 if n_steps is None else int(n_steps),
                                    DEM_LOG_CHANGE_PER_STEP, DEM_MAX_STEPS,
                                    DEM_SOLID_INCLUSION_FACTOR, _TINY)
