@@ -27,65 +27,64 @@ from .minerals import _state_formula, _table_columns
 _FASTMATH = {"nsz", "arcp", "contract", "afn", "reassoc"}
 
 
+# Few arguments per compiled call: numba's dispatcher types every argument on every call
+# (microseconds each), which is most of a batch-1 call. Inputs are packed into one array each.
+_N_GEO = 15  # aspect-only terms of inclusions._geometry
+_K, _G, _W, _GEO = 0, 1, 2, 3  # rows of the packed inclusion array
+
+
 @njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
-def _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, k_i, g_i, w, geo, e):
+def _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, inc, e):
     """d ln K*/dt, d ln G*/dt of one element ``e``: :func:`inclusions._dem_rate` per element."""
     k = math.exp(min(max(lk, lk_lo), lk_hi))
     g = math.exp(min(max(lg, lg_lo), lg_hi))
     r = 3.0 * g / (3.0 * k + 4.0 * g)
     dk = 0.0
     dg = 0.0
-    for j in range(k_i.shape[0]):
-        if w[j, e] == 0.0:
+    for j in range(inc.shape[1]):
+        w = inc[_W, j, e]
+        if w == 0.0:
             continue
-        rk = k_i[j, e] / k
-        rg = g_i[j, e] / g
-        ge = (geo[0, j, e], geo[1, j, e], geo[2, j, e], geo[3, j, e], geo[4, j, e],
-              geo[5, j, e], geo[6, j, e], geo[7, j, e], geo[8, j, e], geo[9, j, e],
-              geo[10, j, e], geo[11, j, e], geo[12, j, e], geo[13, j, e], geo[14, j, e])
+        rk = inc[_K, j, e] / k
+        rg = inc[_G, j, e] / g
+        ge = (inc[3, j, e], inc[4, j, e], inc[5, j, e], inc[6, j, e], inc[7, j, e],
+              inc[8, j, e], inc[9, j, e], inc[10, j, e], inc[11, j, e], inc[12, j, e],
+              inc[13, j, e], inc[14, j, e], inc[15, j, e], inc[16, j, e], inc[17, j, e])
         p, q = _pq(rk, rg, r, ge)
-        dk += ((rk - 1.0) * w[j, e]) * p
-        dg += ((rg - 1.0) * w[j, e]) * q
+        dk += ((rk - 1.0) * w) * p
+        dg += ((rg - 1.0) * w) * q
     return dk, dg
 
 
 @njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
-def dem_elements(km, gm, k_i, g_i, w, t_end, geo, n_fixed, log_change, max_steps,
-                 solid_factor, tiny):
-    """The DEM integration of :func:`inclusions._dem` element by element.
-
-    ``km, gm, t_end`` shape (n,); ``k_i, g_i, w`` shape (m, n) (inclusion axis first, weights
-    w_i = x_i / phi); ``geo`` shape (15, m, n) from :func:`inclusions._geometry`. ``n_fixed``
-    < 0 chooses the step count per element from its stiffness (the rule of :func:`_dem`,
-    with ``log_change`` = DEM_LOG_CHANGE_PER_STEP, ``max_steps`` = DEM_MAX_STEPS,
-    ``solid_factor`` = DEM_SOLID_INCLUSION_FACTOR); otherwise every element takes ``n_fixed``
-    classical RK4 steps. ``tiny`` is the floor of the moduli relative to the matrix.
-    Returns K*, G* (GPa), shape (n,).
-    """
-    m, n = k_i.shape
-    out_k = np.empty(n)
-    out_g = np.empty(n)
+def _dem_loop(host, inc, par):
+    """The DEM integration of :func:`inclusions._dem` element by element (see :func:`dem`)."""
+    n_fixed = int(par[0])
+    log_change, max_steps, solid_factor, tiny = par[1], par[2], par[3], par[4]
+    m = inc.shape[1]
+    n = host.shape[1]
+    out = np.empty((2, n))
     for e in range(n):
-        kmax = km[e]
-        gmax = gm[e]
+        km = host[0, e]
+        gm = host[1, e]
+        te = host[2, e]
+        kmax = km
+        gmax = gm
         solid = False
-        phi_pos = False
         for j in range(m):
-            kmax = max(kmax, k_i[j, e])
-            gmax = max(gmax, g_i[j, e])
-            if g_i[j, e] > 0.0 and w[j, e] > 0.0:
+            kmax = max(kmax, inc[_K, j, e])
+            gmax = max(gmax, inc[_G, j, e])
+            if inc[_G, j, e] > 0.0 and inc[_W, j, e] > 0.0:
                 solid = True
-        lk_lo = math.log(tiny * km[e])
-        lg_lo = math.log(tiny * gm[e])
+        lk_lo = math.log(tiny * km)
+        lg_lo = math.log(tiny * gm)
         lk_hi = math.log(2.0 * kmax)
         lg_hi = math.log(2.0 * gmax)
-        lk = math.log(km[e])
-        lg = math.log(gm[e])
-        te = t_end[e]
-        phi_pos = te > 0.0
-        a_k, a_g = _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, k_i, g_i, w, geo, e)
+        lk = math.log(km)
+        lg = math.log(gm)
+        a_k, a_g = _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, inc, e)
         if n_fixed < 0:
-            if not phi_pos:
+            if not te > 0.0:
                 n_el = 0
             else:
                 stiff = te * max(abs(a_k), abs(a_g))
@@ -99,45 +98,69 @@ def dem_elements(km, gm, k_i, g_i, w, t_end, geo, n_fixed, log_change, max_steps
         h6 = h / 6.0
         for step in range(n_el):
             if step:
-                a_k, a_g = _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, k_i, g_i, w, geo, e)
+                a_k, a_g = _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, inc, e)
             b_k, b_g = _dem_rate1(lk + h2 * a_k, lg + h2 * a_g, lk_lo, lk_hi, lg_lo, lg_hi,
-                                  k_i, g_i, w, geo, e)
+                                  inc, e)
             c_k, c_g = _dem_rate1(lk + h2 * b_k, lg + h2 * b_g, lk_lo, lk_hi, lg_lo, lg_hi,
-                                  k_i, g_i, w, geo, e)
+                                  inc, e)
             d_k, d_g = _dem_rate1(lk + h * c_k, lg + h * c_g, lk_lo, lk_hi, lg_lo, lg_hi,
-                                  k_i, g_i, w, geo, e)
+                                  inc, e)
             lk = max(lk + ((a_k + d_k) + 2.0 * (b_k + c_k)) * h6, lk_lo)
             lg = max(lg + ((a_g + d_g) + 2.0 * (b_g + c_g)) * h6, lg_lo)
-        out_k[e] = math.exp(lk)
-        out_g[e] = math.exp(lg)
-    return out_k, out_g
+        out[0, e] = math.exp(lk)
+        out[1, e] = math.exp(lg)
+    return out
+
+
+def dem(km, gm, k_i, g_i, w, t_end, geo, n_steps, log_change, max_steps, solid_factor, tiny):
+    """The DEM integration of :func:`inclusions._dem` by the compiled loop over elements.
+
+    ``km, gm, t_end`` shape (n,); ``k_i, g_i, w`` shape (m, n) (inclusion axis first, weights
+    w_i = x_i / phi); ``geo`` shape (15, m, n) from :func:`inclusions._geometry`. ``n_steps``
+    None chooses the step count per element from its stiffness (the rule of
+    :func:`inclusions._dem`, with ``log_change`` = DEM_LOG_CHANGE_PER_STEP, ``max_steps`` =
+    DEM_MAX_STEPS, ``solid_factor`` = DEM_SOLID_INCLUSION_FACTOR); an integer forces that many
+    classical RK4 steps on every element. ``tiny`` is the floor of the moduli relative to the
+    matrix. Returns K*, G* (GPa), shape (n,).
+    """
+    host = np.stack([km, gm, t_end])  # fresh arrays (broadcast views warn when numba types them)
+    inc = np.concatenate([np.stack([k_i, g_i, w]), geo])
+    par = np.array([-1.0 if n_steps is None else float(n_steps), log_change, max_steps,
+                    solid_factor, tiny])
+    out = _dem_loop(host, inc, par)
+    return out[0], out[1]
 
 
 @njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
-def _mineral_state_loop(t, p, rho0, ks0, g0, a0, a1, a2, half_a1, gamma_th, delta_s, gamma_g,
-                        log_offset, bm_b, three_ksp, three_gp):
+def _mineral_state_loop(t, p, c):
     n = t.size
-    m = rho0.size
-    rho = np.empty((n, m))
-    ks = np.empty((n, m))
-    g = np.empty((n, m))
+    m = c.shape[1]
+    out = np.empty((3, n, m))
     for i in range(n):
         for j in range(m):
-            rho[i, j], ks[i, j], g[i, j] = _state_formula(
-                t[i], p[i], rho0[j], ks0[j], g0[j], a0[j], a1[j], a2[j], half_a1[j],
-                gamma_th[j], delta_s[j], gamma_g[j], log_offset[j], bm_b[j], three_ksp[j],
-                three_gp[j])
-    return rho, ks, g
+            out[0, i, j], out[1, i, j], out[2, i, j] = _state_formula(
+                t[i], p[i], c[0, j], c[1, j], c[2, j], c[3, j], c[4, j], c[5, j], c[6, j],
+                c[7, j], c[8, j], c[9, j], c[10, j], c[11, j], c[12, j], c[13, j])
+    return out
+
+
+_COLUMNS: dict[int, tuple] = {}  # id(table) -> (table, packed columns); tables live for a run
 
 
 def mineral_state(table, temperature_k, pressure_gpa):
     """:func:`minerals._mineral_state` by the compiled loop over (sample, mineral)."""
+    hit = _COLUMNS.get(id(table))
+    if hit is None or hit[0] is not table:
+        hit = _COLUMNS[id(table)] = (table, np.stack(_table_columns(table)))
     t = np.asarray(temperature_k, dtype=float)
     p = np.asarray(pressure_gpa, dtype=float)
+    if t.shape == p.shape and t.ndim == 1:
+        out = _mineral_state_loop(np.array(t), np.array(p), hit[1])
+        return out[0], out[1], out[2]
     batch = np.broadcast_shapes(t.shape, p.shape)
+
     def flat(x):  # a fresh array: views of np.broadcast_arrays warn when numba types them
         return np.array(np.broadcast_to(x, batch), dtype=float).ravel()
 
-    out = _mineral_state_loop(flat(t), flat(p), *_table_columns(table))
-    shape = batch + (len(table.names),)
-    return tuple(x.reshape(shape) for x in out)
+    out = _mineral_state_loop(flat(t), flat(p), hit[1]).reshape((3,) + batch + (-1,))
+    return out[0], out[1], out[2]

@@ -456,12 +456,8 @@ def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=None):
     if _jit.enabled():  # the compiled per-element loop (same equations; tested to rounding)
         from . import _accel
 
-        # fresh C arrays (views of np.broadcast_arrays warn when numba types them)
-        k, g = _accel.dem_elements(np.array(km), np.array(gm), np.array(k_i), np.array(g_i),
-                                   np.array(w), t_end, np.array(geo),
-                                   -1 if n_steps is None else int(n_steps),
-                                   DEM_LOG_CHANGE_PER_STEP, DEM_MAX_STEPS,
-                                   DEM_SOLID_INCLUSION_FACTOR, _TINY)
+        k, g = _accel.dem(km, gm, k_i, g_i, w, t_end, geo, n_steps, DEM_LOG_CHANGE_PER_STEP,
+                          DEM_MAX_STEPS, DEM_SOLID_INCLUSION_FACTOR, _TINY)
         return k.reshape(batch), g.reshape(batch)
     if n == 1:
         k, g = _dem_one(float(km[0]), float(gm[0]), k_i[:, 0], g_i[:, 0], w[:, 0],
