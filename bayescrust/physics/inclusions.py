@@ -36,8 +36,8 @@ import warnings
 
 import numpy as np
 
-from ._checks import check_range
 from . import _jit
+from ._checks import check_range
 from ._jit import jitable
 
 __all__ = [
