@@ -18,9 +18,16 @@ import math
 
 import numpy as np
 from numba import njit
+from numba.extending import register_jitable
 
+from ._jit import JITABLE
 from .inclusions import _pq
 from .minerals import _state_formula, _table_columns
+
+# the shared physics functions become callable from compiled code (they stay the same objects)
+for _fn in JITABLE:
+    register_jitable(_fn)
+del _fn
 
 #: LLVM fast-math flags without "no NaN / no inf" (the floors and clips must see inf and NaN
 #: as numpy does): reassociation and reciprocals change results at the rounding level only.
@@ -164,3 +171,41 @@ def mineral_state(table, temperature_k, pressure_gpa):
 
     out = _mineral_state_loop(flat(t), flat(p), hit[1]).reshape((3,) + batch + (-1,))
     return out[0], out[1], out[2]
+
+
+def _drop_stale_cache(kernels=(_dem_loop, _mineral_state_loop, _dem_rate1)) -> None:
+    """Delete numba's cached machine code of this module when a shared physics function changed.
+
+    numba's on-disk cache is keyed on this file only: an edit of a :func:`~._jit.jitable`
+    function in another module (e.g. :func:`inclusions._pq`) would otherwise leave the old
+    physics compiled in. A hash of their source is kept beside the cache; a different hash
+    empties this module's entries (they recompile on first use).
+    """
+    import glob
+    import hashlib
+    import inspect
+    import os
+
+    src = "".join(inspect.getsource(f) for f in JITABLE)
+    stamp = hashlib.sha256(src.encode()).hexdigest()
+    path = getattr(getattr(kernels[0], "_cache", None), "_cache_path", None)
+    if not path:
+        return
+    stamp_file = os.path.join(path, "_accel.deps")
+    try:
+        with open(stamp_file) as fh:
+            if fh.read() == stamp:
+                return
+    except OSError:
+        pass
+    try:
+        for f in glob.glob(os.path.join(path, "_accel.*.nb[ic]")):
+            os.remove(f)
+        os.makedirs(path, exist_ok=True)
+        with open(stamp_file, "w") as fh:
+            fh.write(stamp)
+    except OSError:  # pragma: no cover - a read-only cache: numba compiles in memory
+        pass
+
+
+_drop_stale_cache()
