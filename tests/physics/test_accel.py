@@ -148,3 +148,10 @@ def test_forward_model_compiled_equals_numpy(pore_fluid):
         one = _both(fm, **{k: v[i] for k, v in kw.items()})
         _close(one[0], tuple(x[i] for x in ref))
         _close(one[1], tuple(x[i] for x in ref))
+
+
+def test_use_accel_without_numba_refuses(monkeypatch):
+    monkeypatch.setattr(_jit, "AVAILABLE", False)
+    with pytest.raises(RuntimeError, match="numba"):
+        with _jit.use_accel(True):
+            pass
