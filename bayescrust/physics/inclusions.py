@@ -418,6 +418,12 @@ def _dem_layout(k_m, g_m, k_i, g_i, aspect_i, frac_i):
     frac_i, aspect_i)``, the host moduli (n,) and the inclusion arrays (m, n)."""
     k_m = np.asarray(k_m, dtype=float)
     g_m = np.asarray(g_m, dtype=float)
+    incl = (k_i, g_i, frac_i, aspect_i)
+    if (k_m.ndim == 1 and g_m.shape == k_m.shape
+            and all(isinstance(x, np.ndarray) and x.shape == k_i.shape for x in incl)
+            and k_i.ndim == 2 and k_i.shape[0] == k_m.size):
+        # the forward model's layout, host (n,) and inclusions (n, m): transposed copies only
+        return (k_m.shape, k_m, g_m, *(np.ascontiguousarray(x.T, dtype=float) for x in incl))
     shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), np.shape(k_i),
                                 np.shape(g_i), np.shape(aspect_i), np.shape(frac_i))
     batch, m = shape[:-1], shape[-1]
