@@ -36,7 +36,9 @@ import warnings
 
 import numpy as np
 
+from . import _jit
 from ._checks import check_range
+from ._jit import jitable
 
 __all__ = [
     "spheroid_pq",
@@ -139,6 +141,7 @@ def _geometry(aspect):
     )
 
 
+@jitable
 def _pq(rk, rg, r, geo):
     """P and Q from the modulus ratios rk = K_i/K, rg = G_i/G and R = 3G/(3K + 4G) of the host.
 
@@ -415,6 +418,12 @@ def _dem_layout(k_m, g_m, k_i, g_i, aspect_i, frac_i):
     frac_i, aspect_i)``, the host moduli (n,) and the inclusion arrays (m, n)."""
     k_m = np.asarray(k_m, dtype=float)
     g_m = np.asarray(g_m, dtype=float)
+    incl = (k_i, g_i, frac_i, aspect_i)
+    if (k_m.ndim == 1 and g_m.shape == k_m.shape
+            and all(isinstance(x, np.ndarray) and x.shape == k_i.shape for x in incl)
+            and k_i.ndim == 2 and k_i.shape[0] == k_m.size):
+        # the forward model's layout, host (n,) and inclusions (n, m): transposed copies only
+        return (k_m.shape, k_m, g_m, *(np.ascontiguousarray(x.T, dtype=float) for x in incl))
     shape = np.broadcast_shapes(k_m.shape + (1,), g_m.shape + (1,), np.shape(k_i),
                                 np.shape(g_i), np.shape(aspect_i), np.shape(frac_i))
     batch, m = shape[:-1], shape[-1]
@@ -450,6 +459,12 @@ def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=None):
     # inclusion mix added in fixed proportion w_i; integrate in t = -ln(1 - y), t in [0, T]
     w = frac_i / np.maximum(phi, np.finfo(float).tiny)
     t_end = -np.log1p(-phi)
+    if _jit.enabled():  # the compiled per-element loop (same equations; tested to rounding)
+        from . import _accel
+
+        k, g = _accel.dem(km, gm, k_i, g_i, w, t_end, geo, n_steps, DEM_LOG_CHANGE_PER_STEP,
+                          DEM_MAX_STEPS, DEM_SOLID_INCLUSION_FACTOR, _TINY)
+        return k.reshape(batch), g.reshape(batch)
     if n == 1:
         k, g = _dem_one(float(km[0]), float(gm[0]), k_i[:, 0], g_i[:, 0], w[:, 0],
                         float(t_end[0]), geo[:, :, 0], n_steps)

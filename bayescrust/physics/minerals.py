@@ -17,6 +17,7 @@ from types import MappingProxyType
 
 import numpy as np
 
+from bayescrust.physics import _jit
 from bayescrust.physics._checks import check_range
 from bayescrust.physics._data import CELSIUS_TO_KELVIN
 
@@ -336,6 +337,7 @@ def mineral_table(names: Sequence[str] | str) -> MineralTable:
     )
 
 
+@_jit.jitable
 def _eulerian_strain(kt, bm_b, pressure):
     """Solve the third-order Birch-Murnaghan equation for the Eulerian strain f.
 
@@ -422,24 +424,44 @@ def _mineral_state(table: MineralTable, temperature_k, pressure_gpa):
     Stixrude, L. & Lithgow-Bertelloni, C. (2005), Thermodynamics of mantle minerals - I. Physical
     properties, Geophys. J. Int. 162, 610-632.
     """
+    if _jit.enabled():  # the compiled loop over (sample, mineral) of the same formula
+        from bayescrust.physics import _accel
+
+        return _accel.mineral_state(table, temperature_k, pressure_gpa)
     t = np.asarray(temperature_k, dtype=float)[..., np.newaxis]
     p = np.asarray(pressure_gpa, dtype=float)[..., np.newaxis]
+    return _state_formula(t, p, *_table_columns(table))
+
+
+def _table_columns(table: MineralTable) -> tuple:
+    """The columns of ``table`` in the argument order of :func:`_state_formula`."""
+    return (table.rho0, table.ks0, table.g0, table.a0, table.a1, table.a2, table.half_a1,
+            table.gamma_th, table.delta_s, table.gamma_g, table.log_offset, table.bm_b,
+            table.three_ksp, table.three_gp)
+
+
+@_jit.jitable
+def _state_formula(t, p, rho0, ks0, g0, a0, a1, a2, half_a1, gamma_th, delta_s, gamma_g,
+                   log_offset, bm_b, three_ksp, three_gp):
+    """Steps 1-5 of :func:`_mineral_state` (which gives the equations and their sources) for
+    temperature ``t`` (K) and pressure ``p`` (GPa) broadcasting against the mineral columns:
+    numpy arrays in the reference, scalars in the compiled kernel (the same code)."""
     # Step 1-2: thermal expansion at zero pressure and Anderson-Grueneisen moduli.
-    log_x = table.log_offset - (table.a0 * t + table.half_a1 * (t * t) - table.a2 / t)
-    rho_t = table.rho0 * np.exp(log_x)
-    ks_t = table.ks0 * np.exp(table.delta_s * log_x)
-    g_t = table.g0 * np.exp(table.gamma_g * log_x)
+    log_x = log_offset - (a0 * t + half_a1 * (t * t) - a2 / t)
+    rho_t = rho0 * np.exp(log_x)
+    ks_t = ks0 * np.exp(delta_s * log_x)
+    g_t = g0 * np.exp(gamma_g * log_x)
     # Step 3: isothermal modulus for the compression.
-    alpha_t = table.a0 + table.a1 * t + table.a2 / (t * t)
-    kt_t = ks_t / (1.0 + alpha_t * table.gamma_th * t)
+    alpha_t = a0 + a1 * t + a2 / (t * t)
+    kt_t = ks_t / (1.0 + alpha_t * gamma_th * t)
     # Step 4-5: Birch-Murnaghan compression and finite-strain moduli.
-    f = _eulerian_strain(kt_t, table.bm_b, p)
+    f = _eulerian_strain(kt_t, bm_b, p)
     s = 1.0 + 2.0 * f
     s32 = s * np.sqrt(s)
     s52 = s32 * s
     rho = rho_t * s32
-    ks = s52 * (ks_t + (table.three_ksp * kt_t - 5.0 * ks_t) * f)
-    g = s52 * (g_t + (table.three_gp * kt_t - 5.0 * g_t) * f)
+    ks = s52 * (ks_t + (three_ksp * kt_t - 5.0 * ks_t) * f)
+    g = s52 * (g_t + (three_gp * kt_t - 5.0 * g_t) * f)
     return rho, ks, g
 
 

@@ -341,6 +341,16 @@ class ForwardModel:
         vp, vs, density : numpy.ndarray, shape B
         """
         f = np.asarray(fractions, float)
+        scalars = (temperature_c, pressure_gpa, porosity, aspect_ratio, melt_fraction,
+                   melt_aspect_ratio, serpentinization,
+                   pressure_gpa if pore_pressure_gpa is None else pore_pressure_gpa)
+        if f.ndim == 1 and all(np.ndim(a) == 0 for a in scalars):
+            # batch of one (CLI, users' scripts): one array instead of nine broadcasts; the
+            # same rows as the general path below (tested equal)
+            flat = np.array(scalars, dtype=float).reshape(-1, 1)
+            solid = self._solid(f[None, :], flat[0], flat[1], flat[6])
+            vp, vs, rho = self._finish(*solid, *flat[[0, 1, 2, 3, 4, 5, 7]])
+            return vp.reshape(()), vs.reshape(()), rho.reshape(())
         args = np.broadcast_arrays(
             temperature_c,
             pressure_gpa,

@@ -4,7 +4,9 @@ Run ``python tests/benchmarks/bench_forward.py``. Prints, measured in one run, t
 gabbro/harzburgite mixture with seawater pores of sampled aspect ratio (10^-3 to 1), melt and
 attenuation (the work the log-probability does), the batch-1 latency, the DEM kernel alone, its
 error against the converged reference integration, and the ratio of batched to one-at-a-time
-evaluation. Figures are reported, not asserted: absolute times depend on the machine.
+evaluation. Each rate is measured with the numpy reference kernels and, when numba is installed,
+with the compiled kernels (``bayescrust.physics._accel``), interleaved in the same run, with
+their ratio. Figures are reported, not asserted: absolute times depend on the machine.
 """
 
 from __future__ import annotations
@@ -15,6 +17,7 @@ import time
 import numpy as np
 
 from bayescrust import ForwardModel
+from bayescrust.physics import _jit
 
 
 def _inputs(n: int, rng: np.random.Generator, case: str = "pores+melt"):
@@ -45,6 +48,22 @@ def _rate(fm, kw, n: int, min_seconds: float) -> float:
             return reps * n / dt
 
 
+def _modes():
+    """Kernel settings to compare: the numpy reference, and the compiled kernels if any."""
+    return (False, True) if _jit.AVAILABLE else (False,)
+
+
+def _rates(fn, seconds):
+    """``fn()`` timed under each kernel setting, alternating twice (the machine is shared:
+    the better of two interleaved measurements of each setting)."""
+    best = {}
+    for _ in range(2):
+        for on in _modes():
+            with _jit.use_accel(on):
+                best[on] = max(best.get(on, 0.0), fn(seconds / 2))
+    return best
+
+
 def _dem_kernel(rng, seconds):
     """The DEM kernel alone on the forward model's inclusion mix, and its error."""
     from bayescrust.physics import inclusions
@@ -60,22 +79,34 @@ def _dem_kernel(rng, seconds):
     args = (km, gm, ki, gi, ai, fi)
     for b in (1, n):
         sub = [a[:b] if b > 1 else a[0] for a in args]
-        inclusions._dem(*sub)
-        reps, t0 = 0, time.perf_counter()
-        while time.perf_counter() - t0 < seconds:
+
+        def run(sec, sub=sub, b=b):
             inclusions._dem(*sub)
-            reps += 1
-        dt = (time.perf_counter() - t0) / reps
-        print(f"DEM kernel alone, batch {b:>5}: {b / dt:.3g} evals/s, {dt * 1e6:.0f} us/call")
-    fast = inclusions._dem(*args)
-    ref = inclusions._dem_reference(*args)
-    err = max(float(np.max(np.abs(f / r - 1.0))) for f, r in zip(fast, ref, strict=True))
-    print(f"DEM max relative error against the converged reference: {err:.2g}")
+            reps, t0 = 0, time.perf_counter()
+            while time.perf_counter() - t0 < sec:
+                inclusions._dem(*sub)
+                reps += 1
+            return b * reps / (time.perf_counter() - t0)
+
+        r = _rates(run, seconds)
+        line = "  ".join(f"{_NAME[on]} {r[on]:.3g} evals/s ({b / r[on] * 1e6:.0f} us/call)"
+                         for on in r)
+        ratio = f"  ratio {r[True] / r[False]:.1f}x" if True in r else ""
+        print(f"DEM kernel alone, batch {b:>5}: {line}{ratio}")
+    for on in _modes():
+        with _jit.use_accel(on):
+            fast = inclusions._dem(*args)
+        ref = inclusions._dem_reference(*args)
+        err = max(float(np.max(np.abs(f / r - 1.0))) for f, r in zip(fast, ref, strict=True))
+        print(f"DEM ({_NAME[on]}) max relative error against the converged reference: {err:.2g}")
+
+
+_NAME = {False: "numpy", True: "compiled"}
 
 
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__)
-    ap.add_argument("--max-batch", type=int, default=10**6)
+    ap.add_argument("--max-batch", type=int, default=10**5)
     ap.add_argument("--seconds", type=float, default=1.0, help="minimum time per measurement")
     ap.add_argument("--attenuation-law", default="jackson2002",
                     help="attenuation law of the forward model (physics.anelastic)")
@@ -84,14 +115,20 @@ def main(argv=None) -> int:
     fm = ForwardModel(rocks=("gabbro", "harzburgite"), attenuation_law=args.attenuation_law)
     print(f"gabbro/harzburgite mixture, Voigt-Reuss-Hill, anelastic ({args.attenuation_law})")
     print("cases: solid only; + melt above 1100 C (DEM); + seawater pores aspect 1e-3..1 (DEM)")
-    print(f"{'batch':>9} {'case':>11} {'evals/s':>12} {'us/eval':>9}")
+    modes = _modes()
+    head = "".join(f" {_NAME[on] + ' evals/s':>17} {'us/eval':>8}" for on in modes)
+    print(f"{'batch':>9} {'case':>11}{head}" + ("    ratio" if len(modes) > 1 else ""))
     rates = {}
     for n in (1, 32, 10**4, 10**5, 10**6):
         if n > args.max_batch:
             break
         for case in ("solid", "melt", "pores+melt"):
-            rates[n, case] = _rate(fm, _inputs(n, rng, case), n, args.seconds)
-            print(f"{n:>9} {case:>11} {rates[n, case]:>12.3g} {1e6 / rates[n, case]:>9.3g}")
+            kw = _inputs(n, rng, case)
+            r = _rates(lambda sec, kw=kw, n=n: _rate(fm, kw, n, sec), args.seconds)
+            rates[n, case] = r[modes[-1]]
+            cols = "".join(f" {r[on]:>17.3g} {1e6 / r[on]:>8.3g}" for on in modes)
+            ratio = f" {r[True] / r[False]:>7.1f}x" if len(modes) > 1 else ""
+            print(f"{n:>9} {case:>11}{cols}{ratio}")
     _dem_kernel(rng, args.seconds)
     # one-at-a-time: what a hand-written loop over samples costs, same run
     n_loop = 1000
@@ -100,7 +137,7 @@ def main(argv=None) -> int:
     for i in range(n_loop):
         fm(**{k: (v[i] if np.ndim(v) else v) for k, v in kw.items()})
     loop_rate = n_loop / (time.perf_counter() - t0)
-    print(f"one-at-a-time loop (pores+melt): {loop_rate:.3g} evals/s")
+    print(f"one-at-a-time loop (pores+melt, {_NAME[modes[-1]]}): {loop_rate:.3g} evals/s")
     for (n, case), r in rates.items():
         if n >= 10**4 and case == "pores+melt":
             print(f"batched ({n}) / looped speed ratio: {r / loop_rate:.0f}x")

@@ -8,7 +8,9 @@ fraction, serpentinisation; porosity fixed 0). Prints, from one run:
   (vectorised log-probability, DE + snooker move mix, sparse autocorrelation checks);
 - the same target reached by emcee's default stretch move with a one-walker-at-a-time
   log-probability (what a hand-written script does), checking the ESS every 500 steps;
-- their ratio; and the exact reference's time.
+- their ratio; and the exact reference's time;
+- the driver's time with the numpy reference kernels against the compiled (numba) kernels, when
+  numba is installed, in the same run (``--no-baseline`` skips the slow hand-written baseline).
 
 Run: ``python tests/benchmarks/bench_inversion.py [--forward dem|kuster_toksoz]``.
 """
@@ -27,6 +29,8 @@ def main(argv=None) -> int:
     ap.add_argument("--forward", default="dem", choices=["dem", "kuster_toksoz",
                                                          "self_consistent"])
     ap.add_argument("--seed", type=int, default=1)
+    ap.add_argument("--no-baseline", action="store_true",
+                    help="skip the one-walker-per-call emcee baseline (minutes)")
     args = ap.parse_args(argv)
     warnings.filterwarnings("ignore", category=FutureWarning)
 
@@ -34,6 +38,7 @@ def main(argv=None) -> int:
 
     import bayescrust as bc
     from bayescrust.inference.model import LayerModel
+    from bayescrust.physics import _jit
 
     layer = bc.Layer("lower crust", top_km=4.0, bottom_km=6.0, water_depth_km=3.0,
                      vp=(7.1, 0.1))
@@ -53,6 +58,26 @@ def main(argv=None) -> int:
     d = res.diagnostics
     ess_arviz = res.summary.loc[["harzburgite", "temperature_c", "melt_fraction",
                                  "serpentinization"], "ess_bulk"]
+
+    kernels = {}  # driver time by kernel setting, interleaved (the machine is shared)
+    for on in (False, True) if _jit.AVAILABLE else ():
+        for _ in range(2):
+            with _jit.use_accel(on):
+                t0 = time.perf_counter()
+                r = bc.invert_layer(layer, seed=args.seed, min_ess=2000, **kw)
+                dt = time.perf_counter() - t0
+            kernels[on] = min(kernels.get(on, (np.inf,)), (dt, r.diagnostics["n_steps"]))
+    for on, (dt, steps) in kernels.items():
+        print(f"driver, {'compiled' if on else 'numpy'} kernels: {dt:6.2f} s "
+              f"({steps} steps; best of 2)")
+    if len(kernels) == 2:
+        print(f"compiled / numpy kernels speed-up of the driver: "
+              f"{kernels[False][0] / kernels[True][0]:.2f}x")
+    if args.no_baseline:
+        print(f"driver  : {t_driver:6.2f} s total, {d['n_steps']} steps, min ESS (tau) "
+              f"{min(d['ess_stopping'].values()):.0f}, min ESS (arviz bulk) "
+              f"{ess_arviz.min():.0f}; exact {t_exact:.3f} s")
+        return 0
 
     # Hand-written baseline: stretch move, scalar log-probability, ESS checked every 500 steps.
     model = LayerModel.build(layer, **kw)

@@ -1,0 +1,157 @@
+"""The compiled (numba) kernels against the numpy reference they must equal to rounding.
+
+The numpy code is the definition; the compiled kernels run the same equations element by
+element (bayescrust/physics/_accel.py). Any difference beyond rounding (1e-12 relative) is a
+defect of the compiled kernel. Accuracy against the converged DEM reference is checked in
+test_inclusions.py (it runs whichever kernel is switched on; here both are compared directly).
+"""
+
+import numpy as np
+import pytest
+
+from bayescrust.physics import _jit, inclusions, minerals
+
+pytest.importorskip("numba")
+
+RTOL = 1e-11  # measured: 1.6e-12 at most on the grids below
+
+
+def _both(fn, *args, **kw):
+    with _jit.use_accel(False):
+        ref = fn(*args, **kw)
+    with _jit.use_accel(True):
+        fast = fn(*args, **kw)
+    return ref, fast
+
+
+def _close(ref, fast, host=None, rtol=RTOL):
+    """Equal to ``rtol``; with ``host`` (the matrix moduli), elements whose reference modulus
+    is within 1e-8 of the 1e-12 floor (relative to the matrix) are compared to 1e-6 only: the
+    floored equations have a kink there that amplifies rounding (tests/physics/
+    test_inclusions.py::test_dem_single_element_path_equals_vectorised states the same)."""
+    tol = rtol
+    if host is not None:
+        lowest = np.minimum(ref[0] / host[0], ref[1] / host[1])
+        tol = np.where(lowest < 1e-8, 1e-6, rtol)
+    for r, f in zip(ref, fast, strict=True):
+        r, f = np.asarray(r), np.asarray(f)
+        assert r.shape == f.shape
+        err = np.abs(f - r) / np.abs(r)
+        assert np.all(err <= tol), f"max relative difference {np.max(err / tol * rtol):.2e}"
+
+
+def _grid():
+    # matrix Poisson's ratio 0.05-0.4, K_i/K_m 0 (dry) ... 0.9, aspect 1e-4 (below the thinnest
+    # documented crack) ... 1 ... 10 (prolate), porosity 1e-4 ... 0.5 (the highest accepted)
+    nu, kr, a, phi = (x.ravel() for x in np.meshgrid(
+        [0.05, 0.15, 0.25, 0.35, 0.4], [0.0, 0.01, 0.05, 0.3, 0.9],
+        np.r_[np.logspace(-4, 0, 17), 1.05, 3.0, 10.0], [1e-4, 0.01, 0.05, 0.1, 0.3, 0.45, 0.5],
+        indexing="ij"))
+    km = np.full(nu.size, 80.0)
+    gm = km * 1.5 * (1.0 - 2.0 * nu) / (1.0 + nu)
+    return km, gm, (kr * km)[:, None], np.zeros((nu.size, 1)), a[:, None], phi[:, None]
+
+
+def test_dem_compiled_equals_numpy_on_dense_grid():
+    # 3325 single-phase cases, thinnest cracks and highest porosities included
+    args = _grid()
+    ref, fast = _both(inclusions._dem, *args)
+    _close(ref, fast, host=args[:2])
+    # and the comparison is not vacuous: the moduli changed by up to ~100 %
+    assert np.min(ref[1] / args[1]) < 1e-3
+
+
+@pytest.mark.parametrize("n_steps", [None, 1, 7])
+def test_dem_compiled_equals_numpy_several_phases(n_steps):
+    # fluid cracks, round pores, melt films and solid inclusions together, default and fixed
+    # step counts (a fixed small count only on round inclusions and moderate fractions, where
+    # it does not diverge); empty rows (no inclusion) included
+    rng = np.random.default_rng(5)
+    n = 2000
+    km = rng.uniform(30, 130, n)
+    gm = km * rng.uniform(0.35, 0.85, n)
+    ki = np.stack([rng.uniform(0, 3.0, n), rng.uniform(1.5, 3.0, n), rng.uniform(5, 150, n)], -1)
+    gi = np.stack([np.zeros(n), np.zeros(n),
+                   np.where(rng.uniform(size=n) < 0.5, 0.0, rng.uniform(1, 80, n))], -1)
+    ai = 10 ** rng.uniform(-3 if n_steps is None else -1, 0, (n, 3))
+    fi = rng.uniform(0, 0.5 if n_steps is None else 0.3, n)[:, None] * rng.dirichlet(np.ones(3), n)
+    fi[rng.uniform(size=(n, 3)) < 0.2] = 0.0
+    ref, fast = _both(inclusions._dem, km, gm, ki, gi, ai, fi, n_steps=n_steps)
+    _close(ref, fast, host=(km, gm))
+
+
+def test_dem_batch_of_one_equals_vectorised_both_kernels():
+    # the numpy single-element path (Python floats), the numpy vectorised path and the compiled
+    # kernel at batch 1 and batch n: all the same to rounding
+    rng = np.random.default_rng(2)
+    n = 200
+    km, gm = rng.uniform(40, 120, n), rng.uniform(20, 60, n)
+    ki = np.stack([rng.uniform(1.5, 3.0, n), rng.uniform(10, 25, n)], -1)
+    gi = np.zeros_like(ki)
+    ai = 10 ** rng.uniform(-3, 0, (n, 2))
+    fi = rng.uniform(0, 0.2, (n, 2))
+    ref, fast = _both(inclusions._dem, km, gm, ki, gi, ai, fi)
+    for i in range(0, n, 9):
+        one_ref, one_fast = _both(inclusions._dem, km[i], gm[i], ki[i], gi[i], ai[i], fi[i])
+        assert np.shape(one_fast[0]) == ()
+        _close(one_ref, (ref[0][i], ref[1][i]), rtol=1e-13)
+        _close(one_fast, (ref[0][i], ref[1][i]))
+
+
+def test_dem_compiled_empty_batch():
+    z = np.zeros((0, 1))
+    k, g = _both(inclusions._dem, np.zeros(0), np.zeros(0), z, z, z + 0.1, z)[1]
+    assert k.shape == g.shape == (0,)
+
+
+def test_use_accel_switches():
+    with _jit.use_accel(False):
+        assert not _jit.enabled()
+        with _jit.use_accel(True):
+            assert _jit.enabled()
+        assert not _jit.enabled()
+
+
+def test_mineral_state_compiled_equals_numpy():
+    # every mineral of the table, -5 ... 1800 deg C, 0 ... 10 GPa (the accepted ranges), and the
+    # broadcast shapes of the reference (scalar, 1-D, 2-D)
+    table = minerals.mineral_table(tuple(minerals.MINERALS))
+    t = np.linspace(268.15, 2073.15, 60)[:, None]
+    p = np.linspace(0.0, 10.0, 25)[None, :]
+    ref, fast = _both(minerals._mineral_state, table, t, p)
+    assert fast[0].shape == (60, 25, len(minerals.MINERALS))
+    _close(ref, fast)
+    ref, fast = _both(minerals._mineral_state, table, 1000.0, 0.3)
+    assert fast[0].shape == (len(minerals.MINERALS),)
+    _close(ref, fast)
+
+
+@pytest.mark.parametrize("pore_fluid", ["connected", "isolated"])
+def test_forward_model_compiled_equals_numpy(pore_fluid):
+    # the whole forward model: gabbro/harzburgite with serpentine, seawater pores of aspect
+    # 1e-3..1, melt, anelasticity; batch and batch 1
+    from bayescrust import ForwardModel
+
+    rng = np.random.default_rng(4)
+    n = 3000
+    t = rng.uniform(0, 1300, n)
+    kw = dict(fractions=rng.dirichlet(np.ones(2), n), temperature_c=t,
+              pressure_gpa=rng.uniform(0.05, 0.5, n), serpentinization=rng.uniform(0, 1, n),
+              porosity=rng.uniform(0, 0.15, n), aspect_ratio=10 ** rng.uniform(-3, 0, n),
+              melt_fraction=np.where(t > 1100, rng.uniform(0, 0.05, n), 0.0),
+              melt_aspect_ratio=10 ** rng.uniform(-2, 0, n))
+    fm = ForwardModel(rocks=("gabbro", "harzburgite"), pore_fluid=pore_fluid)
+    ref, fast = _both(fm, **kw)
+    _close(ref, fast)
+    assert np.ptp(ref[1]) > 1.0  # not vacuous: Vs spans km/s
+    for i in (0, 17, 1234):
+        one = _both(fm, **{k: v[i] for k, v in kw.items()})
+        _close(one[0], tuple(x[i] for x in ref))
+        _close(one[1], tuple(x[i] for x in ref))
+
+
+def test_use_accel_without_numba_refuses(monkeypatch):
+    monkeypatch.setattr(_jit, "AVAILABLE", False)
+    with pytest.raises(RuntimeError, match="numba"):
+        with _jit.use_accel(True):
+            pass
