@@ -278,9 +278,7 @@ def invert_layer(
     prior = _posterior_dict(model, qp, (1, n_prior))
     p_prior = _prior_probabilities(model, hyps, r_hyp, 10 * n_prior)
     n_prior_draws = {k: 10 * n_prior for k in p_prior}
-    run_mcse = None if run.watched_mcse is None else dict(
-        zip(list(hyps), run.watched_mcse.tolist(), strict=True))
-    p_post, se_post = probabilities_mcmc(hyps, post, ess_ref=_ess_ref(run), mcse=run_mcse)
+    p_post, se_post = probabilities_mcmc(hyps, post, ess_ref=_ess_ref(run))
     if evidence:
         log_z, log_z_err = evidence_from_posterior(
             model.log_prob, model.log_prior, model.sample_prior, flat, r_ev, n=n_evidence)

@@ -269,8 +269,7 @@ def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool 
     return pd.DataFrame(rows).set_index("quantity")
 
 
-def probabilities_mcmc(hyps: dict, q: dict, ess_ref: float | None = None,
-                       mcse: dict | None = None):
+def probabilities_mcmc(hyps: dict, q: dict, ess_ref: float | None = None):
     """Posterior probability and MCSE of each hypothesis from (walker, draw) quantity arrays.
 
     The error is measured on the ensemble (:func:`bayescrust.inference.sampler.ensemble_mcse`):
@@ -281,8 +280,6 @@ def probabilities_mcmc(hyps: dict, q: dict, ess_ref: float | None = None,
     effective counts, so that rare (or absent) regions do not get a near-zero error; when the
     indicator is constant over the run (p = 0 or 1) ``ESS`` is ``ess_ref`` (the smallest
     effective sample size of the sampler's monitored averages), else the number of draws.
-    ``mcse`` (``{name: error}``) replaces the error measured on ``q`` by one measured on the
-    sampler's unthinned chain (:attr:`bayescrust.inference.sampler.EnsembleRun.watched_mcse`).
     """
     from .sampler import ensemble_mcse
 
@@ -291,8 +288,6 @@ def probabilities_mcmc(hyps: dict, q: dict, ess_ref: float | None = None,
     for name, m in ind.items():
         m = np.atleast_2d(np.asarray(m, float))
         pm, mc, _ = ensemble_mcse(m)
-        if mcse is not None and name in mcse and np.isfinite(mcse[name]):
-            mc = float(mcse[name])
         ess = float(m.size) if ess_ref is None or not np.isfinite(ess_ref) else float(ess_ref)
         if 0.0 < pm < 1.0 and mc > 0:
             ess = min(float(m.size), pm * (1.0 - pm) / mc**2)

@@ -53,11 +53,6 @@ class EnsembleRun:
         watched functions (see :func:`ensemble_mcse`).
     n_reseeded : int
         Stuck walkers re-seeded during burn-in.
-    watched_mcse : ndarray, shape (k,), or None
-        Monte Carlo standard error of the mean of each watched function, measured by
-        :func:`ensemble_mcse` on the *unthinned* kept chain (every step after burn-in). The
-        thinned draws (a few hundred per walker) give an unstable Geyer estimate: on the
-        two-mode case 2 runs in 20 reported 3-4x the error the same run's unthinned chain gave.
     """
 
     samples: np.ndarray
@@ -74,36 +69,35 @@ class EnsembleRun:
     series_tau: np.ndarray
     series_ess: np.ndarray
     n_reseeded: int
-    watched_mcse: np.ndarray | None = None
 
 
 def default_moves():
-    """The move mix: KDE independence (90 %) and differential evolution (10 %).
+    """The move mix: KDE independence (50 %), DE (30 %), DE with gamma = 1 (10 %), DE-snooker
+    (10 %).
 
     The KDE independence move (:func:`bayescrust.inference.moves.kde_move`) proposes from a
     kernel density of the other walkers and jumps between the separated modes of rock-type
-    posteriors (cold gabbro versus hot or serpentinised mantle) in one step; with an
-    acceptance of ~0.3 every walker is redrawn from (nearly) the posterior every few steps, so
-    ensemble averages, mode populations included, decorrelate fast. Differential evolution
-    (ter Braak 2006) keeps a local, shape-following move in the mix for ensembles whose kernel
-    density is poor (more dimensions, a collapsed coordinate). Measured on the 7.1 km/s
-    benchmark layer and the two-mode layer (KT inclusions, 1000-1500 steps, 3-4 seeds each):
-    the largest autocorrelation time of the ensemble averages fell from 14-58 (mean 29) to
-    10-14 steps on the benchmark, and from 16-23 to 10-21 on the two-mode case, against the
-    former mix KDE 0.5, DE 0.3, DE(gamma = 1) 0.1, DE-snooker 0.1.
+    posteriors (cold gabbro versus hot or serpentinised mantle) in one step; differential
+    evolution proposals follow the ensemble's shape (good for correlated and curved
+    posteriors); ``gamma = 1`` proposes jumps by a whole inter-walker difference (ter Braak
+    2006); the snooker update (ter Braak & Vrugt 2008, vectorised in
+    :func:`bayescrust.inference.moves.snooker_move`) helps along curved ridges. On the 7.1 km/s
+    benchmark layer this mix cut the autocorrelation time from ~30-40 to ~10 steps.
     """
     import emcee
 
-    from .moves import kde_move
+    from .moves import kde_move, snooker_move
 
     return [
-        (kde_move(), 0.9),
-        (emcee.moves.DEMove(), 0.1),
+        (kde_move(), 0.5),
+        (emcee.moves.DEMove(), 0.3),
+        (emcee.moves.DEMove(gamma0=1.0), 0.1),
+        (snooker_move(), 0.1),
     ]
 
 
 #: Human-readable record of :func:`default_moves` (stored in each run's settings).
-MOVES_DESCRIPTION = "KDE independence 0.9, DE 0.1"
+MOVES_DESCRIPTION = "KDE independence 0.5, DE 0.3, DE(gamma=1) 0.1, DE-snooker 0.1"
 
 
 def _walker_tau(chain: np.ndarray) -> np.ndarray:
@@ -282,8 +276,7 @@ def run_ensemble(
     series (the population of a mode), 5 tau leaves ``e^-5 < 1 %`` of the initial offset. On
     the two-mode test case the walker-by-walker ``2 tau`` of earlier versions (~50 steps) left
     a visible deficit of the smaller mode. Thinning is ``max(1, floor(min walker tau / 2))``.
-    Checks are sparse: the next block runs to 10 % beyond the predicted need, but at most to
-    1.25 times the present length (a noisy early tau must not plan a needlessly long chain).
+    Checks are sparse: the next block runs to 10 % beyond the predicted need.
     """
     import emcee
 
@@ -385,18 +378,14 @@ def run_ensemble(
             t_burn = float(np.max(np.concatenate([tau, series_tau[~skip]]))) if finite else 0.0
             burn_new = max(int(math.ceil(burn_factor * t_burn)) if finite else n // 2,
                            reseed_step)
-            # what was measured (chain[start:]) is what is kept if the run stops: a shorter
-            # burn-in than the window measured would keep steps never checked (on the two-mode
-            # case such runs kept an early stretch with the small mode 0.14 against 0.11 later,
-            # and reported 3-4x the error the stopping rule had measured)
-            n_kept = n - max(burn_new, start)
+            n_kept = n - burn_new
             # tau_max must not have grown much since the previous check (a falling estimate
             # is fine: the mode-population series gives noisy estimates, +-30 % at 50 tau)
             stable = tau_rtol is None or (finite and tmax_old is not None
                                           and tmax <= (1.0 + tau_rtol) * tmax_old)
             if (finite and stable and n_kept >= tau_factor * tmax
                     and np.all(ess_series >= min_ess)):
-                burn = max(burn_new, start)
+                burn = burn_new
                 converged = True
                 if bar is not None:  # done: the bar ends at 100 %
                     bar.total = n
@@ -410,10 +399,7 @@ def run_ensemble(
                 need = burn_new + max(tau_factor * tmax, n_kept * scale)
             else:
                 need = 2 * n
-            # at most 1.25x the present length per block: one noisy early tau (a series of a
-            # few hundred steps) would otherwise plan a chain several times longer than the
-            # converged rule needs (runs of 3000-4500 steps whose final tau asked for ~700)
-            target = int(min(max_steps, max(min(1.1 * need, 1.25 * n), n + 50)))
+            target = int(min(max_steps, max(1.1 * need, 1.25 * n, n + 50)))
             if bar is not None:
                 bar.total = target
                 bar.refresh()
@@ -437,13 +423,11 @@ def run_ensemble(
             stacklevel=3,
         )
     ess = nwalkers * (n - burn) / tau
-    watched_mcse = None if watched is None else np.array(
-        [ensemble_mcse(watched[burn:, :, j].T)[1] for j in range(watched.shape[2])])
     return EnsembleRun(
         samples=sampler.get_chain(discard=burn, thin=thin),
         log_prob=sampler.get_log_prob(discard=burn, thin=thin),
         tau=tau, n_steps=n, burn=burn, thin=thin, converged=converged,
         acceptance=np.asarray(sampler.acceptance_fraction, float), ess=ess,
         n_checks=n_checks, wall_time_s=wall, series_tau=series_tau, series_ess=ess_series,
-        n_reseeded=n_reseeded, watched_mcse=watched_mcse,
+        n_reseeded=n_reseeded,
     )
