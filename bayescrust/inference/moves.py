@@ -96,10 +96,13 @@ def kde_move(bandwidth_factor=None):
                 return s.copy(), np.full(s.shape[0], -np.inf)
             inv = np.linalg.inv(chol)
             q = c[random.randint(m, size=s.shape[0])] + random.randn(s.shape[0], d) @ chol.T
+            yc = c @ inv.T  # kernel centres in whitened coordinates
+            nc = np.sum(yc * yc, axis=1)
 
             def log_density(x):  # up to a constant, which cancels in the ratio
-                z = (x[:, None, :] - c[None, :, :]) @ inv.T
-                e = -0.5 * np.einsum("nmd,nmd->nm", z, z)
+                y = x @ inv.T
+                e = -0.5 * np.maximum(np.sum(y * y, axis=1)[:, None] + nc[None, :]
+                                      - 2.0 * y @ yc.T, 0.0)
                 top = e.max(axis=1)
                 return top + np.log(np.exp(e - top[:, None]).sum(axis=1))
 

@@ -87,27 +87,36 @@ def _z_scores(seeds, p_ex, se_ex, **kw):
     return np.array(z), np.array(est), np.array(err)
 
 
-@pytest.mark.xfail(strict=True, reason="after the recalibrated forward model (wider model "
-                   "error) was merged, the scramble-spread errors of P(cold) on the two-mode "
-                   "case are understated: spread over 12 designs / reported = 1.69, above the "
-                   "99 % range 0.48-1.48 (first stage only); open in issue 8")
 def test_exact_path_errors_are_honest():
-    # Spread of the exact path's estimates over independent designs against its reported
-    # error. With 12 designs the variance ratio follows chi2(11)/11; its 99 % range
-    # [0.23, 2.2] gives [0.48, 1.48] for the ratio of standard deviations. (The plain Monte
-    # Carlo formula used before overstated the error ~11x on this case.)
+    # Spread of the exact path's estimates over N independent designs against its reported
+    # error (8 scrambles each, the default). Under honest errors the squared ratio follows
+    # F(N - 1, N (K - 1)): the numerator is a variance from N designs, the denominator the
+    # pooled within-design variance from N (K - 1) degrees of freedom (the reported error is
+    # itself noisy; the former bound took only the numerator's chi2(N - 1) into account).
+    # Designs of 2^13 points (8 x 1024) let N = 48 designs cost what 6 full ones do: the 99 %
+    # range of the ratio is then [0.73, 1.30], so a 1.3x understatement fails. Stage 1 only
+    # (the scramble errors are what is checked). Measured on this case: the true sd of a
+    # 2^16-point design's P(cold) from 128 scrambles is 1.03x the rms reported error; the 1.69
+    # of the former 12-design test was a 0.3 % event under F(11, 84) (36 other designs: 1.05).
+    # The plain Monte Carlo formula used before overstated the error ~11x (ratio ~0.09).
+    from scipy.stats import f
+
+    n, k = 48, 8
     ps, ses, zs, zes = [], [], [], []
-    for s in range(12):
-        ex = bc.exact_layer(TWO_MODE, seed=200 + s, **KW)
+    for s in range(n):
+        ex = bc.exact_layer(TWO_MODE, seed=200 + s, n_points=2**13, n_scrambles=k,
+                            min_importance_ess=0, **KW)
+        assert ex.settings["exact"]["n_scrambles"] == k
         p, se = _cold(ex)
         ps.append(p)
         ses.append(se)
         zs.append(ex.log_evidence)
         zes.append(ex.log_evidence_error)
+    lo, hi = (math.sqrt(f.ppf(c, n - 1, n * (k - 1))) for c in (0.005, 0.995))
     r_p = np.std(ps, ddof=1) / np.sqrt(np.mean(np.square(ses)))
     r_z = np.std(zs, ddof=1) / np.sqrt(np.mean(np.square(zes)))
-    assert 0.48 < r_p < 1.48, r_p
-    assert 0.48 < r_z < 1.48, r_z
+    assert lo < r_p < hi, (r_p, lo, hi)
+    assert lo < r_z < hi, (r_z, lo, hi)
 
 
 def test_two_mode_mcmc_agrees_with_exact():
