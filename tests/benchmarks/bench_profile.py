@@ -50,6 +50,8 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--max-steps", type=int, default=20000)
+    ap.add_argument("--scheme", choices=("collapsed", "joint"), default="collapsed",
+                    help="joint MCMC scheme (joint: every layer sampled, slow)")
     args = ap.parse_args(argv)
     prof = benchmark_profile()
     exact_profile(prof, n_layer=2**9, n_thermal=16, n_replicates=2, seed=0)  # warm-up
@@ -61,14 +63,23 @@ def main(argv=None) -> int:
     t0 = time.perf_counter()
     with warnings.catch_warnings(record=True) as rec:
         warnings.simplefilter("always")
-        mc = invert_profile(prof, seed=args.seed, max_steps=args.max_steps)
+        mc = invert_profile(prof, seed=args.seed, max_steps=args.max_steps,
+                            scheme=args.scheme)
     t_mcmc = time.perf_counter() - t0
     d = mc.diagnostics
     k = len(prof.thermal.free)
-    print(f"joint MCMC: {t_mcmc:.1f} s (target < 60 s); steps {d['n_steps']}, walkers "
-          f"{d['nwalkers']}, acceptance {d['acceptance']:.2f}, converged {d['converged']}; "
-          f"ESS thermal {[round(e) for e in d['ess'][:k]]}, min ESS all {min(d['ess']):.0f}; "
-          f"{len(rec)} warnings")
+    print(f"joint MCMC ({d['scheme']}): {t_mcmc:.1f} s (target < 60 s); steps {d['n_steps']}, "
+          f"walkers {d['nwalkers']}, acceptance {d['acceptance']:.2f}, converged "
+          f"{d['converged']}; ESS thermal {[round(e) for e in d['ess'][:k]]}, min ESS all "
+          f"{min(d['ess']):.0f}; {len(rec)} warnings")
+    if d["scheme"] == "collapsed":
+        print(f"  design {d['design_time_s']:.1f} s ({d['n_layer']} points per layer in "
+              f"{d['n_designs']} blocks), sampling {d['sampling_time_s']:.1f} s; "
+              f"interpolation error max {d['interpolation_error_max']:.1e}; design log-L sd "
+              f"median {d['log_likelihood_design_sd']['median']:.3f}, max "
+              f"{d['log_likelihood_design_sd']['max']:.3f}; min layer ESS "
+              f"{[round(e) for e in d['layer_ess_min']]}; pressure bound "
+              f"{float(np.sum(mc.pressure_bound['delta_log_likelihood'])):.4f}")
     print("\nthermal parameter      exact (+-se)          mcmc (+-se)         diff/se")
     for (_, a), (_, b) in zip(ex.thermal.iterrows(), mc.thermal.iterrows(), strict=True):
         se = math.hypot(a["mcse"], b["mcse"])

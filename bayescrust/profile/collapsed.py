@@ -1,0 +1,383 @@
+"""Collapsed MCMC of a profile: emcee over the thermal parameters, layers drawn conditionally.
+
+Given the thermal parameters ``phi`` the layers are independent, so the joint posterior
+factorises as ``p(phi | d) prod_i p(theta_i | phi, d_i)`` with
+``p(phi | d) ~ p(phi) q_hf(phi) prod_i L_i(phi)`` (the exact path's structure,
+:mod:`bayescrust.profile.exact`). This sampler
+
+1. weighs one prior design per layer once (``n_designs`` independent scrambled-Sobol blocks of
+   ``n_layer / n_designs`` points, the temperature drawn from the proposal
+   ``Uniform(temperature_range_c)``, as in the exact path);
+2. runs the package's emcee driver (:func:`~bayescrust.inference.sampler.run_ensemble`) over the
+   few thermal parameters only, with the target ``p(phi) q_hf(phi) prod_i L_hat_i(phi)``, where
+   ``L_hat_i`` is the design's importance estimate of the layer's marginal likelihood;
+3. draws each layer's parameters for every kept ``phi`` by importance resampling of its design
+   (weights ``p(d_i | theta_k) p(T_k | phi) / q(T_k)``), and estimates every answer by
+   Rao-Blackwellisation (the conditional probabilities given ``phi``, averaged over the chain).
+
+**What it samples exactly.** The chain is an exact MCMC for the joint posterior in which each
+layer's conditional prior ``p(theta_i | phi)`` is replaced by its design measure (the ``N``
+design points with weights ``p(T_k | phi) / q(T_k)``); that posterior converges to the true one
+as ``N`` grows. The error of ``log L_hat_i(phi)`` is about ``1 / sqrt(ESS_i(phi))`` (importance
+ESS of the layer's design at ``phi``); the result reports the median and largest
+``sqrt(sum_i 1 / ESS_i)`` over the kept draws (``diagnostics["log_likelihood_design_sd"]``),
+and the spread of the answers over the ``n_designs`` independent blocks (each answer
+re-weighted from the chain to one block's target) enters every reported Monte Carlo error.
+
+**Speed.** ``L_hat_i`` depends on ``phi`` only through the geotherm at the layer's mid-depth,
+``g_i = T_geo(z_i; phi)``, a scalar; ``log L_hat_i(g)`` and the conditional hypothesis
+probabilities are tabulated on a grid of ``g`` with spacing ``scatter_c / 16`` and read by cubic
+interpolation (values outside the grid are computed directly). The interpolation error at the
+kept draws is measured against direct evaluation and reported
+(``diagnostics["interpolation_error_max"]``, in log-likelihood units).
+
+**Overburden.** As in the exact path: pressures fixed at the overburden of the posterior-mean
+densities of a first, smaller pass, with the same reported bound (``pressure_bound``). The
+full joint sampler (``invert_profile(..., scheme="joint")``) samples the densities in the
+overburden instead and is the independent check of that approximation.
+
+For the uncoupled thermal state (no thermal parameters) the layers are independent and the
+joint sampler is used.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+
+import numpy as np
+from scipy.interpolate import CubicSpline
+
+from ..inference.evidence import prior_design, weigh_design
+from ..inference.hypotheses import indicators
+from ..inference.sampler import ensemble_mcse, run_ensemble
+from .exact import _G, _answers, _hypotheses, _log_weights, _one_replicate
+from .results import _KEEP, _boundary_table, _thermal_table, boundary_from_mantle, build_result
+from .spec import Profile
+
+__all__ = ["collapsed_profile", "LayerTable"]
+
+_FLOOR = -700.0  # log-likelihood floor below the table's maximum (exp underflows there anyway)
+
+
+def logsumexp(a, axis=None, keepdims=False):
+    """``log(sum(exp(a)))`` along ``axis``, stable; ``-inf`` where every term is ``-inf``
+    (scipy's, without its per-call dispatch overhead, which dominates in the sampler)."""
+    a = np.asarray(a, float)
+    m = np.max(a, axis=axis, keepdims=True)
+    m = np.where(np.isfinite(m), m, 0.0)
+    with np.errstate(divide="ignore"):
+        out = np.log(np.sum(np.exp(a - m), axis=axis, keepdims=True)) + m
+    return out if keepdims else np.squeeze(out, axis=axis)
+
+
+class LayerTable:
+    """One layer's design, its tabulated ``log L_hat(g)`` and conditional hypothesis
+    probabilities for each of ``R`` design blocks (module docstring)."""
+
+    def __init__(self, profile, ll, t, ind, n_blocks, grid):
+        self.profile, self.ll, self.t = profile, ll, t
+        self.ind = ind  # (N, H) float indicators
+        self.r = n_blocks
+        self.grid = grid
+        lo, hi = profile.temperature_range_c
+        self.log_q = -math.log(hi - lo)
+        n = ll.size
+        self.block = n // n_blocks
+        log_l = np.empty((n_blocks, grid.size))
+        cond = np.empty((n_blocks, grid.size, ind.shape[1]))
+        for c in range(0, grid.size, 64):
+            lw = self.log_weights(grid[c:c + 64])  # (g, N)
+            for r in range(n_blocks):
+                sl = slice(r * self.block, (r + 1) * self.block)
+                lr = logsumexp(lw[:, sl], axis=1)
+                log_l[r, c:c + 64] = lr - math.log(self.block)
+                with np.errstate(invalid="ignore"):
+                    w = np.exp(lw[:, sl] - np.where(np.isfinite(lr), lr, 0.0)[:, None])
+                cond[r, c:c + 64] = w @ ind[sl]
+        self.log_l_table = log_l
+        top = np.max(log_l) if np.any(np.isfinite(log_l)) else 0.0
+        floor = top + _FLOOR
+        lb = np.maximum(np.nan_to_num(log_l, neginf=floor), floor)
+        lc = logsumexp(lb, axis=0) - math.log(n_blocks)
+        # combined conditional: the blocks weighted by their marginal likelihoods
+        wb = np.exp(lb - lc[None, :]) / n_blocks
+        cc = np.einsum("rg,rgh->gh", wb, np.nan_to_num(cond))
+        self._spl_l = CubicSpline(grid, lc)
+        self._spl_lb = CubicSpline(grid, lb, axis=1)
+        self._spl_c = CubicSpline(grid, cc, axis=0)
+        self._spl_cb = CubicSpline(grid, np.nan_to_num(cond), axis=1)
+        self.floor = floor
+
+    def log_weights(self, g):
+        """Log importance weights (len(g), N) of the design at geotherm values ``g``."""
+        return _log_weights(self.profile, self.ll, self.t, np.asarray(g, float), self.log_q)
+
+    def _inside(self, g):
+        return (g >= self.grid[0]) & (g <= self.grid[-1])
+
+    def log_l(self, g, direct=False):
+        """``log L_hat(g)`` of the whole design (n,)."""
+        g = np.asarray(g, float)
+        out = np.empty(g.shape)
+        ins = np.zeros(g.shape, bool) if direct else self._inside(g)
+        out[ins] = self._spl_l(g[ins])
+        if np.any(~ins):
+            lw = self.log_weights(g[~ins])
+            out[~ins] = np.maximum(logsumexp(lw, axis=1) - math.log(self.ll.size), self.floor)
+        return out
+
+    def log_l_blocks(self, g):
+        """``log L_hat_r(g)`` of each design block (R, n); interpolated (outside: direct)."""
+        g = np.asarray(g, float)
+        out = np.empty((self.r, g.size))
+        ins = self._inside(g)
+        out[:, ins] = self._spl_lb(g[ins])
+        if np.any(~ins):
+            lw = self.log_weights(g[~ins])
+            for r in range(self.r):
+                sl = slice(r * self.block, (r + 1) * self.block)
+                out[r, ~ins] = np.maximum(logsumexp(lw[:, sl], axis=1)
+                                          - math.log(self.block), self.floor)
+        return out
+
+    def cond(self, g, blocks=False):
+        """Conditional hypothesis probabilities (n, H), or per block (R, n, H)."""
+        g = np.asarray(g, float)
+        ins = self._inside(g)
+        shape = (self.r, g.size, self.ind.shape[1]) if blocks else (g.size, self.ind.shape[1])
+        out = np.empty(shape)
+        if blocks:
+            out[:, ins] = self._spl_cb(g[ins])
+        else:
+            out[ins] = self._spl_c(g[ins])
+        if np.any(~ins):
+            lw = self.log_weights(g[~ins])
+            parts = ([slice(r * self.block, (r + 1) * self.block) for r in range(self.r)]
+                     if blocks else [slice(None)])
+            for r, sl in enumerate(parts):
+                w = np.exp(lw[:, sl] - logsumexp(lw[:, sl], axis=1, keepdims=True))
+                v = np.nan_to_num(w) @ self.ind[sl]
+                if blocks:
+                    out[r, ~ins] = v
+                else:
+                    out[~ins] = v
+        return np.clip(out, 0.0, 1.0)
+
+    def draw(self, g, rng, chunk=128):
+        """One design index per geotherm value, by importance resampling (n,).
+
+        Draws are taken in chunks of neighbouring ``g``; design points whose log-weight is
+        more than 60 below the chunk's largest at every ``g`` of the chunk (a bound from the
+        weights' form ``c_k + g t_k / s^2 + row(g)``) are left out: their total probability is
+        below ``N e^-60``, far below double precision.
+        """
+        g = np.asarray(g, float)
+        out = np.empty(g.size, int)
+        s2 = self.profile.thermal.scatter_c ** 2
+        with np.errstate(invalid="ignore"):
+            c_k = np.where(np.isfinite(self.ll), self.ll - 0.5 * self.t**2 / s2, -np.inf)
+        order = np.argsort(g)
+        for c in range(0, g.size, chunk):
+            idx = order[c:c + chunk]
+            a, b = g[idx[0]], g[idx[-1]]
+            upper = c_k + np.maximum(a * self.t, b * self.t) / s2
+            lower = c_k + np.minimum(a * self.t, b * self.t) / s2
+            keep = np.flatnonzero(upper >= np.max(lower) - 60.0)
+            lw = _log_weights(self.profile, self.ll[keep], self.t[keep], g[idx], self.log_q)
+            w = np.exp(lw - np.max(lw, axis=1, keepdims=True))
+            cum = np.cumsum(w, axis=1)
+            u = rng.random(cum.shape[0]) * cum[:, -1]
+            out[idx] = keep[np.minimum((cum < u[:, None]).sum(axis=1), cum.shape[1] - 1)]
+        return out
+
+    def ess(self, g):
+        """Importance ESS of the whole design at geotherm values ``g`` (n,)."""
+        lw = self.log_weights(np.asarray(g, float))
+        w = np.exp(lw - np.max(lw, axis=1, keepdims=True))
+        return w.sum(axis=1) ** 2 / np.maximum((w * w).sum(axis=1), 1e-300)
+
+
+def _grid(profile, phi_prior):
+    th = profile.thermal
+    lo, hi = profile.temperature_range_c
+    s = th.scatter_c
+    geo = th.geotherm_c(profile.mid_depths_km, phi_prior)
+    a = min(lo - 8 * s, float(np.nanmin(geo)) - s)
+    b = max(hi + 8 * s, float(np.nanmax(geo)) + s)
+    n = int(min(max(math.ceil((b - a) / (s / 16.0)) + 1, 64), 8001))
+    return np.linspace(a, b, n)
+
+
+def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_ess=1000.0,
+                      max_steps=20000, forward=None, progress=False, n_layer=2**13,
+                      n_designs=4, n_draws=4000, pressure_bound=True):
+    """Collapsed MCMC of a coupled profile (module docstring); returns a ``ProfileResult``.
+
+    Called by :func:`~bayescrust.profile.joint.invert_profile` (``scheme="collapsed"``).
+    """
+    import pandas as pd
+
+    th = profile.thermal
+    if not th.coupled or th.ndim == 0:
+        raise ValueError("collapsed_profile needs a coupled thermal state with free parameters")
+    if int(n_designs) < 2:
+        raise ValueError(f"n_designs must be >= 2 (for the design error); got {n_designs!r}")
+    t0 = time.perf_counter()
+    streams = gen.spawn(4)
+    models = profile.layer_models(forward=forward)
+    hyps = _hypotheses(profile, models)
+    L = profile.n_layers
+    if profile.pressure == "overburden":  # the exact path's first pass (module docstring)
+        first = _one_replicate(profile, models, hyps, streams[0], max(n_layer // 4, 512), 64)
+        ans = _answers(profile, first, hyps)
+        rho_mean = np.array([o @ q["density"] for o, q in zip(ans["omega"], first["layer_q"],
+                                                              strict=True)])
+        rho_sd = np.sqrt(np.maximum([o @ (q["density"] - r) ** 2 for o, q, r in
+                                     zip(ans["omega"], first["layer_q"], rho_mean,
+                                         strict=True)], 0.0))
+        pressures = profile.pressures_gpa(rho_mean)
+        h = profile.bottoms_km - profile.tops_km
+        p_sd = _G * (np.cumsum(rho_sd * h) - rho_sd * h)
+        models = profile.layer_models(pressures, forward=forward)
+    else:
+        pressures = profile.pressures_gpa()
+        p_sd = np.zeros(L)
+    # 1. one design per layer, weighed once
+    grid = _grid(profile, th.from_unit(streams[1].random((4096, th.ndim))))
+    tables, designs = [], []
+    for i, m in enumerate(models):
+        theta, q, _ = prior_design(m, streams[1], n_layer, n_scrambles=n_designs)
+        ll, _ = weigh_design(m, q)
+        ind = indicators(hyps[i], q)
+        mat = np.stack([v.astype(float) for v in ind.values()], axis=1)
+        tables.append(LayerTable(profile, ll, q["temperature_c"], mat, n_designs, grid))
+        designs.append((theta, q, ll, list(ind)))
+    hf = profile.heat_flow if (profile.heat_flow and profile.heat_flow.mode != "off") else None
+    mids = profile.mid_depths_km
+    t_design = time.perf_counter() - t0
+
+    def log_target(phi, direct=False):
+        phi = np.atleast_2d(phi)
+        lp = th.log_prior(phi)
+        ok = np.isfinite(lp)
+        if not np.any(ok):
+            return lp
+        geo = th.geotherm_c(mids, phi[ok])
+        tot = lp[ok] + sum(tab.log_l(geo[:, i], direct) for i, tab in enumerate(tables))
+        if hf is not None:
+            tot = tot + hf.log_likelihood(th.heat_flow_mw_m2(phi[ok]))
+        lp = lp.copy()
+        lp[ok] = np.where(np.isnan(tot), -np.inf, tot)
+        return lp
+
+    mi = [list(d[3]).index("mantle rock") for d in designs]
+
+    def boundary_given(geo, m=None):  # (n, L+1): P(first mantle layer | phi), and no boundary
+        if m is None:
+            m = np.stack([tab.cond(geo[:, i])[:, mi[i]] for i, tab in enumerate(tables)], 1)
+        survive = np.cumprod(np.concatenate([np.ones((m.shape[0], 1)), 1.0 - m[:, :-1]], 1),
+                             axis=1)
+        return np.concatenate([m * survive, np.prod(1.0 - m, axis=1, keepdims=True)], axis=1)
+
+    def watch(phi):
+        return boundary_given(th.geotherm_c(mids, np.atleast_2d(phi)))
+
+    # 2. emcee over the thermal parameters
+    nw = int(nwalkers) if nwalkers is not None else max(32, 8 * th.ndim)
+    cand = th.from_unit(streams[2].random((64 * nw, th.ndim)))
+    lp = log_target(cand)
+    gum = lp + streams[2].gumbel(size=lp.shape)
+    gum[~np.isfinite(lp)] = -np.inf
+    init = cand[np.argsort(gum)[::-1][:nw]]
+    run = run_ensemble(log_target, init, rng=gen, min_ess=min_ess, max_steps=max_steps,
+                       progress=progress, watch=watch)
+    nd, nwk, k = run.samples.shape
+    x = run.samples.reshape(nd * nwk, k)
+    geo = th.geotherm_c(mids, x)
+
+    def chains(v):  # (draw*walker,) -> (walker, draw)
+        return np.asarray(v).reshape(nd, nwk).T
+
+    # design blocks: each answer re-weighted from the chain to one block's target
+    lb = np.stack([tab.log_l_blocks(geo[:, i]) for i, tab in enumerate(tables)])  # (L, R, S)
+    lc = np.stack([tab.log_l(geo[:, i]) for i, tab in enumerate(tables)])  # (L, S)
+    lw_r = (lb - lc[:, None, :]).sum(axis=0)  # (R, S)
+    w_r = np.exp(lw_r - lw_r.max(axis=1, keepdims=True))
+    w_r /= w_r.sum(axis=1, keepdims=True)
+
+    def estimate(v, v_blocks):
+        """Chain mean of ``v`` (S,) and its error: the ensemble MCSE (+) the spread over the
+        design blocks (``v_blocks`` (R, S): ``v`` under each block's design)."""
+        mean, chain_se, _ = ensemble_mcse(chains(v))  # of the ensemble-average series
+        per = np.einsum("rs,rs->r", w_r, v_blocks)
+        design_se = float(np.std(per, ddof=1) / math.sqrt(per.size))
+        return mean, math.hypot(chain_se, design_se)
+
+    rows = []
+    cond_blocks = []
+    for i, (tab, name) in enumerate(zip(tables, profile.names, strict=True)):
+        c = tab.cond(geo[:, i])
+        cb = tab.cond(geo[:, i], blocks=True)
+        cond_blocks.append(cb)
+        for j, hname in enumerate(designs[i][3]):
+            p, se = estimate(c[:, j], cb[:, :, j])
+            rows.append({"layer": name, "hypothesis": hname, "probability": p, "mcse": se})
+    hyp = pd.DataFrame(rows)
+    bnd = boundary_given(geo)
+    bnd_b = np.stack([boundary_given(geo, np.stack([cond_blocks[i][r, :, mi[i]]
+                                                    for i in range(L)], 1))
+                      for r in range(n_designs)])  # (R, S, L+1)
+    bp, be = zip(*[estimate(bnd[:, j], bnd_b[:, :, j]) for j in range(L + 1)], strict=True)
+    boundary = _boundary_table(profile, list(bp), list(be))
+    vals = th.values(x)
+    thermal_all = {kk: vals[kk] for kk in th.params}
+    mcse = {kk: estimate(v, np.broadcast_to(v, w_r.shape))[1] for kk, v in thermal_all.items()}
+    # 3. equal-weight joint draws: kept thermal points, each layer resampled from its design
+    rng = streams[3]
+    sel = rng.choice(x.shape[0], size=min(n_draws, x.shape[0]), replace=False)
+    thermal_draws = {kk: v[sel] for kk, v in thermal_all.items()}
+    layers = {kk: np.empty((sel.size, L)) for kk in _KEEP}
+    picks = []
+    for i, tab in enumerate(tables):
+        kidx = tab.draw(geo[sel, i], rng)
+        picks.append(kidx)
+        for kk in _KEEP:
+            layers[kk][:, i] = designs[i][1][kk][kidx]
+    bkm = boundary_from_mantle(profile, layers["ultramafic_fraction"] >= 0.5)
+    thermal = _thermal_table(list(thermal_all), thermal_all, mcse=mcse)
+    # accuracy of the approximations at the kept draws
+    sub = sel[:200]
+    interp_err = float(np.max(np.abs(log_target(x[sub]) - log_target(x[sub], direct=True))))
+    ess_l = np.stack([tab.ess(geo[sub, i]) for i, tab in enumerate(tables)], axis=1)
+    design_sd = np.sqrt(np.sum(1.0 / ess_l, axis=1))
+    bound = None
+    if profile.pressure == "overburden" and pressure_bound:
+        shifted = profile.layer_models(pressures + 2.0 * p_sd, forward=forward)
+        delta = []
+        for i, (m1, kidx) in enumerate(zip(shifted, picks, strict=True)):
+            if not np.any(p_sd[i] > 0):
+                delta.append(0.0)
+                continue
+            u, cnt = np.unique(kidx, return_counts=True)  # posterior weight of design points
+            theta, _, ll0, _ = designs[i]
+            ll1, _ = weigh_design(m1, m1.quantities(theta[u]))
+            ok = np.isfinite(ll0[u]) & np.isfinite(ll1)
+            delta.append(float(abs(cnt[ok] @ (ll1[ok] - ll0[u][ok]) / cnt.sum())))
+        bound = {"pressure_gpa": pressures, "pressure_sd_bound_gpa": p_sd,
+                 "delta_log_likelihood": np.array(delta)}
+    draws = {"thermal": thermal_draws, "layers": layers, "boundary_km": bkm}
+    diag = {"scheme": "collapsed", "tau": run.tau.tolist(), "ess": run.ess.tolist(),
+            "converged": run.converged, "n_steps": run.n_steps, "nwalkers": nw,
+            "acceptance": float(run.acceptance.mean()), "coordinates": list(th.free),
+            "sampling_time_s": run.wall_time_s, "design_time_s": t_design,
+            "n_layer": int(tables[0].ll.size), "n_designs": int(n_designs),
+            "series_ess": run.series_ess.tolist(),
+            "interpolation_error_max": interp_err,
+            "log_likelihood_design_sd": {"median": float(np.median(design_sd)),
+                                         "max": float(np.max(design_sd))},
+            "layer_ess_min": np.min(ess_l, axis=0).tolist()}
+    return build_result(profile, method="mcmc", hyps=hyps, pressures=pressures,
+                        pressure_bound=bound, seed=seed_value,
+                        wall_time_s=time.perf_counter() - t0,
+                        mcmc=(draws, hyp, boundary, thermal, diag))
