@@ -51,7 +51,7 @@ from scipy.interpolate import CubicSpline
 from ..inference.evidence import prior_design, weigh_design
 from ..inference.hypotheses import indicators
 from ..inference.sampler import ensemble_mcse, run_ensemble
-from .exact import _G, _answers, _hypotheses, _log_weights, _one_replicate
+from .exact import _G, _hypotheses, _log_weights, design_thermal
 from .results import _KEEP, _boundary_table, _thermal_table, boundary_from_mantle, build_result
 from .spec import Profile
 
@@ -86,15 +86,21 @@ class LayerTable:
         self.block = n // n_blocks
         log_l = np.empty((n_blocks, grid.size))
         cond = np.empty((n_blocks, grid.size, ind.shape[1]))
-        for c in range(0, grid.size, 64):
-            lw = self.log_weights(grid[c:c + 64])  # (g, N)
+        s2 = profile.thermal.scatter_c ** 2
+        with np.errstate(invalid="ignore"):
+            self._c = np.where(np.isfinite(ll), ll - 0.5 * t**2 / s2, -np.inf)
+        step = 16
+        for c in range(0, grid.size, step):
+            gc = grid[c:c + step]
             for r in range(n_blocks):
-                sl = slice(r * self.block, (r + 1) * self.block)
-                lr = logsumexp(lw[:, sl], axis=1)
-                log_l[r, c:c + 64] = lr - math.log(self.block)
+                keep = r * self.block + self._keep(gc[0], gc[-1], slice(r * self.block,
+                                                                        (r + 1) * self.block))
+                lw = _log_weights(profile, ll[keep], t[keep], gc, self.log_q)
+                lr = logsumexp(lw, axis=1)
+                log_l[r, c:c + step] = lr - math.log(self.block)
                 with np.errstate(invalid="ignore"):
-                    w = np.exp(lw[:, sl] - np.where(np.isfinite(lr), lr, 0.0)[:, None])
-                cond[r, c:c + 64] = w @ ind[sl]
+                    w = np.exp(lw - np.where(np.isfinite(lr), lr, 0.0)[:, None])
+                cond[r, c:c + step] = w @ ind[keep]
         self.log_l_table = log_l
         top = np.max(log_l) if np.any(np.isfinite(log_l)) else 0.0
         floor = top + _FLOOR
@@ -108,6 +114,21 @@ class LayerTable:
         self._spl_c = CubicSpline(grid, cc, axis=0)
         self._spl_cb = CubicSpline(grid, np.nan_to_num(cond), axis=1)
         self.floor = floor
+
+    def _keep(self, a, b, sl=slice(None), margin=60.0):
+        """Indices (within ``sl``) of the design points that can matter for any geotherm value
+        in ``[a, b]``: the log-weight is ``c_k + g t_k / s^2 + row(g)``, so a point whose
+        largest value over ``[a, b]`` is more than ``margin`` below the largest smallest value
+        of the others carries less than ``e^-margin`` of the weight at every ``g`` there (the
+        total left out is below ``N e^-60``, far below double precision)."""
+        c, t = self._c[sl], self.t[sl]
+        s2 = self.profile.thermal.scatter_c ** 2
+        upper = c + np.maximum(a * t, b * t) / s2
+        lower = c + np.minimum(a * t, b * t) / s2
+        top = np.max(lower)
+        if not np.isfinite(top):
+            return np.arange(c.size)
+        return np.flatnonzero(upper >= top - margin)
 
     def log_weights(self, g):
         """Log importance weights (len(g), N) of the design at geotherm values ``g``."""
@@ -164,31 +185,40 @@ class LayerTable:
                     out[~ins] = v
         return np.clip(out, 0.0, 1.0)
 
-    def draw(self, g, rng, chunk=128):
+    def draw(self, g, rng, chunk=128, tries=32):
         """One design index per geotherm value, by importance resampling (n,).
 
-        Draws are taken in chunks of neighbouring ``g``; design points whose log-weight is
-        more than 60 below the chunk's largest at every ``g`` of the chunk (a bound from the
-        weights' form ``c_k + g t_k / s^2 + row(g)``) are left out: their total probability is
-        below ``N e^-60``, far below double precision.
+        Exact rejection sampling in chunks of neighbouring ``g`` (range ``[a, b]``): the
+        weight of point ``k`` at ``g`` is proportional to ``exp(c_k + g t_k / s^2)``, bounded
+        over the chunk by the envelope ``exp(c_k + max(a t_k, b t_k) / s^2)``; a candidate from
+        the envelope (one cumulative sum per chunk) is accepted with probability
+        ``exp((g t_k - max(a t_k, b t_k)) / s^2)``, between ``e^-1`` and 1 because chunks are
+        at most ``s^2 / max|t_k|`` wide.
         """
         g = np.asarray(g, float)
         out = np.empty(g.size, int)
         s2 = self.profile.thermal.scatter_c ** 2
-        with np.errstate(invalid="ignore"):
-            c_k = np.where(np.isfinite(self.ll), self.ll - 0.5 * self.t**2 / s2, -np.inf)
         order = np.argsort(g)
-        for c in range(0, g.size, chunk):
-            idx = order[c:c + chunk]
+        # chunks no wider than s^2 / max|t|, so every acceptance probability is >= e^-1
+        width = s2 / max(float(np.max(np.abs(self.t))), 1e-9)
+        cell = np.floor((g[order] - g[order[0]]) / width)
+        starts = np.flatnonzero(np.diff(cell, prepend=-1.0) != 0)
+        bounds = sorted(set(np.concatenate([starts, np.arange(0, g.size, chunk)]).tolist()))
+        for c, e in zip(bounds, bounds[1:] + [g.size], strict=True):
+            idx = order[c:e]
             a, b = g[idx[0]], g[idx[-1]]
-            upper = c_k + np.maximum(a * self.t, b * self.t) / s2
-            lower = c_k + np.minimum(a * self.t, b * self.t) / s2
-            keep = np.flatnonzero(upper >= np.max(lower) - 60.0)
-            lw = _log_weights(self.profile, self.ll[keep], self.t[keep], g[idx], self.log_q)
-            w = np.exp(lw - np.max(lw, axis=1, keepdims=True))
-            cum = np.cumsum(w, axis=1)
-            u = rng.random(cum.shape[0]) * cum[:, -1]
-            out[idx] = keep[np.minimum((cum < u[:, None]).sum(axis=1), cum.shape[1] - 1)]
+            env = self._c + np.maximum(a * self.t, b * self.t) / s2
+            cum = np.cumsum(np.exp(env - np.max(env)))
+            todo = idx
+            while todo.size:
+                u = rng.random((todo.size, tries)) * cum[-1]
+                k = np.minimum(np.searchsorted(cum, u, side="right"), cum.size - 1)
+                t = self.t[k]
+                log_acc = (g[todo][:, None] * t - np.maximum(a * t, b * t)) / s2
+                acc = np.log(rng.random(k.shape)) < log_acc
+                ok = acc.any(axis=1)
+                out[todo[ok]] = k[ok, acc[ok].argmax(axis=1)]
+                todo = todo[~ok]
         return out
 
     def ess(self, g):
@@ -209,9 +239,40 @@ def _grid(profile, phi_prior):
     return np.linspace(a, b, n)
 
 
+def _stage_one(profile, models, rng, n_points, n_thermal=64):
+    """Prior designs per layer (reference pressures) and each point's posterior weight,
+    marginal over a scrambled-Sobol thermal design: [(u, quantities, omega)] per layer."""
+    th = profile.thermal
+    lo, hi = profile.temperature_range_c
+    phi = design_thermal(th, rng, n_thermal)
+    geo = th.geotherm_c(profile.mid_depths_km, phi)
+    log_l = np.zeros((phi.shape[0], len(models)))
+    out, ws = [], []
+    for i, m in enumerate(models):
+        _, q, u = prior_design(m, rng, n_points)
+        ll, _ = weigh_design(m, q)
+        lw = _log_weights(profile, ll, q["temperature_c"], geo[:, i], -math.log(hi - lo))
+        lse = logsumexp(lw, axis=1, keepdims=True)
+        log_l[:, i] = lse[:, 0] - math.log(lw.shape[1])
+        with np.errstate(invalid="ignore"):
+            ws.append(np.nan_to_num(np.exp(lw - np.where(np.isfinite(lse), lse, 0.0))))
+        out.append((u, q))
+    total = log_l.sum(axis=1)
+    hf = profile.heat_flow
+    if hf is not None and hf.mode != "off":
+        total = total + hf.log_likelihood(th.heat_flow_mw_m2(phi))
+    big = np.exp(total - np.max(total))
+    big /= big.sum()
+    res = []
+    for (u, q), w in zip(out, ws, strict=True):
+        o = big @ w
+        res.append((u, q, o / o.sum()))
+    return res
+
+
 def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_ess=1000.0,
-                      max_steps=20000, forward=None, progress=False, n_layer=2**13,
-                      n_designs=4, n_draws=4000, pressure_bound=True):
+                      max_steps=20000, forward=None, progress=False, n_layer=2**15,
+                      n_designs=8, n_draws=4000, pressure_bound=True):
     """Collapsed MCMC of a coupled profile (module docstring); returns a ``ProfileResult``.
 
     Called by :func:`~bayescrust.profile.joint.invert_profile` (``scheme="collapsed"``).
@@ -228,14 +289,13 @@ def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_e
     models = profile.layer_models(forward=forward)
     hyps = _hypotheses(profile, models)
     L = profile.n_layers
-    if profile.pressure == "overburden":  # the exact path's first pass (module docstring)
-        first = _one_replicate(profile, models, hyps, streams[0], max(n_layer // 4, 512), 64)
-        ans = _answers(profile, first, hyps)
-        rho_mean = np.array([o @ q["density"] for o, q in zip(ans["omega"], first["layer_q"],
-                                                              strict=True)])
-        rho_sd = np.sqrt(np.maximum([o @ (q["density"] - r) ** 2 for o, q, r in
-                                     zip(ans["omega"], first["layer_q"], rho_mean,
-                                         strict=True)], 0.0))
+    # 1. a first, smaller pass at the reference pressures finds the posterior-mean densities
+    #    of the layers for the overburden (as the exact path)
+    if profile.pressure == "overburden":
+        stage1 = _stage_one(profile, models, streams[0], max(n_layer // 4, 512))
+        rho_mean = np.array([o @ np.nan_to_num(q["density"]) for _, q, o in stage1])
+        rho_sd = np.sqrt(np.maximum([o @ np.nan_to_num(q["density"] - r) ** 2 for (_, q, o), r
+                                     in zip(stage1, rho_mean, strict=True)], 0.0))
         pressures = profile.pressures_gpa(rho_mean)
         h = profile.bottoms_km - profile.tops_km
         p_sd = _G * (np.cumsum(rho_sd * h) - rho_sd * h)
@@ -243,7 +303,8 @@ def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_e
     else:
         pressures = profile.pressures_gpa()
         p_sd = np.zeros(L)
-    # 1. one design per layer, weighed once
+    # 2. one prior design per layer in n_designs independent scrambles, weighed once and
+    #    tabulated over the geotherm value
     grid = _grid(profile, th.from_unit(streams[1].random((4096, th.ndim))))
     tables, designs = [], []
     for i, m in enumerate(models):
@@ -306,12 +367,16 @@ def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_e
     w_r = np.exp(lw_r - lw_r.max(axis=1, keepdims=True))
     w_r /= w_r.sum(axis=1, keepdims=True)
 
-    def estimate(v, v_blocks):
+    parts = {}  # chain and design parts of the errors of the thermal means and boundary
+
+    def estimate(v, v_blocks, name=None):
         """Chain mean of ``v`` (S,) and its error: the ensemble MCSE (+) the spread over the
         design blocks (``v_blocks`` (R, S): ``v`` under each block's design)."""
         mean, chain_se, _ = ensemble_mcse(chains(v))  # of the ensemble-average series
         per = np.einsum("rs,rs->r", w_r, v_blocks)
         design_se = float(np.std(per, ddof=1) / math.sqrt(per.size))
+        if name is not None:
+            parts[name] = (chain_se, design_se)
         return mean, math.hypot(chain_se, design_se)
 
     rows = []
@@ -328,11 +393,13 @@ def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_e
     bnd_b = np.stack([boundary_given(geo, np.stack([cond_blocks[i][r, :, mi[i]]
                                                     for i in range(L)], 1))
                       for r in range(n_designs)])  # (R, S, L+1)
-    bp, be = zip(*[estimate(bnd[:, j], bnd_b[:, :, j]) for j in range(L + 1)], strict=True)
+    bp, be = zip(*[estimate(bnd[:, j], bnd_b[:, :, j], f"boundary {j}") for j in range(L + 1)],
+                 strict=True)
     boundary = _boundary_table(profile, list(bp), list(be))
     vals = th.values(x)
     thermal_all = {kk: vals[kk] for kk in th.params}
-    mcse = {kk: estimate(v, np.broadcast_to(v, w_r.shape))[1] for kk, v in thermal_all.items()}
+    mcse = {kk: estimate(v, np.broadcast_to(v, w_r.shape), kk)[1]
+            for kk, v in thermal_all.items()}
     # 3. equal-weight joint draws: kept thermal points, each layer resampled from its design
     rng = streams[3]
     sel = rng.choice(x.shape[0], size=min(n_draws, x.shape[0]), replace=False)
@@ -360,10 +427,11 @@ def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_e
                 delta.append(0.0)
                 continue
             u, cnt = np.unique(kidx, return_counts=True)  # posterior weight of design points
-            theta, _, ll0, _ = designs[i]
-            ll1, _ = weigh_design(m1, m1.quantities(theta[u]))
-            ok = np.isfinite(ll0[u]) & np.isfinite(ll1)
-            delta.append(float(abs(cnt[ok] @ (ll1[ok] - ll0[u][ok]) / cnt.sum())))
+            theta = designs[i][0][u]
+            ll0, _ = weigh_design(models[i], models[i].quantities(theta))
+            ll1, _ = weigh_design(m1, m1.quantities(theta))
+            ok = np.isfinite(ll0) & np.isfinite(ll1)
+            delta.append(float(abs(cnt[ok] @ (ll1[ok] - ll0[ok]) / cnt.sum())))
         bound = {"pressure_gpa": pressures, "pressure_sd_bound_gpa": p_sd,
                  "delta_log_likelihood": np.array(delta)}
     draws = {"thermal": thermal_draws, "layers": layers, "boundary_km": bkm}
@@ -376,7 +444,8 @@ def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_e
             "interpolation_error_max": interp_err,
             "log_likelihood_design_sd": {"median": float(np.median(design_sd)),
                                          "max": float(np.max(design_sd))},
-            "layer_ess_min": np.min(ess_l, axis=0).tolist()}
+            "layer_ess_min": np.min(ess_l, axis=0).tolist(),
+            "error_parts": parts}
     return build_result(profile, method="mcmc", hyps=hyps, pressures=pressures,
                         pressure_bound=bound, seed=seed_value,
                         wall_time_s=time.perf_counter() - t0,

@@ -196,7 +196,7 @@ def _ess(ind_chains):
 
 def invert_profile(profile: Profile, *, seed=None, rng=None, nwalkers=None, min_ess=1000.0,
                    max_steps=20000, forward=None, progress=False, burn_steps=300, min_steps=1000,
-                   scheme="collapsed", n_layer=2**13, n_designs=4):
+                   scheme="collapsed", n_layer=2**15, n_designs=8):
     """MCMC of a profile; returns a :class:`ProfileResult` (``method="mcmc"``).
 
     ``scheme="collapsed"`` (default for coupled thermal states with free parameters): emcee over

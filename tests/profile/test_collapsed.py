@@ -45,6 +45,26 @@ def test_tabulated_log_likelihood_and_conditionals_match_direct_weighing():
                                                                  direct=True)[0]) == 0.0
 
 
+def test_layer_draws_are_the_importance_weights():
+    # rejection sampling from the chunk envelope draws each design point with its normalised
+    # importance weight: chi-square test of the draw counts (seeded; fails when the law differs)
+    prof = _profile()
+    m = prof.layer_models()[1]
+    rng = np.random.default_rng(1)
+    _, q, _ = prior_design(m, rng, 2**9, n_scrambles=2)
+    ll, _ = weigh_design(m, q)
+    tab = LayerTable(prof, ll, q["temperature_c"], np.zeros((ll.size, 1)), 2,
+                     np.linspace(-400.0, 2000.0, 601))
+    k = tab.draw(np.full(40000, 450.0), rng)
+    lw = tab.log_weights(np.array([450.0]))[0]
+    w = np.exp(lw - lw.max())
+    w /= w.sum()
+    big = w > 5.0 / k.size  # cells with expected counts >= 5, the rest pooled
+    obs = np.append(np.bincount(k, minlength=w.size)[big], np.sum(~big[k]))
+    exp = np.append(w[big], w[~big].sum()) * k.size
+    assert stats.chisquare(obs, exp).pvalue > 1e-3
+
+
 @pytest.fixture(scope="module")
 def collapsed():
     return invert_profile(_profile(), seed=2, n_layer=2**11, min_ess=400)
