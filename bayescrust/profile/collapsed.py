@@ -22,7 +22,13 @@ as ``N`` grows. The error of ``log L_hat_i(phi)`` is about ``1 / sqrt(ESS_i(phi)
 ESS of the layer's design at ``phi``); the result reports the median and largest
 ``sqrt(sum_i 1 / ESS_i)`` over the kept draws (``diagnostics["log_likelihood_design_sd"]``),
 and the spread of the answers over the ``n_designs`` independent blocks (each answer
-re-weighted from the chain to one block's target) enters every reported Monte Carlo error.
+re-weighted from the chain to one block's target) enters every reported Monte Carlo error,
+combined with the chain's ensemble MCSE (:func:`~bayescrust.inference.sampler.ensemble_mcse`;
+``diagnostics["error_parts"]`` gives both parts). The block spread is itself an estimate: on the
+6-layer benchmark with 2^13 points in 4 blocks (a mantle layer's conditional ESS ~30) the
+answers sat up to ~5 reported errors from the exact path's; with the default 2^15 points in 8
+blocks (ESS >= ~130) they agree (tests/benchmarks/bench_profile.py). Keep
+``diagnostics["layer_ess_min"]`` above ~100 (raise ``n_layer`` otherwise).
 
 **Speed.** ``L_hat_i`` depends on ``phi`` only through the geotherm at the layer's mid-depth,
 ``g_i = T_geo(z_i; phi)``, a scalar; ``log L_hat_i(g)`` and the conditional hypothesis
