@@ -3,7 +3,8 @@
 - :class:`Profile`, :class:`HeatFlow` - the settings (:mod:`.spec`);
 - thermal states :class:`HalfSpaceState`, :class:`PlateState`, :class:`AxialHotState`,
   :class:`Uncoupled` (:mod:`.thermal`);
-- :func:`exact_profile` - the structured exact path; :func:`invert_profile` - joint MCMC;
+- :func:`exact_profile` - the structured exact path; :func:`invert_profile` - MCMC (collapsed
+  onto the thermal parameters by default, :mod:`.collapsed`; or every layer jointly);
 - :func:`compare_thermal_states` - the evidence of each thermal state for the whole profile.
 """
 

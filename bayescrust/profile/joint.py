@@ -195,18 +195,36 @@ def _ess(ind_chains):
 
 
 def invert_profile(profile: Profile, *, seed=None, rng=None, nwalkers=None, min_ess=1000.0,
-                   max_steps=20000, forward=None, progress=False, burn_steps=300, min_steps=1000):
-    """Joint MCMC of a profile (module docstring); returns a :class:`ProfileResult`.
+                   max_steps=20000, forward=None, progress=False, burn_steps=300, min_steps=1000,
+                   scheme="collapsed", n_layer=2**15, n_designs=8):
+    """MCMC of a profile; returns a :class:`ProfileResult` (``method="mcmc"``).
 
-    ``min_steps`` is the driver's first convergence check; it is long (1000) because a walker
-    that has not moved in one layer's block since the start makes emcee's autocorrelation
-    estimate NaN (a per-walker division by zero), which the driver does not survive.
+    ``scheme="collapsed"`` (default for coupled thermal states with free parameters): emcee over
+    the thermal parameters with the per-layer marginal likelihoods of one weighed design per
+    layer (``n_layer`` points in ``n_designs`` independent blocks), the layers drawn
+    conditionally (:mod:`bayescrust.profile.collapsed`). ``scheme="joint"``: emcee over every
+    layer and the thermal parameters at once with the sampled densities in the overburden
+    (module docstring; slow on deep profiles, the independent check of the collapsed scheme);
+    used for the uncoupled state whatever ``scheme`` says.
+
+    ``min_steps`` (joint scheme) is the driver's first convergence check; it is long (1000)
+    because a walker that has not moved in one layer's block since the start makes emcee's
+    autocorrelation estimate NaN (a per-walker division by zero), which the driver does not
+    survive.
     """
     import pandas as pd
 
     if not isinstance(profile, Profile):
         raise ValueError("invert_profile: profile must be a bayescrust.profile.Profile")
+    if scheme not in ("collapsed", "joint"):
+        raise ValueError(f"invert_profile: scheme must be 'collapsed' or 'joint'; got {scheme!r}")
     gen, seed_value = resolve_rng(seed, rng)
+    if scheme == "collapsed" and profile.thermal.coupled and profile.thermal.ndim > 0:
+        from .collapsed import collapsed_profile
+
+        return collapsed_profile(profile, gen=gen, seed_value=seed_value, nwalkers=nwalkers,
+                                 min_ess=min_ess, max_steps=max_steps, forward=forward,
+                                 progress=progress, n_layer=n_layer, n_designs=n_designs)
     t0 = time.perf_counter()
     jm = JointModel(profile, forward=forward)
     nw = int(nwalkers) if nwalkers is not None else max(64, 2 * jm.ndim + 2)
@@ -256,7 +274,8 @@ def invert_profile(profile: Profile, *, seed=None, rng=None, nwalkers=None, min_
             for k, v in thermal_draws.items()}
     thermal = _thermal_table(list(thermal_draws), thermal_draws, mcse=mcse)
     draws = {"thermal": thermal_draws, "layers": layers, "boundary_km": bkm}
-    diag = {"tau": run.tau.tolist(), "ess": run.ess.tolist(), "converged": run.converged,
+    diag = {"scheme": "joint", "tau": run.tau.tolist(), "ess": run.ess.tolist(),
+            "converged": run.converged,
             "n_steps": run.n_steps, "nwalkers": nw, "acceptance": float(run.acceptance.mean()),
             "coordinates": jm.names, "sampling_time_s": run.wall_time_s}
     return build_result(profile, method="mcmc", hyps=jm.hyps,

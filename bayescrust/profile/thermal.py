@@ -77,6 +77,19 @@ class ThermalState:
         ps = ", ".join(f"{k}={p.describe()}" for k, p in self.params.items())
         return f"{type(self).__name__}({ps}, scatter_c={self.scatter_c:g})"
 
+    #: Readable name of the state, for titles and captions.
+    title = "thermal state"
+
+    def label(self) -> str:
+        """Readable one-line summary for figure titles: the state's name, its free parameters
+        with their prior ranges and units, and the scatter (fixed parameters are left out),
+        e.g. ``half-space cooling: age 0.5-30 Myr, mantle temperature 1350 +- 50 deg C;
+        scatter 50 deg C``. :meth:`describe` is the complete, machine-like form."""
+        parts = [f"{_readable_name(k)} {_readable_prior(self.params[k])}{_unit(k)}"
+                 for k in self.free]
+        return f"{self.title}: {', '.join(parts) or 'all parameters fixed'}; " \
+               f"scatter {self.scatter_c:g} deg C"
+
     def _init(self, names):
         for k in names:
             object.__setattr__(self, k, as_prior(k, getattr(self, k)))
@@ -85,6 +98,34 @@ class ThermalState:
             raise ValueError(f"{type(self).__name__}: scatter_c must be > 0 deg C; "
                              f"got {self.scatter_c!r}")
         object.__setattr__(self, "params", {k: getattr(self, k) for k in names})
+
+
+_UNITS = {"_myr": " Myr", "_c": " deg C", "_km": " km", "_w_mk": " W/m/K"}
+
+
+def _unit(name):
+    return next((u for suf, u in _UNITS.items() if name.endswith(suf)), "")
+
+
+def _readable_name(name):
+    for suf in sorted(_UNITS, key=len, reverse=True):
+        if name.endswith(suf):
+            name = name[: -len(suf)]
+            break
+    return name.replace("_", " ")
+
+
+def _readable_prior(prior):
+    """``lo-hi`` for uniform priors, ``mu +- sigma`` for normal ones, else ``describe()``."""
+    from ..inference.priors import LogUniform, Normal, TruncatedNormal, Uniform
+
+    if isinstance(prior, (Uniform, LogUniform)):
+        sep = " to " if prior.lo < 0 else "-"
+        return f"{prior.lo:g}{sep}{prior.hi:g}" + (" (log-uniform)" if isinstance(
+            prior, LogUniform) else "")
+    if isinstance(prior, (Normal, TruncatedNormal)):
+        return f"{prior.mu:g} +- {prior.sigma:g}"
+    return prior.describe()
 
 
 def _lower_bound(name, prior, lo):
@@ -100,6 +141,8 @@ class HalfSpaceState(ThermalState):
     eq. 4-124; the form behind Parsons & Sclater 1977's :math:`q \\propto t^{-1/2}`).
     ``conductivity_w_mk`` is the lithosphere's, default GDH1's 3.138 W/m/K (Stein & Stein 1992).
     """
+
+    title = "half-space cooling"
 
     age_myr: object = field(default_factory=lambda: Uniform(0.5, 30.0))
     mantle_temperature_c: object = field(
@@ -138,6 +181,8 @@ class PlateState(ThermalState):
     :math:`\\kappa t / a^2 = 0.05` the series equals the half-space value to < 1e-8 relative
     (theta-function identity), which is used there.
     """
+
+    title = "cooling plate"
 
     age_myr: object = field(default_factory=lambda: Uniform(0.5, 30.0))
     mantle_temperature_c: object = field(
@@ -188,6 +233,8 @@ class AxialHotState(ThermalState):
     `common practice`); ``k_crust`` defaults to gabbro's (Clauser & Huenges 1995). Lens depths
     1-4 km below the seafloor (Detrick et al. 1987; Purdy et al. 1992).
     """
+
+    title = "near-axis hot zone"
 
     lens_depth_km: object = field(default_factory=lambda: Uniform(*_LENS))
     mush_offset_c: object = field(default_factory=lambda: Uniform(-200.0, 0.0))
@@ -245,6 +292,9 @@ class Uncoupled(ThermalState):
 
     def describe(self) -> str:
         return f"Uncoupled(T uniform {self.lo:g}-{self.hi:g} deg C per layer)"
+
+    def label(self) -> str:
+        return f"uncoupled: each layer's temperature uniform {self.lo:g}-{self.hi:g} deg C"
 
 
 #: Names accepted in study files.

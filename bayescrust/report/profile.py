@@ -11,7 +11,28 @@ import numpy as np
 from .style import PALETTE
 
 __all__ = ["hypothesis_table", "boundary_table", "thermal_table", "evidence_table",
-           "profile_figure"]
+           "profile_figure", "interpretation_styles"]
+
+_HATCHES = ("", "//", "..", "xx", "\\\\", "oo")
+
+
+def interpretation_styles(n):
+    """``n`` distinct (colour, hatch) pairs for stacked interpretation bars.
+
+    Up to 8: the package's Okabe-Ito palette (colour-blind safe). Up to 20: matplotlib's
+    ``tab20`` colours (10 hues, dark and light). Beyond: the ``tab20`` colours again with a
+    hatch pattern per cycle, so no two interpretations share both colour and hatch.
+    """
+    if n <= len(PALETTE):
+        return [(c, "") for c in PALETTE[:n]]
+    from matplotlib import colormaps
+    from matplotlib.colors import to_hex
+
+    tab = [to_hex(c) for c in colormaps["tab20"].colors]
+    if n > len(tab) * len(_HATCHES):
+        raise ValueError(f"at most {len(tab) * len(_HATCHES)} interpretations can be drawn; "
+                         f"got {n}")
+    return [(tab[j % len(tab)], _HATCHES[j // len(tab)]) for j in range(n)]
 
 
 def hypothesis_table(result):
@@ -62,7 +83,7 @@ def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=
     from matplotlib.figure import Figure
 
     prof = result.profile
-    fig = fig or Figure(figsize=(16, 5.5))  # not pyplot: nothing left in its global state
+    fig = fig or Figure(figsize=(16, 6.5))  # not pyplot: nothing left in its global state
     axes = fig.subplots(1, 5, sharey=True)
     mids = prof.mid_depths_km
     tops, bots = prof.tops_km, prof.bottoms_km
@@ -125,16 +146,24 @@ def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=
     ax = axes[3]
     h = result.hypotheses[result.hypotheses["hypothesis"] != "mantle rock"]
     names = list(dict.fromkeys(h["hypothesis"]))
+    styles = interpretation_styles(len(names))
     for i, layer in enumerate(prof.names):
         left = 0.0
         sub = h[h["layer"] == layer].set_index("hypothesis")["probability"]
         for j, name in enumerate(names):
             w = float(sub.get(name, 0.0))
-            ax.barh(mids[i], w, left=left, height=0.9 * (bots[i] - tops[i]),
-                    color=PALETTE[j % len(PALETTE)], label=name if i == 0 else None)
+            colour, hatch = styles[j]
+            ax.barh(mids[i], w, left=left, height=0.9 * (bots[i] - tops[i]), color=colour,
+                    hatch=hatch or None, edgecolor="white" if hatch else None, linewidth=0,
+                    label=name if i == 0 else None)
             left += w
     ax.set_xlabel("probability (hypotheses may overlap)")
-    ax.legend(fontsize=7, loc="lower right")
+    ax.set_xlim(0.0, 1.0)
+    # below the panels, outside every axes, so it never covers the bars
+    fig.legend(*ax.get_legend_handles_labels(), loc="lower center", fontsize=7.5,
+               ncol=min(len(names), 6), frameon=False, title="interpretations (panel 4)",
+               title_fontsize=8)
+    n_rows = -(-len(names) // 6)
     # 5. boundary depth
     ax = axes[4]
     b = result.boundary
@@ -146,5 +175,9 @@ def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=
         for z in tops:
             a.axhline(z, color="0.85", lw=0.5, zorder=0)
     axes[0].set_ylim(bots[-1], 0.0)
-    fig.suptitle(f"{prof.name}: {prof.thermal.describe()} ({result.method})", fontsize=9)
+    method = {"exact": "exact path", "mcmc": "MCMC"}.get(result.method, result.method)
+    fig.suptitle(f"{prof.name}\n{prof.thermal.label()} ({method})", fontsize=9.5)
+    # room for the interpretation legend below the panels (about 0.2 in per row of entries)
+    fig.subplots_adjust(left=0.05, right=0.99, top=0.88,
+                        bottom=min(0.45, (0.75 + 0.2 * n_rows) / fig.get_figheight()))
     return fig

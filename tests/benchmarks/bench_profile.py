@@ -11,10 +11,21 @@ densities; a heat-flow lower bound). Prints, from one run:
   probabilities side by side with their Monte Carlo errors (difference in units of the combined
   error).
 
-Measured once (seed 1, 2-core machine shared with other jobs): exact path 3.9-5.0 s; joint MCMC
-1152 s for the 20000-step cap (not converged by the driver's rule; ESS thermal 3838 / 14776,
-min ESS of all 30 coordinates 3011): far above the 60 s target. Agreement: thermal means within
-1.3 combined standard errors, boundary outcomes within 3.0.
+Measured (seed 1, 2-core machine shared with other jobs, load ~5.5; one run each):
+
+- exact path: 8.4 s in the same run as the collapsed MCMC below (3.9-5.0 s on a quieter
+  machine earlier).
+- joint MCMC, default ``scheme="collapsed"`` (emcee over age and mantle temperature, 2^15
+  design points per layer in 8 scrambles): 24.0 s in total (design 6.3 s, sampling 10.3 s,
+  1055 steps x 32 walkers, converged by the driver's rule); ESS of the thermal parameters 5583
+  (age) and 8416 (mantle temperature); tabulation error 9e-8 in log-likelihood; design sd of
+  the total log-likelihood median 0.096, max 0.135; smallest conditional layer ESS 131.
+  Agreement with the exact path: thermal means within 0.56 combined standard errors, boundary
+  outcomes within 0.17, per-layer hypotheses within 1.75 (largest difference 0.011).
+- before (``--scheme joint``, every layer sampled): 1152 s for the 20000-step cap, not
+  converged (ESS thermal 3838 / 14776). With 2^13 points in 4 scrambles the collapsed scheme
+  took 19-32 s but its answers sat up to 5 reported errors from the exact path's (the design
+  error was understated), hence the larger default.
 
 Run: ``python tests/benchmarks/bench_profile.py [--seed N]``. The machine may be shared:
 compare times measured in one run.
@@ -50,6 +61,8 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--max-steps", type=int, default=20000)
+    ap.add_argument("--scheme", choices=("collapsed", "joint"), default="collapsed",
+                    help="joint MCMC scheme (joint: every layer sampled, slow)")
     args = ap.parse_args(argv)
     prof = benchmark_profile()
     exact_profile(prof, n_layer=2**9, n_thermal=16, n_replicates=2, seed=0)  # warm-up
@@ -61,14 +74,23 @@ def main(argv=None) -> int:
     t0 = time.perf_counter()
     with warnings.catch_warnings(record=True) as rec:
         warnings.simplefilter("always")
-        mc = invert_profile(prof, seed=args.seed, max_steps=args.max_steps)
+        mc = invert_profile(prof, seed=args.seed, max_steps=args.max_steps,
+                            scheme=args.scheme)
     t_mcmc = time.perf_counter() - t0
     d = mc.diagnostics
     k = len(prof.thermal.free)
-    print(f"joint MCMC: {t_mcmc:.1f} s (target < 60 s); steps {d['n_steps']}, walkers "
-          f"{d['nwalkers']}, acceptance {d['acceptance']:.2f}, converged {d['converged']}; "
-          f"ESS thermal {[round(e) for e in d['ess'][:k]]}, min ESS all {min(d['ess']):.0f}; "
-          f"{len(rec)} warnings")
+    print(f"joint MCMC ({d['scheme']}): {t_mcmc:.1f} s (target < 60 s); steps {d['n_steps']}, "
+          f"walkers {d['nwalkers']}, acceptance {d['acceptance']:.2f}, converged "
+          f"{d['converged']}; ESS thermal {[round(e) for e in d['ess'][:k]]}, min ESS all "
+          f"{min(d['ess']):.0f}; {len(rec)} warnings")
+    if d["scheme"] == "collapsed":
+        print(f"  design {d['design_time_s']:.1f} s ({d['n_layer']} points per layer in "
+              f"{d['n_designs']} blocks), sampling {d['sampling_time_s']:.1f} s; "
+              f"interpolation error max {d['interpolation_error_max']:.1e}; design log-L sd "
+              f"median {d['log_likelihood_design_sd']['median']:.3f}, max "
+              f"{d['log_likelihood_design_sd']['max']:.3f}; min layer ESS "
+              f"{[round(e) for e in d['layer_ess_min']]}; pressure bound "
+              f"{float(np.sum(mc.pressure_bound['delta_log_likelihood'])):.4f}")
     print("\nthermal parameter      exact (+-se)          mcmc (+-se)         diff/se")
     for (_, a), (_, b) in zip(ex.thermal.iterrows(), mc.thermal.iterrows(), strict=True):
         se = math.hypot(a["mcse"], b["mcse"])

@@ -123,8 +123,22 @@ def test_exact_path_agrees_with_brute_force(reference):
 
 
 def test_joint_mcmc_agrees_with_brute_force(reference):
+    # the default (collapsed) scheme: emcee over the age, layers drawn conditionally
     prof = _profile()
     r = invert_profile(prof, seed=5, min_ess=1500)
+    assert r.diagnostics["scheme"] == "collapsed"
+    _check_mcmc(r, reference)
+
+
+@pytest.mark.slow
+def test_full_joint_mcmc_agrees_with_brute_force(reference):
+    # every layer sampled with the sampled densities in the overburden (about a minute)
+    r = invert_profile(_profile(), seed=5, min_ess=1500, scheme="joint")
+    assert r.diagnostics["scheme"] == "joint"
+    _check_mcmc(r, reference)
+
+
+def _check_mcmc(r, reference):
     row = r.thermal.set_index("parameter").loc["age_myr"]
     assert abs(row["mean"] - reference["age_mean"]) < 4 * row["mcse"]
     t = r.hypotheses
