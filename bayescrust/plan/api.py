@@ -126,7 +126,7 @@ def preposterior(ensemble, candidates, *, seed=None, rank_by="information_gain_b
     if rank_by not in RANK_KEYS:
         raise ValueError(f"rank_by must be one of {list(RANK_KEYS)}; got {rank_by!r}")
     s = Settings(**settings)
-    cands = as_candidates(candidates, profile=False)
+    cands = as_candidates(candidates, profile="heat_flow" in ensemble.quantities)
     rng, _ = resolve_rng(seed)
     streams = rng.spawn(len(cands))
     t0 = time.perf_counter()

@@ -171,11 +171,11 @@ class _Kernel:
             self._ch = np.ascontiguousarray(np.concatenate([self.onehot, self.hyp], axis=1))
         return self._ch
 
-    def block_log_weights(self, y, loc, scale, ens):
+    def block_log_weights(self, y, loc, scale, law):
         """Today's log-weights plus the new datum's log-likelihood, (len(y), n), in place."""
-        if ens.likelihood != "gaussian" or np.any(np.isinf(scale)):
+        if law["likelihood"] != "gaussian" or np.any(np.isinf(scale)):
             return self.lw0 + datum_log_likelihood(y[:, None], loc[None, :], scale[None, :],
-                                                   likelihood=ens.likelihood, nu=ens.nu)
+                                                   **law)
         if getattr(self, "_base_for", None) is not scale:
             with np.errstate(divide="ignore"):
                 self._base = self.lw0 - np.log(scale) - 0.5 * math.log(2 * math.pi)
@@ -189,10 +189,28 @@ class _Kernel:
         return z
 
 
+def _law(ens, cand, q):
+    """The candidate's likelihood law (keywords of :func:`.likelihood.datum_log_likelihood`):
+    the layer's own law for layer observables, the profile's heat-flow law for heat flow."""
+    if cand.observable != "heat_flow":
+        return {"likelihood": ens.likelihood, "nu": ens.nu}
+    if cand.mode != "lower_bound":
+        return {"likelihood": "gaussian"}
+    d = cand.max_deficit
+    if d is None:
+        d = float(np.max(np.asarray(q["heat_flow"], float)))
+    return {"likelihood": "lower_bound", "deficit": max(d, 1e-9)}
+
+
 def _loc_scale(ens, cand, q):
     obs = cand.observable
     if obs not in q:
         raise ValueError(f"candidate {cand.label!r}: the ensemble has no prediction of {obs!r}")
+    if cand.mode == "off":  # a heat flow kept for the record: no information
+        return np.asarray(q[obs], float), np.full(np.shape(q[obs]), np.inf)
+    if obs == "heat_flow":  # the profile's heat-flow law has no forward-model error
+        me = cand.model_error or 0.0
+        return datum_location_scale(q[obs], sigma=cand.sigma, model_error=me)
     me = cand.model_error if cand.model_error is not None else ens.model_error.get(obs, 0.0)
     existing = ens.existing.get(obs)
     if existing is not None:  # the forward-model error is shared with the existing datum
@@ -223,9 +241,8 @@ def update(ensemble, candidate, values):
     ens = ensemble
     y = np.atleast_1d(np.asarray(values, float))
     loc, scale = _loc_scale(ens, candidate, ens.quantities)
-    lw = ens.log_weights[None, :] + datum_log_likelihood(y[:, None], loc[None, :],
-                                                         scale[None, :], likelihood=ens.likelihood,
-                                                         nu=ens.nu)
+    lw = ens.log_weights[None, :] + datum_log_likelihood(
+        y[:, None], loc[None, :], scale[None, :], **_law(ens, candidate, ens.quantities))
     m = np.max(lw, axis=1, keepdims=True)
     w = np.exp(lw - m)
     sw = w.sum(axis=1)
@@ -257,7 +274,8 @@ def _rerun(ens, cand, y, rng, s: Settings, cache):
             cache["design"] = (u, q, weigh_design(model, q)[0])
     u, q, ll = cache["design"]
     loc, scale = _loc_scale(ens, cand, q)
-    lw1 = ll + datum_log_likelihood(y, loc, scale, likelihood=ens.likelihood, nu=ens.nu)
+    law = _law(ens, cand, ens.quantities)
+    lw1 = ll + datum_log_likelihood(y, loc, scale, **law)
     w1 = np.exp(lw1 - np.max(lw1))
     centres = u[rng.choice(len(w1), size=min(256, len(w1)), p=w1 / w1.sum())]
     if np.unique(centres, axis=0).shape[0] < centres.shape[1] + 1:
@@ -266,8 +284,7 @@ def _rerun(ens, cand, y, rng, s: Settings, cache):
     _, q2, log_q, inside = adaptive_design(model, rng, centres, s.rerun_points)
     ll2, _ = weigh_design(model, q2)
     loc2, scale2 = _loc_scale(ens, cand, q2)
-    lw2 = (ll2 + datum_log_likelihood(y, loc2, scale2, likelihood=ens.likelihood, nu=ens.nu)
-           - log_q[inside])
+    lw2 = ll2 + datum_log_likelihood(y, loc2, scale2, **law) - log_q[inside]
     ind = indicators(ens.boxes, q2)
     classes = assign_classes(ind, ens.class_names)
     lw2 = np.where(classes >= 0, lw2, -np.inf)
@@ -322,22 +339,23 @@ def evaluate(ensemble, candidate, rng, settings: Settings | None = None) -> dict
     now = current_state(ens, s)
     prior = np.asarray(ens.prior_probabilities, float)
     loc, scale = _loc_scale(ens, candidate, ens.quantities)
+    law = _law(ens, candidate, ens.quantities)
     loc, scale = np.broadcast_to(loc, (ens.n,))[kern.keep], np.broadcast_to(scale,
                                                                           (ens.n,))[kern.keep]
     w0 = np.exp(kern.lw0 - np.max(kern.lw0))
     m = s.n_simulations
     truth = rng.choice(w0.shape[0], size=m, p=w0 / w0.sum())
-    y = simulate_datum(rng, loc[truth], scale[truth], likelihood=ens.likelihood, nu=ens.nu)
+    y = simulate_datum(rng, loc[truth], scale[truth], **law)
     true_cls = kern.classes[truth]
     p_all = np.empty((m, len(ens.class_names)))
     h_all = np.empty((m, kern.hyp.shape[1]))
     ess_all, width_all = np.empty(m), np.empty(m)
     for a in range(0, m, s.block):  # blocks of simulated data bound the memory (block x n)
         b = slice(a, min(a + s.block, m))
-        lw = kern.block_log_weights(y[b], loc, scale, ens)
+        lw = kern.block_log_weights(y[b], loc, scale, law)
         p_all[b], h_all[b], ess_all[b], width_all[b] = kern.summarise(lw, s)
     deg = ess_all < s.min_ess
-    if np.isinf(candidate.sigma):
+    if not candidate.informative:
         deg[:] = False  # nothing is updated: today's ensemble, exactly
     n_deg = int(deg.sum())
     rr_idx = np.zeros(0, int)
@@ -368,7 +386,7 @@ def evaluate(ensemble, candidate, rng, settings: Settings | None = None) -> dict
     # the chance of a decisive answer is a proportion: its error is floored by the Agresti &
     # Coull (1998, Am. Stat. 52, 119) adjusted proportion, so 0 of m (or m of m) is not +- 0
     pt = (m * mean[2] + 2.0) / (m + 4.0)
-    se[2] = max(se[2], math.sqrt(pt * (1.0 - pt) / m)) if not np.isinf(candidate.sigma) else 0.0
+    se[2] = max(se[2], math.sqrt(pt * (1.0 - pt) / m)) if candidate.informative else 0.0
     cal_mean, cal_se = _stratified(hx, deg, rr_idx, hx_rr)
     still = int(np.sum(rr[2] < s.min_ess)) if rr is not None else n_deg
     return {
