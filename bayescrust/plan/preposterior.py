@@ -120,6 +120,9 @@ def _interval_width(w, t_sorted, starts, mass):
     return ends[1] - ends[0]
 
 
+_LOG_TINY = math.log(1e-150)
+
+
 class _Kernel:
     """Fixed arrays of one ensemble for the batched updates, sorted by the interval quantity.
 
@@ -157,13 +160,39 @@ class _Kernel:
         (``lw`` is overwritten by the weights)."""
         m = np.max(lw, axis=1, keepdims=True)
         lw -= np.where(np.isfinite(m), m, 0.0)
+        # weights below 1e-150 of the largest are set to zero: they change no sum, and their
+        # squares and products would be subnormal numbers (slow arithmetic on most CPUs)
+        np.putmask(lw, lw < _LOG_TINY, -np.inf)
         w = np.exp(lw, out=lw)
         sw = w.sum(axis=1)
         k = self.onehot.shape[1]
-        ph = (w @ self.class_and_hyp) / sw[:, None]
+        ph = self._class_and_hyp_sums(w) / sw[:, None]
         ess = sw**2 / np.einsum("ij,ij->i", w, w)
         width = _interval_width(w, self.t_sorted, self.starts, s.interval)
         return ph[:, :k], ph[:, k:], ess, width
+
+    def _class_and_hyp_sums(self, w):
+        """``w @ [onehot, hyp]`` (b, K + H). When every hypothesis indicator is constant within
+        each class (true by construction: the classes are the hypotheses' membership patterns),
+        the class sums come from one gather and ``np.add.reduceat`` and the hypothesis sums
+        from them; this avoids a threaded matrix product whose speed collapses on a loaded
+        machine. Otherwise the matrix product."""
+        if getattr(self, "_by_class", None) is None:
+            cls = np.argmax(self.onehot, axis=1) if self.onehot.size else np.zeros(0, int)
+            perm = np.argsort(cls, kind="stable")
+            cs = cls[perm]
+            starts = np.flatnonzero(np.r_[True, cs[1:] != cs[:-1]]) if cs.size else cs
+            a = np.zeros((self.onehot.shape[1], self.hyp.shape[1]))
+            a[cs[starts]] = self.hyp[perm][starts]
+            ok = cs.size > 0 and bool(np.all(self.hyp[perm] == a[cs]))
+            self._by_class = (perm, starts, cs[starts], a) if ok else False
+        if self._by_class is False:
+            return w @ self.class_and_hyp
+        perm, starts, present, a = self._by_class
+        sums = np.add.reduceat(np.take(w, perm, axis=1), starts, axis=1)
+        out = np.zeros((w.shape[0], a.shape[0]))
+        out[:, present] = sums
+        return np.concatenate([out, out @ a], axis=1)
 
     @property
     def class_and_hyp(self):
@@ -174,8 +203,15 @@ class _Kernel:
     def block_log_weights(self, y, loc, scale, law):
         """Today's log-weights plus the new datum's log-likelihood, (len(y), n), in place."""
         if law["likelihood"] != "gaussian" or np.any(np.isinf(scale)):
-            return self.lw0 + datum_log_likelihood(y[:, None], loc[None, :], scale[None, :],
-                                                   **law)
+            # the states share few distinct (loc, scale) pairs when the datum depends on part of
+            # the state only (heat flow: on the thermal point): evaluate each pair once
+            if getattr(self, "_pairs_for", None) is not loc:
+                pairs, self._inv_pairs = np.unique(np.stack([loc, scale]), axis=1,
+                                                   return_inverse=True)
+                self._pairs, self._pairs_for = pairs, loc
+            pl, ps = self._pairs
+            ll = datum_log_likelihood(y[:, None], pl[None, :], ps[None, :], **law)
+            return self.lw0 + ll[:, self._inv_pairs.ravel()]
         if getattr(self, "_base_for", None) is not scale:
             with np.errstate(divide="ignore"):
                 self._base = self.lw0 - np.log(scale) - 0.5 * math.log(2 * math.pi)
