@@ -264,15 +264,17 @@ def _loc_scale(ens, cand, q):
                                 partner=partner)
 
 
-def update(ensemble, candidate, values):
+def update(ensemble, candidate, values, *, means=()):
     """Today's ensemble updated by the candidate datum at each of ``values``.
+
+    ``means`` names quantities of the ensemble whose updated means are wanted as well.
 
     Returns
     -------
     dict
         ``class_probabilities`` (m, K), ``hypothesis_probabilities`` (m, H) with their
         delta-method standard errors ``hypothesis_mcse`` (self-normalised importance sampling),
-        ``importance_ess`` (m,).
+        ``importance_ess`` (m,); with ``means``: ``means`` and ``means_mcse`` ``{name: (m,)}``.
     """
     ens = ensemble
     y = np.atleast_1d(np.asarray(values, float))
@@ -288,8 +290,17 @@ def update(ensemble, candidate, values):
     h = (w @ hyp) / sw[:, None]
     w2 = w * w
     se = np.sqrt(np.einsum("mn,mnh->mh", w2, (hyp[None] - h[:, None, :]) ** 2)) / sw[:, None]
-    return {"class_probabilities": p, "hypothesis_probabilities": h, "hypothesis_mcse": se,
-            "importance_ess": sw**2 / w2.sum(axis=1)}
+    out = {"class_probabilities": p, "hypothesis_probabilities": h, "hypothesis_mcse": se,
+           "importance_ess": sw**2 / w2.sum(axis=1)}
+    if means:
+        out["means"], out["means_mcse"] = {}, {}
+        for name in means:
+            x = np.broadcast_to(np.asarray(ens.quantities[name], float), (ens.n,))
+            mu = (w @ x) / sw
+            out["means"][name] = mu
+            out["means_mcse"][name] = np.sqrt(np.einsum("mn,mn->m", w2, (x[None] - mu[:, None])
+                                                        ** 2)) / sw
+    return out
 
 
 # --------------------------------------------------------------------------------- fallback

@@ -171,12 +171,13 @@ def profile_ensemble(profile, design, states, question, group=None) -> Ensemble:
     from .ensemble import _model_errors
 
     kind, ind, names, pc, interval, _, _ = _questions_cache(profile, design, states)[question]
-    q = {"heat_flow": states["heat_flow"], _INTERVAL: interval}
+    q = {"heat_flow": states["heat_flow"], **states["thermal"], _INTERVAL: interval}
     existing, me, lik, nu = {}, {}, "gaussian", 4.0
     if group is not None:
         i = profile.names.index(group)
         model = design["models"][i]
         q.update(states["layers"][i])
+        q.update(states["thermal"])
         q[_INTERVAL] = interval
         existing = dict(profile.layers[i].observed)
         me = _model_errors(model, profile.model_error)
@@ -388,6 +389,13 @@ def plan_profile(profile, *, candidates=None, seed=None, rank_question=BOUNDARY_
     if not 1 <= int(states_per_thermal) <= 4096:
         raise ValueError(f"states_per_thermal must be in [1, 4096]; got {states_per_thermal!r}")
     s = Settings(**settings)
+    names = (list(profile.names) + [BOUNDARY_QUESTION]
+             + [f"thermal: {k}" for k in (profile.thermal.free if profile.thermal.coupled
+                                          else ())])
+    if rank_question not in names:
+        raise ValueError(f"rank_question must be one of {names}; got {rank_question!r}")
+    if candidates is not None:
+        candidates = _check_candidates(profile, as_candidates(candidates, profile=True))
     t0 = time.perf_counter()
     rng, seed_val = resolve_rng(seed)
     r_design, r_states, r_plan = rng.spawn(3)
@@ -397,9 +405,6 @@ def plan_profile(profile, *, candidates=None, seed=None, rank_question=BOUNDARY_
     states = profile_states(profile, design, r_states, states_per_thermal)
     qs = _questions_cache(profile, design, states)
     questions = {q: v[0] for q, v in qs.items()}
-    if rank_question not in questions:
-        raise ValueError(f"rank_question must be one of {list(questions)}; got "
-                         f"{rank_question!r}")
     if candidates is None:
         ent = {name: current_state(profile_ensemble(profile, design, states, name), s)[
             "entropy_bits"] for name in profile.names}
