@@ -207,6 +207,10 @@ def plan_layer(layer, *, candidates=None, result=None, rocks=("gabbro", "harzbur
     from ..inference.api import _setup, resolve_rng
 
     cands = as_candidates(candidates, layer)
+    other = sorted({c.layer for c in cands if c.layer not in (None, layer.name)})
+    if other:
+        raise ValueError(f"candidates name other layers {other}; this plan is for layer "
+                         f"{layer.name!r} (use plan_profile for a profile)")
     rng, seed_val = resolve_rng(seed)
     r_design, r_plan = rng.spawn(2)
     model, hyps = _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forward)
