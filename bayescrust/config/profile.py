@@ -197,8 +197,8 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
         from .plan import read_plan
 
         plan = read_plan(r, "plan", data["plan"])
-        names = set(profile.names)
-        for i, c in enumerate(plan.candidates or ()):
-            if c.observable != "heat_flow" and c.layer is not None and c.layer not in names:
-                r.got(f"plan.candidates[{i}].layer", c.layer, f"one of {sorted(names)}")
+        names = list(profile.names)
+        for i, c in enumerate(data["plan"].get("candidates") or ()):
+            if isinstance(c, dict) and c.get("layer", names[0]) not in names:
+                r.got(f"plan.candidates[{i}].layer", c["layer"], f"one of {names}")
     return ProfileStudy(profile=profile, compare=compare, seed=seed, source=source, plan=plan)
