@@ -136,7 +136,7 @@ class _Kernel:
         lw = np.asarray(ens.log_weights, float)
         keep = np.flatnonzero(lw >= np.max(lw) + math.log(1e-12))
         q = {k: np.broadcast_to(np.asarray(v), (ens.n,))[keep]
-             for k, v in ens.quantities.items() if np.ndim(v) <= 1}
+             for k, v in ens.quantities.items() if k == s.quantity and np.ndim(v) <= 1}
         hyp = {h: np.asarray(v)[keep] for h, v in ens.hypotheses.items()}
         self.setup(ens.classes[keep], hyp, q, len(ens.class_names), s)
         self.keep = keep[self.order]
