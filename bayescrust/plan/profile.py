@@ -384,6 +384,8 @@ def plan_profile(profile, *, candidates=None, seed=None, rank_question=BOUNDARY_
 
     if not isinstance(profile, Profile):
         raise ValueError("plan_profile: profile must be a bayescrust.profile.Profile")
+    if rank_by is not None and rank_by not in RANK_KEYS:
+        raise ValueError(f"rank_by must be one of {list(RANK_KEYS)}; got {rank_by!r}")
     if "quantity" in settings:
         raise ValueError("plan_profile: 'quantity' is set per question; do not pass it")
     if not 1 <= int(states_per_thermal) <= 4096:
@@ -422,8 +424,6 @@ def plan_profile(profile, *, candidates=None, seed=None, rank_question=BOUNDARY_
     for q, (kind, *_, label, unit) in qs.items():
         key = rank_by or ("interval_narrowing" if kind == "thermal" else
                           "information_gain_bits")
-        if key not in RANK_KEYS:
-            raise ValueError(f"rank_by must be one of {list(RANK_KEYS)}; got {key!r}")
         parts = []
         for g, cs in groups.items():
             ens = profile_ensemble(profile, design, states, q, g)
