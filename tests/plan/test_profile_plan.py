@@ -249,3 +249,39 @@ def test_bad_profile_candidates_are_refused():
         Candidate("heat_flow", 5.0, layer="L1")
     with pytest.raises(ValueError, match="rank_question"):
         plan_profile(prof, candidates=[("heat_flow", 5.0)], rank_question="L7", **_SMALL)
+
+
+def test_prior_class_probabilities_closed_form():
+    """Two rocks with the default Dirichlet(1, 1) fractions: the ultramafic fraction is uniform on
+    [0, 1] (closed form), so each layer is mantle with prior probability 1/2 whatever the thermal
+    state, and the first mantle layer of two is L1 / L2 / none with 1/2, 1/4, 1/4; a layer is
+    "mostly" gabbro or mantle with 1 - MOSTLY each and mixed with 2 MOSTLY - 1."""
+    from bayescrust.inference.hypotheses import MOSTLY
+    from bayescrust.plan.profile import _questions
+
+    prof = _two_layer()
+    design = exact_design(prof, n_replicates=2, seed=0, **_SMALL)
+    states = profile_states(prof, design, np.random.default_rng(1), 16)
+    q = _questions(prof, design, states)
+    np.testing.assert_allclose(q[BOUNDARY_QUESTION][3], [0.5, 0.25, 0.25], atol=0.01)
+    names, prior = q["L1"][2], q["L1"][3]
+    gabbro = sum(p for n, p in zip(names, prior, strict=True) if "gabbro" in n)
+    mantle = sum(p for n, p in zip(names, prior, strict=True) if "mantle" in n)
+    assert gabbro == pytest.approx(1 - MOSTLY, abs=0.01)
+    assert mantle == pytest.approx(1 - MOSTLY, abs=0.01)
+    assert prior[list(names).index("mixed / transition")] == pytest.approx(2 * MOSTLY - 1,
+                                                                            abs=0.01)
+
+
+def test_today_from_joint_states_agrees_with_exact_profile():
+    """Today's boundary probabilities from the stratified joint states against exact_profile
+    (independent designs), |z| < 4 with both errors."""
+    prof = _two_layer()
+    ens = _ensemble(prof, BOUNDARY_QUESTION, None, seed=5)
+    u = update(ens, Candidate("heat_flow", math.inf), [0.0])
+    res = exact_profile(prof, seed=9, n_replicates=4, **_SMALL)
+    b = res.boundary
+    for k, name in enumerate(ens.hypotheses):
+        row = b[b["outcome"] == name].iloc[0]
+        assert _z(u["hypothesis_probabilities"][0, k], u["hypothesis_mcse"][0, k],
+                  row["probability"], row["mcse"]) < 4.0, name
