@@ -285,3 +285,28 @@ def test_today_from_joint_states_agrees_with_exact_profile():
         row = b[b["outcome"] == name].iloc[0]
         assert _z(u["hypothesis_probabilities"][0, k], u["hypothesis_mcse"][0, k],
                   row["probability"], row["mcse"]) < 4.0, name
+
+
+@pytest.mark.slow
+def test_law_of_total_probability_many_seeds():
+    """Slow version: 2000 simulated data per candidate and five seeds; over every checkable
+    (seed, candidate, question, outcome) the |z| of the law-of-total-probability check follow
+    the standard normal: fewer than 2 % beyond 3 (expected 0.27 %) and none beyond 5."""
+    zs = []
+    for seed in range(5):
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", DegeneracyWarning)
+            pp = plan_profile(_two_layer(), seed=100 + seed, n_simulations=2000, **_SMALL,
+                              candidates=[("heat_flow", 10.0),
+                                          Candidate("heat_flow", 10.0, mode="lower_bound"),
+                                          Candidate("vs", 0.1, layer="L1"),
+                                          Candidate("density", 0.05, layer="L2")])
+        for q, plan in pp.plans.items():
+            if pp.questions[q] == "thermal":
+                continue
+            cal = plan.calibration
+            ok = np.minimum(cal["today"], 1 - cal["today"]) * 2000 >= 10
+            zs += list((np.abs(cal["average_updated"] - cal["today"]) / cal["mcse"])[ok])
+    zs = np.asarray(zs)
+    assert zs.size > 50
+    assert np.mean(zs > 3) < 0.02 and zs.max() < 5, np.sort(zs)[-5:]
