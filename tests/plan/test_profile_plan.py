@@ -249,6 +249,12 @@ def test_bad_profile_candidates_are_refused():
         Candidate("heat_flow", 5.0, layer="L1")
     with pytest.raises(ValueError, match="rank_question"):
         plan_profile(prof, candidates=[("heat_flow", 5.0)], rank_question="L7", **_SMALL)
+    from bayescrust.plan import plan_layer
+
+    with pytest.raises(ValueError, match="name other layers"):
+        plan_layer(prof.layers[0], candidates=[Candidate("vs", 0.1, layer="L2")])
+    with pytest.raises(ValueError, match="plan it on a profile"):
+        plan_layer(prof.layers[0], candidates=[("heat_flow", 5.0)])
 
 
 def test_prior_class_probabilities_closed_form():
