@@ -71,7 +71,7 @@ __all__ += [
 # --- end inference exports ---
 
 # --- plan exports ---
-from .plan import Candidate, PlanResult, plan_layer  # noqa: E402
+from .plan import Candidate, PlanResult, plan_layer, plan_profile  # noqa: E402
 
-__all__ += ["Candidate", "PlanResult", "plan_layer"]
+__all__ += ["Candidate", "PlanResult", "plan_layer", "plan_profile"]
 # --- end plan exports ---

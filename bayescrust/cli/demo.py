@@ -106,6 +106,9 @@ def cmd_demo(args) -> int:
         plan_s = demo_plan(args, study, tmp / "plan")
         say(args, "demo: whole profile of line TL-12 (structured exact path)")
         profile_s = demo_profile(args, tmp / "study" / "tallowmere_profile.toml", tmp / "profile")
+        say(args, "demo: which new datum would settle the TL-12 profile's questions (plan)")
+        profile_plan_s = demo_profile_plan(args, tmp / "study" / "tallowmere_profile.toml",
+                                           tmp / "profile_plan")
         say(args, "demo: probability map of an invented section across the ridge (fast path)")
         (tmp / "map").mkdir()
         t_grid = demo_grid(args, tmp / "map", tmp / "study")
@@ -136,6 +139,12 @@ def cmd_demo(args) -> int:
             "boundary, crustal thickness and which thermal state (half-space, axial, "
             f"uncoupled) the profile favours (structured exact path, {profile_s:.1f} s); start "
             "with `profile/report.md`",
+            "- `profile_plan/`: which new datum (heat flow, Vs or density in the lower gabbro) "
+            "would best settle the TL-12 profile's questions: each layer, the crust-mantle "
+            "boundary, the crustal age and mantle temperature (preposterior simulation on the "
+            "structured exact path's design, reduced for the demo, importance reweighting; "
+            f"{_DEMO_PROFILE_PLAN['n_simulations']} simulated data per candidate; "
+            f"{profile_plan_s:.1f} s); start with `profile_plan/report.md`",
             "- `map/`: probability maps of an invented 2-D section across the ridge "
             "(`study/tallowmere_section.nc`, written by the package), by the per-level fast "
             f"path (one prior design per depth level, tabulated over Vp; {t_grid:.1f} s)", "",
@@ -147,11 +156,31 @@ def cmd_demo(args) -> int:
             "--out my_chart",
             "    bayescrust plan study/tallowmere_ridge.toml --out my_plan",
             "    bayescrust profile study/tallowmere_profile.toml --out my_profile",
+            "    bayescrust plan study/tallowmere_profile.toml --out my_profile_plan",
             "    bayescrust map study/tallowmere_section.toml --out my_map", "",
             f"Run time of this demo: {elapsed:.1f} s.", ""]))
     say(args, f"demo: done in {time.perf_counter() - t0:.1f} s; start with {out}/README.md")
     print(out)
     return 0
+
+
+#: Reduced designs of the demo's profile plan (the study file's [plan] has the full ones).
+_DEMO_PROFILE_PLAN = {"n_layer": 2**11, "n_thermal": 256, "states_per_thermal": 8,
+                      "n_simulations": 200}
+
+
+def demo_profile_plan(args, study_path, dest) -> float:
+    """The demo's profile planning part (reduced designs); returns its run time (s)."""
+    from .plan import do_plan_profile
+    from .profile import load_profile_study
+
+    t0 = time.perf_counter()
+    study = load_profile_study(study_path)
+    dest.mkdir()
+    plan_args = argparse.Namespace(seed=args.seed, quiet=args.quiet, candidate=None,
+                                   simulations=None)
+    do_plan_profile(plan_args, study, dest, figures=True, options=_DEMO_PROFILE_PLAN)
+    return time.perf_counter() - t0
 
 
 def demo_profile(args, study_path, dest) -> float:

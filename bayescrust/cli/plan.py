@@ -1,8 +1,11 @@
-"""``bayescrust plan``: which extra observation would settle a layer's interpretation."""
+"""``bayescrust plan``: which extra observation would settle a layer's interpretation, or the
+open questions of a whole profile (a ``[profile]`` study file)."""
 
 from __future__ import annotations
 
 from pathlib import Path
+
+import numpy as np
 
 from ..config import load_study
 from .layers import assumptions, build, run_one, run_toml, select_layers
@@ -17,22 +20,36 @@ from .shell import (
     write_text,
 )
 
-__all__ = ["add_parser", "cmd_plan", "do_plan", "plan_study_layer", "parse_candidate"]
+__all__ = ["add_parser", "cmd_plan", "do_plan", "do_plan_profile", "plan_study_layer",
+           "parse_candidate"]
 
 
-def parse_candidate(text: str):
-    """``OBSERVABLE:SIGMA`` (e.g. ``vs:0.1``) -> ``(observable, sigma)``; InputError if bad."""
-    from ..plan.candidates import LAYER_OBSERVABLES
+def parse_candidate(text: str, *, profile=False):
+    """``OBSERVABLE:SIGMA`` (e.g. ``vs:0.1``) -> ``(observable, sigma)``; InputError if bad.
 
-    obs, sep, sig = text.partition(":")
+    For a profile: ``OBSERVABLE:SIGMA@LAYER`` (e.g. ``vs:0.1@3 lower gabbro``) or
+    ``heat_flow:SIGMA[:MODE]`` (MODE ``gaussian``, ``lower_bound``, ``off``) -> a Candidate."""
+    from ..plan import Candidate
+    from ..plan.candidates import HEAT_FLOW_MODES, LAYER_OBSERVABLES, PROFILE_OBSERVABLES
+
+    allowed = LAYER_OBSERVABLES + (PROFILE_OBSERVABLES if profile else ())
+    head, _, layer = text.partition("@")
+    obs, sep, rest = head.partition(":")
+    sig, _, mode = rest.partition(":")
     try:
         s = float(sig)
     except ValueError:
         s = None
-    if not sep or obs not in LAYER_OBSERVABLES or s is None or not s > 0:
-        raise InputError(f"--candidate: got {text!r}, expected OBSERVABLE:SIGMA with OBSERVABLE "
-                         f"in {', '.join(LAYER_OBSERVABLES)} and SIGMA > 0 (e.g. vs:0.1)")
-    return obs, s
+    form = ("OBSERVABLE:SIGMA@LAYER or heat_flow:SIGMA[:MODE]" if profile
+            else "OBSERVABLE:SIGMA")
+    if (not sep or obs not in allowed or s is None or not s > 0
+            or (mode and (obs != "heat_flow" or mode not in HEAT_FLOW_MODES))
+            or (layer and obs == "heat_flow")):
+        raise InputError(f"--candidate: got {text!r}, expected {form} with OBSERVABLE in "
+                         f"{', '.join(allowed)} and SIGMA > 0 (e.g. vs:0.1)")
+    if not profile:
+        return obs, s
+    return Candidate(obs, s, layer=layer or None, mode=mode or "gaussian")
 
 
 def _candidates(study, cli):
@@ -43,7 +60,9 @@ def _candidates(study, cli):
     spec = getattr(study, "plan", None)
     if spec is None or not spec.candidates:
         return None
-    return [Candidate(c.observable, c.sigma, c.model_error, c.label) for c in spec.candidates]
+    return [Candidate(c.observable, c.sigma, c.model_error, c.label, layer=c.layer,
+                      mode=c.mode or "gaussian", max_deficit=c.max_deficit)
+            for c in spec.candidates]
 
 
 def plan_study_layer(study, layer, *, method="exact", seed=0, candidates=None,
@@ -144,7 +163,110 @@ def do_plan(args, study, dest: Path, *, layer_name, method, figures: bool):
     return plan
 
 
+def _profile_candidates(pstudy, cli):
+    if cli:
+        return [parse_candidate(c, profile=True) for c in cli]
+    return _candidates(pstudy, None)
+
+
+def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
+    """Plan a profile study into ``dest`` (tables, figures, report, run.toml); returns the plan.
+
+    ``options`` (keywords of :func:`bayescrust.plan.plan_profile`) override the study's."""
+    from ..config.plan import PlanSpec
+    from ..plan import plan_profile
+    from ..report.plan import plan_figure, plan_table, profile_plan_figure, profile_plan_table
+    from ..report.tables import to_csv
+
+    spec = pstudy.plan or PlanSpec()
+    prof = pstudy.profile
+    seed = args.seed if getattr(args, "seed", None) is not None else (pstudy.seed or 0)
+    warn = Warnings(args)
+    say(args, f"plan: profile {prof.name!r} (structured exact path)")
+    kw = {"n_layer": spec.design_points // 4, "n_simulations": spec.simulations,
+          "decisive_probability": spec.decisive_probability,
+          "decisive_bayes_factor": spec.decisive_bayes_factor}
+    if spec.rank_question:
+        kw["rank_question"] = spec.rank_question
+    if getattr(args, "simulations", None):
+        kw["n_simulations"] = args.simulations
+    kw.update(options or {})
+    with warn.catch(f"plan of {prof.name!r}"):
+        try:
+            pp = plan_profile(prof, seed=seed, **kw, candidates=_profile_candidates(
+                pstudy, getattr(args, "candidate", None)))
+        except ValueError as exc:
+            raise InputError(f"{pstudy.source}: {exc}") from None
+    rq = pp.settings["rank_question"]
+    write_table(dest, "plan", profile_plan_table(pp, readable=True),
+                caption=f"Value of candidate observations for every question of {prof.name}.")
+    write_text(dest / "plan.csv", to_csv(profile_plan_table(pp)))  # every column
+    write_text(dest / "ranking.csv", to_csv(plan_table(pp.plans[rq])))
+    import pandas as pd
+
+    cal = pd.concat([p.calibration.assign(question=q) for q, p in pp.plans.items()
+                     if pp.questions[q] != "thermal"], ignore_index=True)
+    write_text(dest / "calibration.csv", to_csv(cal, index=False))
+    if figures:
+        save_figure(profile_plan_figure(pp, title=f"{prof.name}: value of a new datum"), dest,
+                    "plan")
+        save_figure(plan_figure(pp.plans[rq], title=f"{prof.name}: {rq}"), dest, "ranking")
+    s = pp.settings
+    lines = [f"# {prof.name}: which observation would settle the open questions?", "",
+             f"Method: preposterior simulation ({s['n_simulations']} simulated data per "
+             f"candidate and question) from today's posterior: {s['n_states']} joint states "
+             f"drawn from the structured exact path ({s['n_thermal_points']} thermal points x "
+             f"{s['states_per_thermal']} states of every layer each); each datum updates them "
+             "by importance reweighting. Questions: each layer's interpretations, the "
+             "crust-mantle boundary, and the interval of each free thermal parameter. Updates "
+             f"with an effective size below {s['min_ess']:g} are counted as degenerate (no "
+             "exact rerun for profiles). Errors are Monte Carlo standard errors over the "
+             "simulated data.", "", "## Today", ""]
+    for q, p in pp.plans.items():
+        u = p.settings["interval_unit"]
+        if pp.questions[q] == "thermal":
+            lines.append(f"- {q}: 94 % interval {p.today['interval_width']:.3g} {u} wide")
+        else:
+            top = int(np.argmax(p.today["class_probabilities"]))
+            lines.append(f"- {q}: most probable {p.class_names[top]!r} "
+                         f"({p.today['class_probabilities'][top]:.2f}); entropy "
+                         f"{p.today['entropy_bits']:.2f} bits")
+    lines += ["", f"## Candidates, best first for: {rq}", ""]
+    lines += [f"{int(pp.ranking.loc[lab, 'rank'])}. {txt}" for lab, txt in pp.sentences.items()]
+    lines += ["", "`plan.csv` holds every (candidate, question) row with Monte Carlo errors; "
+              "`ranking.csv` the ranked question's table; `calibration.csv` the "
+              "law-of-total-probability check.", ""]
+    if warn.messages:
+        lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
+    write_text(dest / "report.md", "\n".join(lines))
+    src = Path(pstudy.source)
+    text = src.read_text(encoding="utf-8") if src.is_file() else ""
+    head = [f"# bayescrust plan of profile {prof.name!r}: the study file as read, with the "
+            "seed used", f"# seed used: {seed} (re-run: bayescrust plan run.toml --seed "
+            f"{seed} --out NEW_FOLDER)", f"# candidates: {'; '.join(pp.ranking.index)}", ""]
+    write_text(dest / "run.toml", "\n".join(head) + text)
+    return pp
+
+
+def _is_profile_study(path) -> bool:
+    import tomllib
+
+    try:
+        return "profile" in tomllib.loads(Path(path).read_text(encoding="utf-8"))
+    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError):
+        return False  # the layer-study reader reports the problem
+
+
 def cmd_plan(args) -> int:
+    if _is_profile_study(args.study):
+        from .profile import load_profile_study
+
+        pstudy = load_profile_study(args.study)
+        if args.layer or args.method == "mcmc":
+            raise InputError(f"{args.study}: --layer and --method mcmc are for layer studies; "
+                             "a profile is planned on its structured exact path")
+        return folder_command(args, lambda tmp: do_plan_profile(args, pstudy, tmp,
+                                                                figures=not args.no_figures))
     study = load_study(args.study)
     return folder_command(args, lambda tmp: do_plan(args, study, tmp, layer_name=args.layer,
                                                     method=args.method,
@@ -154,14 +276,16 @@ def cmd_plan(args) -> int:
 def add_parser(sub) -> None:
     """Register the ``plan`` command."""
     sp = sub.add_parser("plan", help="which extra observation would settle a layer's "
-                                     "interpretation (preposterior simulation)")
-    sp.add_argument("study", metavar="STUDY.toml")
+                                     "interpretation, or a profile's questions (preposterior "
+                                     "simulation)")
+    sp.add_argument("study", metavar="STUDY.toml", help="a layer study, or a [profile] study")
     add_common_options(sp, method=False)
     sp.add_argument("--layer", metavar="NAME", help="the layer (required if several and no "
                                                     "plan.layer)")
     sp.add_argument("--candidate", action="append", metavar="OBS:SIGMA",
-                    help="a candidate datum, e.g. vs:0.1 (repeatable; default: the study's "
-                         "[plan] candidates, else the package defaults)")
+                    help="a candidate datum, e.g. vs:0.1; for a profile vs:0.1@LAYER or "
+                         "heat_flow:10[:lower_bound] (repeatable; default: the study's [plan] "
+                         "candidates, else the package defaults)")
     sp.add_argument("--simulations", type=int, default=None,
                     help="simulated data per candidate (default: study file, else 1000)")
     sp.add_argument("--method", choices=("exact", "mcmc"), default="exact",

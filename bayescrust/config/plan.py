@@ -13,6 +13,22 @@ candidates = [
   { observable = "density", sigma = 0.05, model_error = 0.005 },
 ]
 ```
+
+In a profile study (``[profile]``) the same section plans the profile: layer candidates name
+their ``layer``, heat flow takes ``mode`` (``gaussian``, ``lower_bound``, ``off``) and, for a
+lower bound, ``max_deficit`` (mW/m^2); ``rank_question`` is a layer name, ``"crust-mantle
+boundary"`` (default) or ``"thermal: <parameter>"``; ``design_points`` is the size of each
+layer's design.
+
+```toml
+[plan]
+rank_question = "crust-mantle boundary"
+candidates = [
+  { observable = "heat_flow", sigma = [5.0, 10.0] },
+  { observable = "heat_flow", sigma = 10.0, mode = "lower_bound" },
+  { observable = "vs", sigma = 0.1, layer = "3 lower gabbro" },
+]
+```
 """
 
 from __future__ import annotations
@@ -26,8 +42,9 @@ from .reader import Reader
 __all__ = ["PLAN_KEYS", "CANDIDATE_KEYS", "PlanSpec", "CandidateSpec", "read_plan", "plan_dict"]
 
 PLAN_KEYS = ("layer", "simulations", "design_points", "decisive_probability",
-             "decisive_bayes_factor", "rank_by", "candidates")
-CANDIDATE_KEYS = ("observable", "sigma", "model_error", "label")
+             "decisive_bayes_factor", "rank_by", "rank_question", "candidates")
+CANDIDATE_KEYS = ("observable", "sigma", "model_error", "label", "layer", "mode", "max_deficit")
+_MODES = ("gaussian", "lower_bound", "off")
 _RANK_KEYS = ("information_gain_bits", "p_decisive", "expected_p_true", "interval_narrowing")
 _CANDIDATE_OBSERVABLES = tuple(OBSERVABLES) + ("heat_flow",)
 
@@ -40,6 +57,9 @@ class CandidateSpec:
     sigma: float
     model_error: float | None = None
     label: str | None = None
+    layer: str | None = None
+    mode: str | None = None
+    max_deficit: float | None = None
 
 
 @dataclass(frozen=True)
@@ -53,6 +73,7 @@ class PlanSpec:
     decisive_bayes_factor: float = 10.0
     rank_by: str = "information_gain_bits"
     candidates: tuple[CandidateSpec, ...] | None = None
+    rank_question: str | None = None
 
 
 def _candidate(r: Reader, key, value) -> list[CandidateSpec]:
@@ -69,6 +90,18 @@ def _candidate(r: Reader, key, value) -> list[CandidateSpec]:
         me = r.number(f"{key}.model_error", t["model_error"], 0.0, 0.5,
                       unit="(fraction of the predicted value)")
     label = r.string(f"{key}.label", t["label"]) if "label" in t else None
+    layer = r.string(f"{key}.layer", t["layer"]) if "layer" in t else None
+    mode = r.string(f"{key}.mode", t["mode"], _MODES) if "mode" in t else None
+    if obs == "heat_flow" and layer is not None:
+        r.got(f"{key}.layer", layer, "no layer for heat flow (a profile-wide datum)")
+    if mode not in (None, "gaussian") and obs != "heat_flow":
+        r.got(f"{key}.mode", mode, "'gaussian' (other modes are for heat_flow only)")
+    deficit = None
+    if "max_deficit" in t:
+        if mode != "lower_bound":
+            r.got(f"{key}.max_deficit", t["max_deficit"], "only with mode = 'lower_bound'")
+        deficit = r.number(f"{key}.max_deficit", t["max_deficit"], 0.0, 5000.0, lo_open=True,
+                           unit="mW/m^2")
     if label is not None and len(sig) > 1:
         r.got(f"{key}.label", label, "no label when several sigmas are given (each needs its own)")
     out = []
@@ -76,7 +109,7 @@ def _candidate(r: Reader, key, value) -> list[CandidateSpec]:
         k = f"{key}.sigma[{i}]" if isinstance(t["sigma"], list) else f"{key}.sigma"
         if isinstance(s, bool) or not isinstance(s, (int, float)) or math.isnan(s) or s <= 0:
             r.got(k, s, "a 1-sigma error > 0 (inf for the no-information baseline)")
-        out.append(CandidateSpec(obs, float(s), me, label))
+        out.append(CandidateSpec(obs, float(s), me, label, layer, mode, deficit))
     return out
 
 
@@ -100,6 +133,8 @@ def read_plan(r: Reader, key, value) -> PlanSpec:
         kw["decisive_bayes_factor"] = r.number(f"{key}.decisive_bayes_factor",
                                                t["decisive_bayes_factor"], 1.0, 1e6,
                                                lo_open=True)
+    if "rank_question" in t:
+        kw["rank_question"] = r.string(f"{key}.rank_question", t["rank_question"])
     if "rank_by" in t:
         kw["rank_by"] = r.string(f"{key}.rank_by", t["rank_by"], _RANK_KEYS)
     if "candidates" in t:
@@ -107,7 +142,7 @@ def read_plan(r: Reader, key, value) -> PlanSpec:
         if not isinstance(c, list) or not c:
             r.got(f"{key}.candidates", c, "a non-empty list of tables {observable, sigma}")
         cands = [x for i, v in enumerate(c) for x in _candidate(r, f"{key}.candidates[{i}]", v)]
-        labels = [x.label or f"{x.observable}:{x.sigma:g}" for x in cands]
+        labels = [x.label or f"{x.observable}:{x.sigma:g}:{x.layer}:{x.mode}" for x in cands]
         if len(set(labels)) != len(labels):
             r.got(f"{key}.candidates", c, "each (observable, sigma) at most once")
         kw["candidates"] = tuple(cands)

@@ -26,7 +26,9 @@
     rocks = ["basalt", "gabbro"]       # optional: depth-appropriate default
     porosity = [0.0, 0.3]              # optional per-layer priors: number or [lo, hi]
 
-Errors name the file, the key and the allowed range (:class:`StudyError`).
+An optional ``[plan]`` section (:mod:`bayescrust.config.plan`) sets ``bayescrust plan``'s
+candidates for the profile. Errors name the file, the key and the allowed range
+(:class:`StudyError`).
 """
 
 from __future__ import annotations
@@ -62,6 +64,7 @@ class ProfileStudy:
     compare: dict
     seed: int | None
     source: str
+    plan: object = None
 
 
 def _prior(r: Reader, key, value):
@@ -113,7 +116,7 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise StudyError(source, "(file)", f"not valid TOML: {exc}") from exc
-    r.keys("(top level)", data, ("profile", "run"))
+    r.keys("(top level)", data, ("profile", "run", "plan"))
     if "profile" not in data:
         r.fail("profile", "missing: a profile study needs a [profile] table")
     p = r.table("profile", data["profile"])
@@ -189,4 +192,13 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
             seed = r.integer("run.seed", run["seed"], 0, 2**63 - 1)
     if not math.isfinite(hw):  # pragma: no cover - number() already checks
         r.fail("profile.water_depth_km", "must be finite")
-    return ProfileStudy(profile=profile, compare=compare, seed=seed, source=source)
+    plan = None
+    if "plan" in data:
+        from .plan import read_plan
+
+        plan = read_plan(r, "plan", data["plan"])
+        names = list(profile.names)
+        for i, c in enumerate(data["plan"].get("candidates") or ()):
+            if isinstance(c, dict) and c.get("layer", names[0]) not in names:
+                r.got(f"plan.candidates[{i}].layer", c["layer"], f"one of {names}")
+    return ProfileStudy(profile=profile, compare=compare, seed=seed, source=source, plan=plan)

@@ -38,7 +38,8 @@ class PlanResult:
         interpretation probabilities and information gain (bits), chance of a decisive answer,
         expected width and narrowing of the temperature interval (deg C), each with ``*_mcse``;
         degeneracy counts and ``calibration_max_z`` (largest |z| of the law-of-total-probability
-        check over the hypotheses).
+        check over the hypotheses expected to be the truth of at least 10 simulated data, and
+        to be false in as many).
     today : dict
         Today's class probabilities, entropy, decision and interval width.
     calibration : pandas.DataFrame
@@ -126,7 +127,7 @@ def preposterior(ensemble, candidates, *, seed=None, rank_by="information_gain_b
     if rank_by not in RANK_KEYS:
         raise ValueError(f"rank_by must be one of {list(RANK_KEYS)}; got {rank_by!r}")
     s = Settings(**settings)
-    cands = as_candidates(candidates, profile=False)
+    cands = as_candidates(candidates, profile="heat_flow" in ensemble.quantities)
     rng, _ = resolve_rng(seed)
     streams = rng.spawn(len(cands))
     t0 = time.perf_counter()
@@ -135,10 +136,14 @@ def preposterior(ensemble, candidates, *, seed=None, rank_by="information_gain_b
     hyp_names = list(ensemble.hypotheses)
     for c, r in zip(cands, streams, strict=True):
         v = evaluate(ensemble, c, r, s)
-        z = np.abs(v["calibration_mean"] - today["hypothesis_probabilities"])
+        p0 = today["hypothesis_probabilities"]
+        z = np.abs(v["calibration_mean"] - p0)
         with np.errstate(divide="ignore", invalid="ignore"):
             z = np.where(v["calibration_mcse"] > 0, z / v["calibration_mcse"],
                          np.where(z > 1e-12, np.inf, 0.0))
+        # an interpretation expected to be the truth of fewer than 10 simulated data cannot be
+        # checked: its spread over the data (hence its error) is not seen
+        z = z[np.minimum(p0, 1.0 - p0) * s.n_simulations >= 10.0]
         rows.append({"candidate": c.label, "observable": c.observable, "sigma": c.sigma,
                      "unit": c.unit, **{k: v[k] for k in _COLUMNS if k in v},
                      "calibration_max_z": float(np.max(z)) if z.size else 0.0})
@@ -202,6 +207,10 @@ def plan_layer(layer, *, candidates=None, result=None, rocks=("gabbro", "harzbur
     from ..inference.api import _setup, resolve_rng
 
     cands = as_candidates(candidates, layer)
+    other = sorted({c.layer for c in cands if c.layer not in (None, layer.name)})
+    if other:
+        raise ValueError(f"candidates name other layers {other}; this plan is for layer "
+                         f"{layer.name!r} (use plan_profile for a profile)")
     rng, seed_val = resolve_rng(seed)
     r_design, r_plan = rng.spawn(2)
     model, hyps = _setup(layer, rocks, priors, hypotheses, model_error, likelihood, nu, forward)

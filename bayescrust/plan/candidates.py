@@ -3,8 +3,10 @@
 A candidate is one new, independent measurement of an observable of the layer (Vp, Vs, Vp/Vs,
 density) with a stated measurement error. Measured again, an observable the layer already has
 shares the forward-model error with the existing datum (see :mod:`.likelihood`). Heat flow is an
-observable of a whole profile, not of one layer: :data:`PROFILE_OBSERVABLES` names it so the
-profile planner (not built here) can accept it; a layer planner rejects it with a clear message.
+observable of a whole profile, not of one layer: :data:`PROFILE_OBSERVABLES` names it; the profile
+planner (:mod:`.profile`) accepts it, a layer planner rejects it with a clear message. In a profile
+a layer candidate names its ``layer``; a heat-flow candidate has the ``mode`` of the profile's own
+heat-flow law (:class:`bayescrust.profile.HeatFlow`).
 """
 
 from __future__ import annotations
@@ -15,12 +17,14 @@ from dataclasses import dataclass
 from ..inference.layer import OBSERVABLES
 
 __all__ = ["Candidate", "default_candidates", "LAYER_OBSERVABLES", "PROFILE_OBSERVABLES",
-           "as_candidates"]
+           "HEAT_FLOW_MODES", "as_candidates"]
 
 #: Observables a candidate of one layer may name (those of :class:`bayescrust.Layer`).
 LAYER_OBSERVABLES = tuple(OBSERVABLES)
 #: Observables only a profile can predict (surface heat flow, mW/m^2); hook for the profile study.
 PROFILE_OBSERVABLES = ("heat_flow",)
+#: Laws of a heat-flow candidate, as :class:`bayescrust.profile.HeatFlow`'s ``mode``.
+HEAT_FLOW_MODES = ("gaussian", "lower_bound", "off")
 
 _UNITS = {k: unit for k, (_, unit) in OBSERVABLES.items()} | {"heat_flow": "mW/m^2"}
 _NAMES = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density",
@@ -48,12 +52,25 @@ class Candidate:
         quadrature, as in the layer's likelihood); default: the layer model's own setting.
     label : str, optional
         Name in tables and figures (default e.g. ``"Vs ± 0.1 km/s"``).
+    layer : str, optional
+        Profiles: the layer the datum is measured in (by name); not for heat flow.
+    mode : str
+        Heat flow only: ``"gaussian"``, ``"lower_bound"`` (the probe sees at most the conductive
+        heat flow: the measured value is the conductive one minus an unknown deficit, uniform on
+        ``[0, max_deficit]``, plus the error; see :mod:`.likelihood`) or ``"off"`` (not used:
+        no information).
+    max_deficit : float, optional
+        Lower-bound heat flow: the largest heat (mW/m^2) the probe may miss; default the largest
+        heat flow predicted by today's states (the probe may miss any part of it).
     """
 
     observable: str
     sigma: float
     model_error: float | None = None
     label: str | None = None
+    layer: str | None = None
+    mode: str = "gaussian"
+    max_deficit: float | None = None
 
     def __post_init__(self):
         allowed = LAYER_OBSERVABLES + PROFILE_OBSERVABLES
@@ -75,8 +92,34 @@ class Candidate:
                 raise ValueError(f"candidate {self.observable}: model_error must be in [0, 0.5]"
                                  f" (fraction of the predicted value); got {self.model_error!r}")
             object.__setattr__(self, "model_error", me)
+        if self.mode not in HEAT_FLOW_MODES or (self.mode != "gaussian"
+                                                 and self.observable != "heat_flow"):
+            raise ValueError(f"candidate {self.observable}: mode must be one of "
+                             f"{list(HEAT_FLOW_MODES)} (modes other than 'gaussian' are for "
+                             f"heat_flow only); got {self.mode!r}")
+        if self.layer is not None and (self.observable in PROFILE_OBSERVABLES
+                                       or not isinstance(self.layer, str)):
+            raise ValueError(f"candidate {self.observable}: layer must be a layer name and is "
+                             f"not used with heat flow (a profile-wide datum); got "
+                             f"{self.layer!r}")
+        if self.max_deficit is not None:
+            md = float(self.max_deficit)
+            if self.mode != "lower_bound" or not (math.isfinite(md) and md > 0):
+                raise ValueError(f"candidate {self.observable}: max_deficit must be > 0 mW/m^2 "
+                                 f"and is for mode 'lower_bound' only; got {self.max_deficit!r}")
+            object.__setattr__(self, "max_deficit", md)
         if self.label is None:
-            object.__setattr__(self, "label", f"{self.name} ± {self.sigma:g} {self.unit}".strip())
+            text = f"{self.name} ± {self.sigma:g} {self.unit}".strip()
+            if self.mode != "gaussian":
+                text += f" ({self.mode.replace('_', ' ')})"
+            if self.layer is not None:
+                text += f" in {self.layer}"
+            object.__setattr__(self, "label", text)
+
+    @property
+    def informative(self) -> bool:
+        """False for the "measure nothing" baselines (infinite sigma, heat-flow mode "off")."""
+        return math.isfinite(self.sigma) and self.mode != "off"
 
     @property
     def name(self) -> str:

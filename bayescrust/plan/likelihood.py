@@ -19,6 +19,18 @@ When the candidate is Vp or Vs and the layer observed the other one (Gaussian li
 Vp/Vs datum), the two forward-model errors are correlated as in the layer's own likelihood
 (:data:`bayescrust.inference.model.MODEL_ERROR_CORRELATION`), and the new datum's factor is the
 conditional density given the other datum (the same bivariate-normal conditional).
+
+Heat flow (profiles) has no forward-model error in the profile's likelihood
+(:class:`bayescrust.profile.HeatFlow`): a Gaussian candidate is ``N(q_pred, s)``. A *lower-bound*
+candidate (``likelihood="lower_bound"``) is generated as ``y = q_pred - d + s e`` with ``e``
+standard normal and an unknown deficit ``d ~ Uniform(0, D)`` (heat carried by hydrothermal
+circulation that the probe does not see, Stein & Stein 1994); its density is the convolution
+
+``p(y | q) = [Phi((q - y) / s) - Phi((q - D - y) / s)] / D``,
+
+which, wherever ``q - y < D`` by several ``s``, is the profile's one-sided law
+``Phi((q - y) / s)`` (:meth:`HeatFlow.log_likelihood`) up to the constant ``1 / D``; the profile's
+law is its limit ``D -> inf`` (an improper density in ``y``, which cannot be simulated).
 """
 
 from __future__ import annotations
@@ -55,10 +67,22 @@ def datum_location_scale(pred, *, sigma, model_error, existing=None, partner=Non
     return loc, scale
 
 
-def datum_log_likelihood(y, loc, scale, *, likelihood="gaussian", nu=4.0):
+def _log_ndtr_diff(a, b):
+    """``log(Phi(a) - Phi(b))`` for ``a > b``, stable in both tails."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        lo_a, lo_b = special.log_ndtr(a), special.log_ndtr(b)
+        low = lo_a + np.log1p(-np.exp(lo_b - lo_a))
+        up_b, up_a = special.log_ndtr(-b), special.log_ndtr(-a)
+        high = up_b + np.log1p(-np.exp(up_a - up_b))
+    return np.where(b > 0, high, low)
+
+
+def datum_log_likelihood(y, loc, scale, *, likelihood="gaussian", nu=4.0, deficit=None):
     """Log density of data ``y`` (m, 1) under states with ``loc``, ``scale`` (n,): (m, n).
 
-    An infinite scale (a datum with infinite error) gives zeros: it carries no information.
+    ``likelihood`` is ``"gaussian"``, ``"student_t"`` (``nu``) or ``"lower_bound"`` (with the
+    largest ``deficit``; module docstring). An infinite scale (a datum with infinite error) gives
+    zeros: it carries no information.
     """
     y = np.asarray(y, float)
     loc = np.asarray(loc, float)
@@ -66,6 +90,9 @@ def datum_log_likelihood(y, loc, scale, *, likelihood="gaussian", nu=4.0):
     if np.all(np.isinf(scale)):
         return np.zeros(np.broadcast_shapes(y.shape, loc.shape))
     z = (y - loc) / scale
+    if likelihood == "lower_bound":
+        ll = _log_ndtr_diff(-z, -z - deficit / scale) - math.log(deficit)
+        return np.where(np.isfinite(ll), ll, -np.inf)
     if likelihood == "gaussian":
         ll = -0.5 * z * z - np.log(scale) - 0.5 * math.log(2 * math.pi)
     else:
@@ -75,11 +102,16 @@ def datum_log_likelihood(y, loc, scale, *, likelihood="gaussian", nu=4.0):
     return np.where(np.isfinite(ll), ll, -np.inf)
 
 
-def simulate_datum(rng, loc, scale, *, likelihood="gaussian", nu=4.0):
-    """One simulated datum per (true) state: ``loc + scale * noise``; ``inf`` for infinite
-    error (the value is never used then)."""
+def simulate_datum(rng, loc, scale, *, likelihood="gaussian", nu=4.0, deficit=None):
+    """One simulated datum per (true) state: ``loc + scale * noise`` (lower bound: minus a
+    uniform deficit on ``[0, deficit]``); ``inf`` for infinite error (never used then)."""
     loc = np.asarray(loc, float)
     scale = np.asarray(scale, float)
+    if likelihood == "lower_bound":
+        noise = rng.standard_normal(loc.shape)
+        with np.errstate(invalid="ignore"):
+            y = loc - deficit * rng.random(loc.shape) + scale * noise
+        return np.where(np.isinf(scale), np.inf, y)
     noise = (rng.standard_normal(loc.shape) if likelihood == "gaussian"
              else rng.standard_t(nu, size=loc.shape))
     with np.errstate(invalid="ignore"):

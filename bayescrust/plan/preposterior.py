@@ -120,6 +120,9 @@ def _interval_width(w, t_sorted, starts, mass):
     return ends[1] - ends[0]
 
 
+_LOG_TINY = math.log(1e-150)
+
+
 class _Kernel:
     """Fixed arrays of one ensemble for the batched updates, sorted by the interval quantity.
 
@@ -133,7 +136,7 @@ class _Kernel:
         lw = np.asarray(ens.log_weights, float)
         keep = np.flatnonzero(lw >= np.max(lw) + math.log(1e-12))
         q = {k: np.broadcast_to(np.asarray(v), (ens.n,))[keep]
-             for k, v in ens.quantities.items() if np.ndim(v) <= 1}
+             for k, v in ens.quantities.items() if k == s.quantity and np.ndim(v) <= 1}
         hyp = {h: np.asarray(v)[keep] for h, v in ens.hypotheses.items()}
         self.setup(ens.classes[keep], hyp, q, len(ens.class_names), s)
         self.keep = keep[self.order]
@@ -157,13 +160,39 @@ class _Kernel:
         (``lw`` is overwritten by the weights)."""
         m = np.max(lw, axis=1, keepdims=True)
         lw -= np.where(np.isfinite(m), m, 0.0)
+        # weights below 1e-150 of the largest are set to zero: they change no sum, and their
+        # squares and products would be subnormal numbers (slow arithmetic on most CPUs)
+        np.putmask(lw, lw < _LOG_TINY, -np.inf)
         w = np.exp(lw, out=lw)
         sw = w.sum(axis=1)
         k = self.onehot.shape[1]
-        ph = (w @ self.class_and_hyp) / sw[:, None]
+        ph = self._class_and_hyp_sums(w) / sw[:, None]
         ess = sw**2 / np.einsum("ij,ij->i", w, w)
         width = _interval_width(w, self.t_sorted, self.starts, s.interval)
         return ph[:, :k], ph[:, k:], ess, width
+
+    def _class_and_hyp_sums(self, w):
+        """``w @ [onehot, hyp]`` (b, K + H). When every hypothesis indicator is constant within
+        each class (true by construction: the classes are the hypotheses' membership patterns),
+        the class sums come from one gather and ``np.add.reduceat`` and the hypothesis sums
+        from them; this avoids a threaded matrix product whose speed collapses on a loaded
+        machine. Otherwise the matrix product."""
+        if getattr(self, "_by_class", None) is None:
+            cls = np.argmax(self.onehot, axis=1) if self.onehot.size else np.zeros(0, int)
+            perm = np.argsort(cls, kind="stable")
+            cs = cls[perm]
+            starts = np.flatnonzero(np.r_[True, cs[1:] != cs[:-1]]) if cs.size else cs
+            a = np.zeros((self.onehot.shape[1], self.hyp.shape[1]))
+            a[cs[starts]] = self.hyp[perm][starts]
+            ok = cs.size > 0 and bool(np.all(self.hyp[perm] == a[cs]))
+            self._by_class = (perm, starts, cs[starts], a) if ok else False
+        if self._by_class is False:
+            return w @ self.class_and_hyp
+        perm, starts, present, a = self._by_class
+        sums = np.add.reduceat(np.take(w, perm, axis=1), starts, axis=1)
+        out = np.zeros((w.shape[0], a.shape[0]))
+        out[:, present] = sums
+        return np.concatenate([out, out @ a], axis=1)
 
     @property
     def class_and_hyp(self):
@@ -171,11 +200,18 @@ class _Kernel:
             self._ch = np.ascontiguousarray(np.concatenate([self.onehot, self.hyp], axis=1))
         return self._ch
 
-    def block_log_weights(self, y, loc, scale, ens):
+    def block_log_weights(self, y, loc, scale, law):
         """Today's log-weights plus the new datum's log-likelihood, (len(y), n), in place."""
-        if ens.likelihood != "gaussian" or np.any(np.isinf(scale)):
-            return self.lw0 + datum_log_likelihood(y[:, None], loc[None, :], scale[None, :],
-                                                   likelihood=ens.likelihood, nu=ens.nu)
+        if law["likelihood"] != "gaussian" or np.any(np.isinf(scale)):
+            # the states share few distinct (loc, scale) pairs when the datum depends on part of
+            # the state only (heat flow: on the thermal point): evaluate each pair once
+            if getattr(self, "_pairs_for", None) is not loc:
+                pairs, self._inv_pairs = np.unique(np.stack([loc, scale]), axis=1,
+                                                   return_inverse=True)
+                self._pairs, self._pairs_for = pairs, loc
+            pl, ps = self._pairs
+            ll = datum_log_likelihood(y[:, None], pl[None, :], ps[None, :], **law)
+            return self.lw0 + ll[:, self._inv_pairs.ravel()]
         if getattr(self, "_base_for", None) is not scale:
             with np.errstate(divide="ignore"):
                 self._base = self.lw0 - np.log(scale) - 0.5 * math.log(2 * math.pi)
@@ -189,10 +225,28 @@ class _Kernel:
         return z
 
 
+def _law(ens, cand, q):
+    """The candidate's likelihood law (keywords of :func:`.likelihood.datum_log_likelihood`):
+    the layer's own law for layer observables, the profile's heat-flow law for heat flow."""
+    if cand.observable != "heat_flow":
+        return {"likelihood": ens.likelihood, "nu": ens.nu}
+    if cand.mode != "lower_bound":
+        return {"likelihood": "gaussian"}
+    d = cand.max_deficit
+    if d is None:
+        d = float(np.max(np.asarray(q["heat_flow"], float)))
+    return {"likelihood": "lower_bound", "deficit": max(d, 1e-9)}
+
+
 def _loc_scale(ens, cand, q):
     obs = cand.observable
     if obs not in q:
         raise ValueError(f"candidate {cand.label!r}: the ensemble has no prediction of {obs!r}")
+    if cand.mode == "off":  # a heat flow kept for the record: no information
+        return np.asarray(q[obs], float), np.full(np.shape(q[obs]), np.inf)
+    if obs == "heat_flow":  # the profile's heat-flow law has no forward-model error
+        me = cand.model_error or 0.0
+        return datum_location_scale(q[obs], sigma=cand.sigma, model_error=me)
     me = cand.model_error if cand.model_error is not None else ens.model_error.get(obs, 0.0)
     existing = ens.existing.get(obs)
     if existing is not None:  # the forward-model error is shared with the existing datum
@@ -210,22 +264,23 @@ def _loc_scale(ens, cand, q):
                                 partner=partner)
 
 
-def update(ensemble, candidate, values):
+def update(ensemble, candidate, values, *, means=()):
     """Today's ensemble updated by the candidate datum at each of ``values``.
+
+    ``means`` names quantities of the ensemble whose updated means are wanted as well.
 
     Returns
     -------
     dict
         ``class_probabilities`` (m, K), ``hypothesis_probabilities`` (m, H) with their
         delta-method standard errors ``hypothesis_mcse`` (self-normalised importance sampling),
-        ``importance_ess`` (m,).
+        ``importance_ess`` (m,); with ``means``: ``means`` and ``means_mcse`` ``{name: (m,)}``.
     """
     ens = ensemble
     y = np.atleast_1d(np.asarray(values, float))
     loc, scale = _loc_scale(ens, candidate, ens.quantities)
-    lw = ens.log_weights[None, :] + datum_log_likelihood(y[:, None], loc[None, :],
-                                                         scale[None, :], likelihood=ens.likelihood,
-                                                         nu=ens.nu)
+    lw = ens.log_weights[None, :] + datum_log_likelihood(
+        y[:, None], loc[None, :], scale[None, :], **_law(ens, candidate, ens.quantities))
     m = np.max(lw, axis=1, keepdims=True)
     w = np.exp(lw - m)
     sw = w.sum(axis=1)
@@ -235,8 +290,17 @@ def update(ensemble, candidate, values):
     h = (w @ hyp) / sw[:, None]
     w2 = w * w
     se = np.sqrt(np.einsum("mn,mnh->mh", w2, (hyp[None] - h[:, None, :]) ** 2)) / sw[:, None]
-    return {"class_probabilities": p, "hypothesis_probabilities": h, "hypothesis_mcse": se,
-            "importance_ess": sw**2 / w2.sum(axis=1)}
+    out = {"class_probabilities": p, "hypothesis_probabilities": h, "hypothesis_mcse": se,
+           "importance_ess": sw**2 / w2.sum(axis=1)}
+    if means:
+        out["means"], out["means_mcse"] = {}, {}
+        for name in means:
+            x = np.broadcast_to(np.asarray(ens.quantities[name], float), (ens.n,))
+            mu = (w @ x) / sw
+            out["means"][name] = mu
+            out["means_mcse"][name] = np.sqrt(np.einsum("mn,mn->m", w2, (x[None] - mu[:, None])
+                                                        ** 2)) / sw
+    return out
 
 
 # --------------------------------------------------------------------------------- fallback
@@ -257,7 +321,8 @@ def _rerun(ens, cand, y, rng, s: Settings, cache):
             cache["design"] = (u, q, weigh_design(model, q)[0])
     u, q, ll = cache["design"]
     loc, scale = _loc_scale(ens, cand, q)
-    lw1 = ll + datum_log_likelihood(y, loc, scale, likelihood=ens.likelihood, nu=ens.nu)
+    law = _law(ens, cand, ens.quantities)
+    lw1 = ll + datum_log_likelihood(y, loc, scale, **law)
     w1 = np.exp(lw1 - np.max(lw1))
     centres = u[rng.choice(len(w1), size=min(256, len(w1)), p=w1 / w1.sum())]
     if np.unique(centres, axis=0).shape[0] < centres.shape[1] + 1:
@@ -266,8 +331,7 @@ def _rerun(ens, cand, y, rng, s: Settings, cache):
     _, q2, log_q, inside = adaptive_design(model, rng, centres, s.rerun_points)
     ll2, _ = weigh_design(model, q2)
     loc2, scale2 = _loc_scale(ens, cand, q2)
-    lw2 = (ll2 + datum_log_likelihood(y, loc2, scale2, likelihood=ens.likelihood, nu=ens.nu)
-           - log_q[inside])
+    lw2 = ll2 + datum_log_likelihood(y, loc2, scale2, **law) - log_q[inside]
     ind = indicators(ens.boxes, q2)
     classes = assign_classes(ind, ens.class_names)
     lw2 = np.where(classes >= 0, lw2, -np.inf)
@@ -322,22 +386,23 @@ def evaluate(ensemble, candidate, rng, settings: Settings | None = None) -> dict
     now = current_state(ens, s)
     prior = np.asarray(ens.prior_probabilities, float)
     loc, scale = _loc_scale(ens, candidate, ens.quantities)
+    law = _law(ens, candidate, ens.quantities)
     loc, scale = np.broadcast_to(loc, (ens.n,))[kern.keep], np.broadcast_to(scale,
                                                                           (ens.n,))[kern.keep]
     w0 = np.exp(kern.lw0 - np.max(kern.lw0))
     m = s.n_simulations
     truth = rng.choice(w0.shape[0], size=m, p=w0 / w0.sum())
-    y = simulate_datum(rng, loc[truth], scale[truth], likelihood=ens.likelihood, nu=ens.nu)
+    y = simulate_datum(rng, loc[truth], scale[truth], **law)
     true_cls = kern.classes[truth]
     p_all = np.empty((m, len(ens.class_names)))
     h_all = np.empty((m, kern.hyp.shape[1]))
     ess_all, width_all = np.empty(m), np.empty(m)
     for a in range(0, m, s.block):  # blocks of simulated data bound the memory (block x n)
         b = slice(a, min(a + s.block, m))
-        lw = kern.block_log_weights(y[b], loc, scale, ens)
+        lw = kern.block_log_weights(y[b], loc, scale, law)
         p_all[b], h_all[b], ess_all[b], width_all[b] = kern.summarise(lw, s)
     deg = ess_all < s.min_ess
-    if np.isinf(candidate.sigma):
+    if not candidate.informative:
         deg[:] = False  # nothing is updated: today's ensemble, exactly
     n_deg = int(deg.sum())
     rr_idx = np.zeros(0, int)
@@ -368,7 +433,7 @@ def evaluate(ensemble, candidate, rng, settings: Settings | None = None) -> dict
     # the chance of a decisive answer is a proportion: its error is floored by the Agresti &
     # Coull (1998, Am. Stat. 52, 119) adjusted proportion, so 0 of m (or m of m) is not +- 0
     pt = (m * mean[2] + 2.0) / (m + 4.0)
-    se[2] = max(se[2], math.sqrt(pt * (1.0 - pt) / m)) if not np.isinf(candidate.sigma) else 0.0
+    se[2] = max(se[2], math.sqrt(pt * (1.0 - pt) / m)) if candidate.informative else 0.0
     cal_mean, cal_se = _stratified(hx, deg, rr_idx, hx_rr)
     still = int(np.sum(rr[2] < s.min_ess)) if rr is not None else n_deg
     return {

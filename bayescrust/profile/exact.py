@@ -37,7 +37,7 @@ from ..inference.hypotheses import default_hypotheses, indicators
 from ..physics.thermal import THERMAL_DATA as _TH
 from .spec import MANTLE_RULE, Profile
 
-__all__ = ["exact_profile", "design_thermal"]
+__all__ = ["exact_profile", "design_thermal", "exact_design"]
 
 _G = 1e-3 * float(_TH["lithostatic"]["gravity_m_s2"])  # GPa per (g/cm^3 km)
 
@@ -144,6 +144,51 @@ def _answers(profile, rep, hyps):
     return {"boundary": boundary, "hypotheses": hyp, "omega": omega}
 
 
+def _pressure_pass(profile, rng, n_layer, n_thermal, forward):
+    """Layer models at the profile's pressures: with ``overburden`` a first, smaller pass at the
+    reference column finds the posterior-mean densities (module docstring). Returns
+    ``(models, hypotheses, pressures, pressure_sd_bound)``."""
+    models = profile.layer_models(forward=forward)
+    hyps = _hypotheses(profile, models)
+    if profile.pressure != "overburden":
+        return models, hyps, profile.pressures_gpa(), np.zeros(profile.n_layers)
+    first = _one_replicate(profile, models, hyps, rng, max(n_layer // 4, 512),
+                           max(n_thermal // 4, 32))
+    ans = _answers(profile, first, hyps)
+    rho_mean = np.array([o @ q["density"] for o, q in zip(ans["omega"], first["layer_q"],
+                                                          strict=True)])
+    rho_sd = np.sqrt(np.maximum([o @ (q["density"] - r) ** 2 for o, q, r in
+                                 zip(ans["omega"], first["layer_q"], rho_mean,
+                                     strict=True)], 0.0))
+    pressures = profile.pressures_gpa(rho_mean)
+    h = profile.bottoms_km - profile.tops_km
+    p_sd = _G * (np.cumsum(rho_sd * h) - rho_sd * h)
+    return profile.layer_models(pressures, forward=forward), hyps, pressures, p_sd
+
+
+def exact_design(profile: Profile, *, n_layer=2**12, n_thermal=256, n_replicates=2, seed=None,
+                 rng=None, forward=None) -> dict:
+    """The exact path's weighted designs, for callers that reweigh them (e.g. the planner).
+
+    Same pressure pass and designs as :func:`exact_profile`. Returns a dict: ``models`` (one
+    :class:`~bayescrust.inference.model.LayerModel` per layer), ``hypotheses`` (per layer, with
+    "mantle rock"), ``pressures`` (GPa) and ``replicates``: per independent replicate, ``phi``
+    (J, ndim) thermal points, ``W`` (J,) their posterior weights, and per layer ``layer_w`` (J, N)
+    the posterior weights of its design points given each thermal point and ``layer_q`` the
+    design points' quantities.
+    """
+    if not isinstance(profile, Profile):
+        raise ValueError("exact_design: profile must be a bayescrust.profile.Profile")
+    if int(n_replicates) < 1:
+        raise ValueError(f"n_replicates must be >= 1; got {n_replicates!r}")
+    gen, _ = resolve_rng(seed, rng)
+    streams = gen.spawn(int(n_replicates) + 1)
+    models, hyps, pressures, _ = _pressure_pass(profile, streams[0], n_layer, n_thermal, forward)
+    reps = [_one_replicate(profile, models, hyps, streams[1 + r], n_layer, n_thermal)
+            for r in range(int(n_replicates))]
+    return {"models": models, "hypotheses": hyps, "pressures": pressures, "replicates": reps}
+
+
 def exact_profile(profile: Profile, *, n_layer=2**13, n_thermal=256, n_replicates=4, seed=None,
                   rng=None, forward=None, n_draws=4000):
     """Posterior of a profile by the structured exact path (module docstring).
@@ -174,25 +219,9 @@ def exact_profile(profile: Profile, *, n_layer=2**13, n_thermal=256, n_replicate
     gen, seed_value = resolve_rng(seed, rng)
     streams = gen.spawn(int(n_replicates) + 2)
     t0 = time.perf_counter()
-    models = profile.layer_models(forward=forward)
-    hyps = _hypotheses(profile, models)
+    models, hyps, pressures, p_sd = _pressure_pass(profile, streams[0], n_layer, n_thermal,
+                                                   forward)
     bound = None
-    if profile.pressure == "overburden":
-        first = _one_replicate(profile, models, hyps, streams[0], max(n_layer // 4, 512),
-                               max(n_thermal // 4, 32))
-        ans = _answers(profile, first, hyps)
-        rho_mean = np.array([o @ q["density"] for o, q in zip(ans["omega"], first["layer_q"],
-                                                              strict=True)])
-        rho_sd = np.sqrt(np.maximum([o @ (q["density"] - r) ** 2 for o, q, r in
-                                     zip(ans["omega"], first["layer_q"], rho_mean,
-                                         strict=True)], 0.0))
-        pressures = profile.pressures_gpa(rho_mean)
-        h = profile.bottoms_km - profile.tops_km
-        p_sd = _G * (np.cumsum(rho_sd * h) - rho_sd * h)
-        models = profile.layer_models(pressures, forward=forward)
-    else:
-        pressures = profile.pressures_gpa()
-        p_sd = np.zeros(profile.n_layers)
     reps, answers = [], []
     for r in range(int(n_replicates)):
         rep = _one_replicate(profile, models, hyps, streams[1 + r], n_layer, n_thermal,

@@ -9,7 +9,8 @@ import math
 
 from .style import LINESTYLES, MARKERS, PALETTE, new_figure, style_context
 
-__all__ = ["plan_table", "plan_figure", "PLAN_TABLE_COLUMNS"]
+__all__ = ["plan_table", "plan_figure", "PLAN_TABLE_COLUMNS", "profile_plan_table",
+           "profile_plan_figure", "PROFILE_PLAN_COLUMNS"]
 
 #: Columns of the published plan table, with readable names.
 PLAN_TABLE_COLUMNS = {
@@ -48,7 +49,12 @@ def plan_figure(plan, *, fig=None, title=None):
     One curve per observable (log sigma axis; each observable in its own unit, given in the
     legend); error bars are +-2 Monte Carlo standard errors; the dotted line is today's value.
     """
-    t = plan.table
+    t = plan.table.copy()
+    if "layer" in t.columns:  # profile plans: one curve per observable, mode and layer
+        t["observable"] = [o + (f" ({m.replace('_', ' ')})" if m != "gaussian" else "")
+                           + (f" in {la}" if la else "")
+                           for o, m, la in zip(t["observable"], t["mode"], t["layer"],
+                                               strict=True)]
     obs = list(dict.fromkeys(t["observable"]))
     with style_context():
         fig = fig if fig is not None else new_figure(figsize=(7.6, 3.3))
@@ -62,7 +68,9 @@ def plan_figure(plan, *, fig=None, title=None):
                 if d.empty:
                     continue
                 unit = d["unit"].iloc[0]
-                name = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density"}.get(o, o)
+                head, sep, rest = o.partition(" ")
+                name = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density",
+                        "heat_flow": "heat flow"}.get(head, head) + sep + rest
                 ax.errorbar(d["sigma"], d[key], yerr=2 * d[f"{key}_mcse"],
                             color=PALETTE[i % len(PALETTE)], ls=LINESTYLES[i % len(LINESTYLES)],
                             marker=MARKERS[i % len(MARKERS)], ms=3.5, capsize=2,
@@ -83,6 +91,79 @@ def plan_figure(plan, *, fig=None, title=None):
         axes[0].set_ylim(-0.03, 1.03)
         axes[1].set_ylim(bottom=min(0.0, axes[1].get_ylim()[0]))
         axes[0].legend(loc="best")
+        if title:
+            fig.suptitle(title)
+    return fig
+
+
+#: Columns of the published profile plan table, with readable names.
+PROFILE_PLAN_COLUMNS = {
+    "question": "question",
+    "p_decisive": "P(decisive)",
+    "p_decisive_mcse": "P(decisive) MCSE",
+    "expected_p_true": "E[P(true)]",
+    "information_gain_bits": "information gain (bits)",
+    "information_gain_bits_mcse": "gain MCSE",
+    "interval_narrowing": "interval narrowing",
+    "interval_narrowing_mcse": "narrowing MCSE",
+    "interval_unit": "unit",
+    "relative_narrowing": "narrowing / today",
+    "degenerate": "degenerate updates",
+}
+
+
+def profile_plan_table(pplan, *, readable: bool = False):
+    """The long (candidate x question) table of a :class:`~bayescrust.plan.ProfilePlanResult`;
+    with ``readable=True`` the published columns with readable headers."""
+    t = pplan.table
+    if not readable:
+        return t
+    out = t[list(PROFILE_PLAN_COLUMNS)].rename(columns=PROFILE_PLAN_COLUMNS)
+    out.index.name = "candidate"
+    return out
+
+
+def profile_plan_figure(pplan, *, fig=None, title=None):
+    """Value of each candidate for every question of a profile, as two heat maps.
+
+    Left: expected information gain (bits) on each interpretation question (the layers and the
+    crust-mantle boundary); right: expected narrowing of each thermal parameter's interval, as a
+    fraction of today's width. Rows: candidates in the ranking's order; each cell is annotated.
+    """
+    import numpy as np
+
+    t = pplan.table
+    cands = list(pplan.ranking.index)
+    cls_q = [q for q, k in pplan.questions.items() if k != "thermal"]
+    th_q = [q for q, k in pplan.questions.items() if k == "thermal"]
+
+    def grid(qs, col):
+        return np.array([[float(t[(t.index == c) & (t["question"] == q)][col].iloc[0])
+                          for q in qs] for c in cands])
+
+    panels = [(cls_q, "information_gain_bits", "expected information gain (bits)", "Blues")]
+    if th_q:
+        panels.append((th_q, "relative_narrowing", "interval narrowing / today's width",
+                       "Oranges"))
+    with style_context():
+        width = 3.0 + 0.9 * len(cls_q) + (1.6 + 0.9 * len(th_q) if th_q else 0.0)
+        fig = fig if fig is not None else new_figure(figsize=(width, 1.4 + 0.32 * len(cands)))
+        axes = fig.subplots(1, len(panels), squeeze=False,
+                            width_ratios=[max(len(p[0]), 1) for p in panels])[0]
+        for ax, (qs, col, label, cmap) in zip(axes, panels, strict=True):
+            g = grid(qs, col)
+            hi = max(float(np.nanmax(g)) if np.isfinite(g).any() else 0.0, 1e-9)
+            im = ax.imshow(np.clip(g, 0.0, None), aspect="auto", cmap=cmap, vmin=0.0, vmax=hi)
+            for (i, j), v in np.ndenumerate(g):
+                ax.text(j, i, f"{v:.2f}" if math.isfinite(v) else "-", ha="center",
+                        va="center", fontsize=6.5, color="#000000" if v < 0.6 * hi else "#ffffff")
+            ax.set_xticks(range(len(qs)))
+            ax.set_xticklabels([q.removeprefix("thermal: ") for q in qs], rotation=35,
+                               ha="right")
+            ax.set_yticks(range(len(cands)))
+            ax.set_yticklabels(cands if ax is axes[0] else [])
+            ax.set_title(label, fontsize=8)
+            fig.colorbar(im, ax=ax, fraction=0.05, pad=0.02)
         if title:
             fig.suptitle(title)
     return fig

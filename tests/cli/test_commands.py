@@ -166,6 +166,8 @@ def test_demo_runs(tmp_path):
     assert (out / "compare" / "evidence.csv").is_file()
     assert (out / "chart" / "chart.png").is_file()
     assert (out / "plan" / "plan.csv").is_file() and (out / "plan" / "plan.png").is_file()
+    assert (out / "profile_plan" / "plan.csv").is_file()
+    assert (out / "profile_plan" / "plan.png").is_file()
     # the demo carries a layer the model cannot fit, and says so where a newcomer starts
     assert "DATA MISFIT" in (out / "README.md").read_text()
     hyp = pd.read_csv(out / "invert" / "hypotheses.csv")
