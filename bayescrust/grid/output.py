@@ -6,6 +6,7 @@ Variables (each on the grid's dims; NaN at masked nodes):
   Carlo standard error; ``p_mantle`` (ultramafic fraction >= 0.5) is always present;
 - ``<quantity>_mean``, ``_sd``, ``_hdi_low``, ``_hdi_high`` for temperature, porosity, effective
   melt and serpentinisation, rock-family fractions and predicted Vp, Vs, Vp/Vs and density;
+- ``crustal_age`` (Myr) when the grid has ages (:mod:`bayescrust.grid.ages`);
 - ``importance_ess``, ``table_error``, ``quality`` (flags good / refined / poor / masked),
   ``zone``, ``depth_below_seafloor``, ``vp_observed`` and the per-column ``seafloor_depth``.
 """
@@ -80,6 +81,11 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
     d = np.where(grid.valid, grid.depth_km, np.nan)
     data["depth_below_seafloor"] = (dims, d.reshape(shape).astype(np.float32),
                                     {"long_name": "depth below the seafloor", "units": "km"})
+    if getattr(grid, "age_myr", None) is not None:
+        data["crustal_age"] = (dims, np.where(grid.valid, grid.age_myr, np.nan).reshape(shape)
+                               .astype(np.float32),
+                               {"long_name": "crustal age used by the thermal-state priors",
+                                "units": "Myr"})
     obs0 = next(iter(grid.values))
     v = grid.values[obs0]
     v = v.mean(axis=1) if v.ndim == 2 else v

@@ -98,19 +98,28 @@ _CACHE_SIZE = 3
 
 
 def _design(spec, zone, observables, run):
-    key = (spec["zone"], spec["key"], run.seed, run.n_points, repr(zone), repr(run.options),
-           tuple(observables))
+    key = (spec["zone"], spec["key"], spec.get("age_range"), run.seed, run.n_points, repr(zone),
+           repr(run.options), tuple(observables))
     if key in _CACHE:
         _CACHE.move_to_end(key)
         return _CACHE[key]
     from .levels import Level
 
     level = Level(zone=spec["zone"], key=spec["key"], depth_km=spec["depth_km"],
-                  water_depth_km=spec["water_depth_km"], nodes=np.empty(0, int))
+                  water_depth_km=spec["water_depth_km"], nodes=np.empty(0, int),
+                  age_range=spec.get("age_range"))
     model, hyps, _, q, u = level_design(level, zone, observables, run.seed, run.n_points,
                                         run.options)
     hyps = {**hyps, MANTLE_KEY: {"ultramafic_fraction": (0.5, 1.0)}}
-    entry = (model, DesignTables(q, hyps), q, u)
+    ratio = None
+    ar = spec.get("age_range")
+    if ar is not None and ar[1] > ar[0]:  # ages differ within the level: per-node prior ratio
+        from .ages import AgeRatio
+        from .levels import level_layer
+
+        ratio = AgeRatio(zone, level_layer(level, observables),
+                         model.scalar_priors["temperature_c"])
+    entry = (model, DesignTables(q, hyps), q, u, ratio)
     _CACHE[key] = entry
     while len(_CACHE) > _CACHE_SIZE:
         _CACHE.popitem(last=False)
@@ -141,7 +150,8 @@ def run_chunk(task):
         spec = part["level"]
         sl = slice(part["start"], part["stop"])
         values, sigmas = part["values"], part["sigmas"]
-        model, tables, q, u = _design(spec, zones[spec["zone"]], list(values), run)
+        model, tables, q, u, ratio = _design(spec, zones[spec["zone"]], list(values), run)
+        ages = part.get("ages") if ratio is not None else None
         if spec["path"] == "tabulated":
             name = next(iter(values))
             stats, terr = weigh_tabulated(model, q, tables, name, values[name],
@@ -155,7 +165,7 @@ def run_chunk(task):
                     stats[k][redo] = direct[k]
                 terr[redo] = 0.0
         else:
-            stats = weigh_batched(model, q, tables, values, sigmas)
+            stats = weigh_batched(model, q, tables, values, sigmas, ages=ages, ratio=ratio)
             terr = np.zeros(part["stop"] - part["start"])
         quality = np.zeros(terr.shape[0])
         low = np.flatnonzero(~(stats["importance_ess"] >= run.min_ess))
@@ -165,9 +175,15 @@ def run_chunk(task):
                 continue
             vi = {k: np.asarray(v)[i:i + 1] for k, v in values.items()}
             si = {k: np.asarray(v)[i:i + 1] for k, v in sigmas.items()}
-            w = np.exp(_safe(node_loglik(model, q, vi, si)[0]))
+            ll = node_loglik(model, q, vi, si)[0]
+            age = None
+            if ratio is not None:
+                age = float(ages[i])
+                ll = ll + ratio(ages[i:i + 1], q["temperature_c"])[0]
+            w = np.exp(_safe(ll))
             rng = node_rng(run.seed, int(part["nodes"][i]))
-            ref = refine_node(model, tables, u, w, vi, si, rng, run.n_refine)
+            ref = refine_node(model, tables, u, w, vi, si, rng, run.n_refine, age=age,
+                              ratio=ratio)
             if ref is None:
                 continue
             for k in ref:
@@ -194,18 +210,21 @@ def _plan(grid, zones, run):
     for lev in levels:
         nodes = lev.nodes
         shared = all(np.ptp(grid.sigmas[k][nodes]) == 0 for k in obs)
-        can_tab = len(obs) == 1 and grid.n_ensemble == 1 and shared
+        one_age = lev.age_range is None or lev.age_range[1] == lev.age_range[0]
+        can_tab = len(obs) == 1 and grid.n_ensemble == 1 and shared and one_age
         if run.path == "tabulated" and not can_tab:
             raise ValueError("path='tabulated' needs one observable, no ensemble and one sigma "
                              f"per depth level (level at {lev.depth_km:g} km has "
-                             f"{'several observables' if len(obs) > 1 else 'per-node sigma'})")
+                             f"{'several observables' if len(obs) > 1 else 'per-node sigma'}"
+                             f"{'' if one_age else ' or crustal ages that differ'})")
         n_table = run.n_table
         path = "batched"
         if can_tab and run.path != "batched" and (run.path == "tabulated" or
                                                   nodes.size > 2 * n_table):
             path = "tabulated"
         spec = {"zone": lev.zone, "key": lev.key, "depth_km": lev.depth_km,
-                "water_depth_km": lev.water_depth_km, "path": path}
+                "water_depth_km": lev.water_depth_km, "path": path,
+                "age_range": lev.age_range}
         if path == "tabulated":
             y = grid.values[obs[0]][nodes]
             spec["table"] = table_values(float(y.min()), float(y.max()), n_table)
@@ -226,8 +245,12 @@ def _tasks(grid, zones, run, specs, order, level_of, keys, todo):
         cuts = np.flatnonzero(np.diff(lv)) + 1
         for s, e in zip(np.r_[0, cuts], np.r_[cuts, b - a], strict=True):
             nodes = order[a + s:a + e]
-            parts.append({"level": specs[int(lv[s])], "start": int(s), "stop": int(e),
+            spec = specs[int(lv[s])]
+            ar = spec.get("age_range")
+            parts.append({"level": spec, "start": int(s), "stop": int(e),
                           "nodes": nodes,
+                          "ages": (grid.age_myr[nodes] if ar is not None and ar[1] > ar[0]
+                                   else None),
                           "values": {k: v[nodes] for k, v in grid.values.items()},
                           "sigmas": {k: v[nodes] for k, v in grid.sigmas.items()}})
         yield {"index": int(c), "n": int(b - a), "parts": parts, "run": run, "zones": zones,

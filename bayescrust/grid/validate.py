@@ -1,8 +1,8 @@
 """Validation of a map against per-node MCMC on a random subset of nodes.
 
 Each chosen node is inverted on its own with :func:`bayescrust.invert_layer` (the emcee path)
-under exactly the model the map used for it (the zone's rocks, priors and interpretations, at
-its level's depth and water depth, with its own observations and sigmas), and the map's
+under exactly the model the map used for it (the zone's rocks, priors and interpretations, its
+thermal-state prior at the node's crustal age, at its level's depth and water depth, with its own observations and sigmas), and the map's
 probabilities are compared within the combined Monte Carlo error.
 """
 
@@ -40,6 +40,7 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
 
     from ..inference.api import exact_layer, invert_layer
     from ..inference.layer import Layer
+    from .ages import node_priors
     from .levels import plan_levels
     from .output import variable_name
 
@@ -58,15 +59,17 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
     for i in pick:
         lev = level_of[int(i)]
         zone = zones[lev.zone]
+        ages = getattr(grid, "age_myr", None)
+        priors = node_priors(zone, None if ages is None else float(ages[i]))
         obs = {k: (float(grid.values[k][i]), float(grid.sigmas[k][i])) for k in grid.values}
         top = max(0.0, lev.depth_km - 1e-3)
         layer = Layer(f"node {i}", top_km=top, bottom_km=top + 2e-3,
                       water_depth_km=min(lev.water_depth_km, 11.0), **obs)
         t0 = time.perf_counter()
-        res = fn(layer, rocks=zone.rocks, priors=zone.priors, hypotheses=zone.hypotheses,
+        res = fn(layer, rocks=zone.rocks, priors=priors, hypotheses=zone.hypotheses,
                  seed=int(np.random.SeedSequence(seed, spawn_key=(int(i),)).generate_state(1)[0]),
                  evidence=False, **opts) if method == "mcmc" else fn(
-            layer, rocks=zone.rocks, priors=zone.priors, hypotheses=zone.hypotheses,
+            layer, rocks=zone.rocks, priors=priors, hypotheses=zone.hypotheses,
             seed=int(i), **opts)
         dt = time.perf_counter() - t0
         flat = {d: int(k) for d, k in zip(ds["quality"].dims,

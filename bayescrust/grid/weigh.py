@@ -198,8 +198,12 @@ def _block(n_design, k=1, budget=2_000_000):
     return max(1, budget // max(1, n_design * k))
 
 
-def weigh_batched(model, q, tables, values, sigmas, *, hdi=True):
-    """Statistics of every node (dict of (m,) arrays) by direct importance weighing."""
+def weigh_batched(model, q, tables, values, sigmas, *, hdi=True, ages=None, ratio=None):
+    """Statistics of every node (dict of (m,) arrays) by direct importance weighing.
+
+    With ``ages`` (m,) and ``ratio`` (a :class:`bayescrust.grid.ages.AgeRatio`) every node
+    also weighs the design by its own temperature prior over the design's (the proposal's).
+    """
     m = next(iter(sigmas.values())).shape[0]
     n = tables.ind.shape[0]
     k = max(np.asarray(v).shape[1] if np.ndim(v) == 2 else 1 for v in values.values())
@@ -209,6 +213,8 @@ def weigh_batched(model, q, tables, values, sigmas, *, hdi=True):
         sl = slice(s, s + step)
         ll = node_loglik(model, q, {kk: np.asarray(v)[sl] for kk, v in values.items()},
                          {kk: np.asarray(v)[sl] for kk, v in sigmas.items()})
+        if ratio is not None:
+            ll += ratio(ages[sl], q["temperature_c"])
         parts.append(_summarise(_weights(ll), tables, hdi=hdi))
     return {key: np.concatenate([p[key] for p in parts]) for key in parts[0]}
 
@@ -249,8 +255,13 @@ def weigh_tabulated(model, q, tables, name, y_nodes, sigma, y_table, cache=None)
     return {k: vals[:, i] for i, k in enumerate(keys)}, err[j]
 
 
-def refine_node(model, tables, u_design, w_row, values, sigmas, rng, n_points):
-    """Second, adaptive stage for one node; its statistics (dict of (1,) arrays)."""
+def refine_node(model, tables, u_design, w_row, values, sigmas, rng, n_points, *, age=None,
+                ratio=None):
+    """Second, adaptive stage for one node; its statistics (dict of (1,) arrays).
+
+    ``w_row`` are the node's first-stage weights (its prior ratio included); with ``age`` and
+    ``ratio`` the second stage's weights include the node's prior ratio too.
+    """
     from ..inference.evidence import adaptive_design
 
     n = w_row.shape[0]
@@ -264,6 +275,8 @@ def refine_node(model, tables, u_design, w_row, values, sigmas, rng, n_points):
         return None
     _, q2, log_q, inside = adaptive_design(model, rng, centres, n_points)
     ll = node_loglik(model, q2, values, sigmas)[0]
+    if ratio is not None:
+        ll = ll + ratio(np.array([age]), q2["temperature_c"])[0]
     logw = ll - log_q[inside]
     w = _weights(logw[None, :])
     return _summarise(w, DesignTables(q2, tables.hyps, edges=tables.edges))
