@@ -132,3 +132,76 @@ def test_only_age_differs_temperature_falls_monotonically_with_age():
     assert np.all(np.diff(t, axis=0) < 0), t
     # the geotherm's own trend (erf(z / 2 sqrt(kappa t))) falls by > 500 deg C here
     assert np.all(t[0] - t[-1] > 300.0), t
+
+
+AGE_STUDY = """
+seed = 2
+[thermal.plate]
+kind = "half_space"
+[grid]
+file = "g.nc"
+depth = "z"
+seafloor = 3.0
+variables = {{ vp = "vp" }}
+sigmas = {{ vp = 0.1 }}
+{age}
+level_km = 1.0
+n_points = 1024
+min_ess = 0
+[[grid.zones]]
+name = "lower"
+top_km = 1.5
+bottom_km = 20.0
+rocks = ["gabbro", "harzburgite"]
+{thermal}
+"""
+
+
+@pytest.mark.parametrize("age, expect", [
+    ("age = 7.5", 7.5),
+    ('age = "age_col"', "age_col"),
+    ("age = { axis = 2.0, half_rate_mm_yr = 12.5 }",
+     {"axis": 2.0, "half_rate_mm_yr": 12.5, "distance_unit": "km"}),
+    ("age = { full_rate_mm_yr = 50.0, distance_unit = \"m\" }",
+     {"axis": 0.0, "half_rate_mm_yr": 25.0, "distance_unit": "m"}),
+])
+def test_study_file_age_forms(age, expect):
+    from bayescrust.config.grid import parse_grid_study
+
+    st = parse_grid_study(AGE_STUDY.format(age=age, thermal='thermal_prior = "plate"'),
+                          source="s.toml")
+    assert st.mapping.age == expect
+
+
+@pytest.mark.parametrize("age, thermal, key", [
+    ("age = -1.0", 'thermal_prior = "plate"', "grid.age"),
+    ("age = 250.0", 'thermal_prior = "plate"', "grid.age"),
+    ("age = { axis = 0.0 }", 'thermal_prior = "plate"', "grid.age"),
+    ("age = { half_rate_mm_yr = 0.0 }", 'thermal_prior = "plate"', "grid.age.half_rate_mm_yr"),
+    ("age = { half_rate_mm_yr = 10.0, speed = 1 }", 'thermal_prior = "plate"', "speed"),
+    ('age = { half_rate_mm_yr = 10.0, distance_unit = "mi" }', 'thermal_prior = "plate"',
+     "grid.age.distance_unit"),
+    ("age = 5.0", "", "grid.age"),  # no zone with a half-space prior: the age is unused
+])
+def test_study_file_bad_age_names_file_and_key(age, thermal, key):
+    from bayescrust.config.errors import StudyError
+    from bayescrust.config.grid import parse_grid_study
+
+    with pytest.raises(StudyError) as err:
+        parse_grid_study(AGE_STUDY.format(age=age, thermal=thermal), source="s.toml")
+    assert "s.toml" in str(err.value) and key in str(err.value)
+
+
+def test_map_command_with_age_from_distance(tmp_path, section):
+    from bayescrust.cli import main
+
+    section.isel(x=[0, 5]).to_netcdf(tmp_path / "g.nc", engine="h5netcdf")
+    p = tmp_path / "study.toml"
+    p.write_text(AGE_STUDY.format(age="age = { axis = 0.0, half_rate_mm_yr = 2.0 }",
+                                  thermal='thermal_prior = "plate"'))
+    assert main(["map", str(p), "--out", str(tmp_path / "out"), "-q"]) == 0
+    ds = xr.open_dataset(tmp_path / "out" / "map.nc")
+    # x = 0 and 10 km at 2 mm/yr: 0 (floored to 1e-3) and 5 Myr
+    np.testing.assert_allclose(ds.crustal_age.isel(z=-1).values, [1e-3, 5.0], rtol=1e-6)
+    assert ds.attrs["n_levels_batched"] > 0
+    ds.close()
