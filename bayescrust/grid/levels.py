@@ -91,7 +91,7 @@ def plan_levels(grid, zones, level_km=0.1):
 
     d = grid.depth_km
     ages = node_ages(grid)
-    zone_of = np.full(grid.n_nodes, -1)
+    zone_of = np.full(grid.n_nodes, -1, np.int32)  # int32: 4 bytes a node
     for i, z in enumerate(zones):
         sel = grid.valid & (d >= z.top_km) & (d < z.bottom_km)
         zone_of[sel] = i

@@ -24,9 +24,10 @@ from .weigh import (
     DesignTables,
     node_loglik,
     refine_node,
+    interpolate_table,
+    level_table,
     table_values,
     weigh_batched,
-    weigh_tabulated,
 )
 
 __all__ = ["map_grid", "GridRun", "QUALITY_FLAGS", "result_keys"]
@@ -95,6 +96,8 @@ def result_keys(zones):
 # ----------------------------------------------------------------------------- one chunk
 _CACHE: OrderedDict = OrderedDict()
 _CACHE_SIZE = 3
+#: seconds spent in this process on level designs (forward evaluations), for the benchmark
+TIMES = {"design_s": 0.0, "tables_s": 0.0}
 
 
 def _design(spec, zone, observables, run):
@@ -108,8 +111,10 @@ def _design(spec, zone, observables, run):
     level = Level(zone=spec["zone"], key=spec["key"], depth_km=spec["depth_km"],
                   water_depth_km=spec["water_depth_km"], nodes=np.empty(0, int),
                   age_range=spec.get("age_range"))
+    t0 = time.perf_counter()
     model, hyps, _, q, u = level_design(level, zone, observables, run.seed, run.n_points,
                                         run.options)
+    TIMES["design_s"] += time.perf_counter() - t0
     hyps = {**hyps, MANTLE_KEY: {"ultramafic_fraction": (0.5, 1.0)}}
     ratio = None
     ar = spec.get("age_range")
@@ -141,34 +146,54 @@ def _table_cache(spec, run):
 
 
 def run_chunk(task):
-    """Results of one chunk: ``{key: float32 array}`` over the chunk's nodes (sorted order)."""
+    """Results of one chunk: ``{key: float32 array}`` over the chunk's nodes (sorted order).
+
+    The results are one node-major (m, n_keys) float32 array (``out``'s values are its
+    columns), written in place: tabulated levels are interpolated straight into its rows in
+    blocks, so no per-node draws or float64 copies of the chunk's results are held.
+    """
     run, zones, keys = task["run"], task["zones"], task["keys"]
     m = task["n"]
-    out = {k: np.full(m, np.nan) for k in keys}
+    col = {k: i for i, k in enumerate(keys)}
+    out2 = np.full((m, len(keys)), np.nan, np.float32)
+    out = {k: out2[:, i] for i, k in enumerate(keys)}
     out["table_error"][:] = 0.0
     for part in task["parts"]:
         spec = part["level"]
-        sl = slice(part["start"], part["stop"])
+        a, b = part["start"], part["stop"]
         values, sigmas = part["values"], part["sigmas"]
         model, tables, q, u, ratio = _design(spec, zones[spec["zone"]], list(values), run)
         ages = part.get("ages") if ratio is not None else None
         if spec["path"] == "tabulated":
             name = next(iter(values))
-            stats, terr = weigh_tabulated(model, q, tables, name, values[name],
-                                          sigmas[name][0], spec["table"],
-                                          cache=_table_cache(spec, run))
+            cache = _table_cache(spec, run)
+            if "tab" not in cache:
+                t0 = time.perf_counter()
+                y_fine, tkeys, mat, err = level_table(model, q, tables, name,
+                                                      sigmas[name][0], spec["table"])
+                full = np.full((mat.shape[0], len(keys)), np.nan)  # columns in key order
+                full[:, [col[k] for k in tkeys]] = mat
+                cache["tab"] = (y_fine, full, err)
+                TIMES["tables_s"] += time.perf_counter() - t0
+            y_fine, full, err = cache["tab"]
+            j = interpolate_table(y_fine, full, values[name], out2, start=a)
+            terr = err[j // 2]
             redo = np.flatnonzero(terr > run.table_tol)
             if redo.size:  # interpolation not good enough here: weigh these nodes directly
                 direct = weigh_batched(model, q, tables, {name: values[name][redo]},
                                        {name: sigmas[name][redo]})
-                for k in stats:
-                    stats[k][redo] = direct[k]
+                for k, v in direct.items():
+                    out[k][a + redo] = v
                 terr[redo] = 0.0
+            stats = None
+            ess = out["importance_ess"][a:b]
         else:
             stats = weigh_batched(model, q, tables, values, sigmas, ages=ages, ratio=ratio)
-            terr = np.zeros(part["stop"] - part["start"])
+            terr = np.zeros(b - a)
+            ess = stats["importance_ess"]
         quality = np.zeros(terr.shape[0])
-        low = np.flatnonzero(~(stats["importance_ess"] >= run.min_ess))
+        low = np.flatnonzero(~(ess >= run.min_ess))
+        refined = {}
         for i in low:  # refinement: only the few nodes whose design is too coarse
             quality[i] = QUALITY_FLAGS["poor"]
             if not run.refine or u.shape[1] == 0:
@@ -186,15 +211,18 @@ def run_chunk(task):
                               ratio=ratio)
             if ref is None:
                 continue
-            for k in ref:
-                stats[k][i] = ref[k][0]
+            refined[i] = ref
             if ref["importance_ess"][0] >= run.min_ess:
                 quality[i] = QUALITY_FLAGS["refined"]
-        for k, v in stats.items():
-            out[k][sl] = v
-        out["table_error"][sl] = terr
-        out["quality"][sl] = quality
-    return task["index"], {k: v.astype(np.float32) for k, v in out.items()}
+        if stats is not None:
+            for k, v in stats.items():
+                out[k][a:b] = v
+        for i, ref in refined.items():
+            for k, v in ref.items():
+                out[k][a + i] = v[0]
+        out["table_error"][a:b] = terr
+        out["quality"][a:b] = quality
+    return task["index"], out2
 
 
 def _safe(ll):
@@ -231,7 +259,10 @@ def _plan(grid, zones, run):
         specs.append(spec)
         order.append(nodes)
     order = np.concatenate(order) if order else np.empty(0, int)
-    level_of = np.concatenate([np.full(len(lv.nodes), i) for i, lv in enumerate(levels)]) \
+    if order.size and grid.n_nodes < 2**31:
+        order = order.astype(np.int32)  # 4 bytes a node
+    level_of = np.concatenate([np.full(len(lv.nodes), i, np.int32)
+                               for i, lv in enumerate(levels)]) \
         if levels else np.empty(0, int)
     return specs, order, level_of, zone_of
 
@@ -372,8 +403,9 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     st = _Store(store, keys, n, n_chunks, run.chunk_size, fp) if store is not None else None
     done = st.done()[:n_chunks] if st is not None else np.zeros(n_chunks, bool)
     todo = [c for c in range(n_chunks) if not done[c]]
-    # results go straight into preallocated arrays (no per-chunk list to concatenate)
-    flat = None if st is not None else {k: np.full(n, np.nan, np.float32) for k in keys}
+    # results go straight into grid-ordered float32 arrays, which become the Dataset's
+    # variables without a copy (no per-chunk list to concatenate, no sorted-order duplicate)
+    flat2 = None if st is not None else np.full((grid.n_nodes, len(keys)), np.nan, np.float32)
     cs = run.chunk_size
 
     bar = None
@@ -385,10 +417,9 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     def finish(c, res):
         a, b = c * cs, min((c + 1) * cs, n)
         if st is not None:
-            st.write(c, a, b, res)
+            st.write(c, a, b, {k: res[:, i] for i, k in enumerate(keys)})
         else:
-            for k in keys:
-                flat[k][a:b] = res[k]
+            flat2[order[a:b]] = res  # whole rows: one contiguous copy per node
         if bar is not None:
             bar.update(b - a)
 
@@ -403,9 +434,13 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
             finish(*run_chunk(task))
     if bar is not None:
         bar.close()
+    placed = st is None
     if st is not None:
         flat = st.read(n)
-    info = {"levels": specs, "mode": mode, "n_chunks": n_chunks,
+    else:  # the Dataset's variables are columns of flat2 (strided views, no copies)
+        flat = {k: flat2[:, i] for i, k in enumerate(keys)}
+        del flat2
+    info = {"placed": placed, "levels": specs, "mode": mode, "n_chunks": n_chunks,
             "n_chunks_computed": len(todo), "fingerprint": fp,
             "wall_time_s": time.perf_counter() - t0}
     return build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info)

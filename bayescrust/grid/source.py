@@ -234,7 +234,8 @@ def grid_from_dataset(ds, mapping: GridMapping, *, source="<dataset>") -> GridDa
     else:
         dbsf = np.array(z_nodes)
     column = np.broadcast_to(np.expand_dims(
-        np.arange(int(np.prod(col_shape))).reshape(col_shape), zi), shape).ravel()
+        np.arange(int(np.prod(col_shape)), dtype=np.int32).reshape(col_shape), zi),
+        shape).ravel()
     valid = (dbsf.ravel() > 0.0) & (dbsf.ravel() <= 100.0)
     values, sigmas = {}, {}
     for obs, var in m.variables.items():
@@ -255,7 +256,8 @@ def grid_from_dataset(ds, mapping: GridMapping, *, source="<dataset>") -> GridDa
                            .transpose(*dims).values, float).reshape(n)
         else:
             try:
-                s = np.full(n, float(s_key))
+                # one sigma for every node: a read-only broadcast view (no n-array held)
+                s = np.broadcast_to(np.float64(s_key), (n,))
             except (TypeError, ValueError):
                 raise GridInputError(source, f"sigma of {obs}", f"must be a variable name or a "
                                      f"number; got {s_key!r}") from None

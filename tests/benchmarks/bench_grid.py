@@ -3,7 +3,9 @@
     OPENBLAS_NUM_THREADS=1 python tests/benchmarks/bench_grid.py [--quick]
 
 1. 10^6 nodes, Vp only, one sigma per depth level (tabulated path): time after the forward
-   evaluations (the designs), and the designs' time separately; peak memory (RSS).
+   evaluations (the designs, timed inside the same run: ``grid.run.TIMES``), and the designs'
+   time separately; peak memory: the process's peak RSS (imported libraries, ~145 MiB, and the
+   input grid included) and tracemalloc's peak of the mapping alone (a second run).
 2. 10^4 nodes, Vp and Vs, per-node sigma (batched importance weighing).
 3. The map against per-node MCMC on a few nodes: time per node and |dP|.
 4. dask: a heavy grid on 2 local workers against 1.
@@ -53,32 +55,36 @@ def peak_mib():
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
 
 
-def time_designs(grid, n_points, level_km):
-    """Time of the designs alone (forward evaluations), by mapping one node per level."""
-    from bayescrust.grid.levels import level_design, plan_levels
-
-    levels, _ = plan_levels(grid, ZONES, level_km)
-    t0 = time.perf_counter()
-    for lev in levels:
-        level_design(lev, ZONES[lev.zone], list(grid.values), 0, n_points, {})
-    return time.perf_counter() - t0, len(levels)
-
-
 def main(quick=False):
     print(f"bench_grid (machine shared; OPENBLAS_NUM_THREADS={os.environ['OPENBLAS_NUM_THREADS']})")
     n_points = 2**13
-    # 1. 10^6 nodes, Vp only, shared sigma per level
+    # 1. 10^6 nodes, Vp only, shared sigma per level (default chunk size)
     nx, nz = (1000, 100) if quick else (10_000, 100)
     g = section(nx, nz)
-    t_design, n_lev = time_designs(g, n_points, 0.2)
     grid_run._CACHE.clear()
+    for k in grid_run.TIMES:
+        grid_run.TIMES[k] = 0.0
     t0 = time.perf_counter()
-    m = map_grid(g, ZONES, n_points=n_points, level_km=0.2, n_table=65, min_ess=0,
-                 chunk_size=250_000)
+    m = map_grid(g, ZONES, n_points=n_points, level_km=0.2, n_table=65, min_ess=0)
     t_all = time.perf_counter() - t0
+    t_design = grid_run.TIMES["design_s"]
+    rss = peak_mib()
     print(f"1. {g.n_nodes:.0e} nodes Vp-only, shared sigma: total {t_all:.2f} s, designs "
-          f"{t_design:.2f} s ({n_lev} levels x {n_points} points), after the designs "
-          f"{t_all - t_design:.2f} s; {m.attrs['path_choice']}; peak RSS {peak_mib():.0f} MiB")
+          f"{t_design:.2f} s ({m.attrs['n_levels']} levels x {n_points} points), after the "
+          f"designs {t_all - t_design:.2f} s (level tables {grid_run.TIMES['tables_s']:.2f} s; "
+          f"ratio after/designs {(t_all - t_design) / t_design:.2f}); "
+          f"{m.attrs['path_choice']}; peak RSS {rss:.0f} MiB")
+    del m
+    import tracemalloc
+
+    grid_run._CACHE.clear()
+    grid_run._TABLES.clear()
+    tracemalloc.start()
+    m = map_grid(g, ZONES, n_points=n_points, level_km=0.2, n_table=65, min_ess=0)
+    peak_tm = tracemalloc.get_traced_memory()[1] / 2**20
+    tracemalloc.stop()
+    print(f"   tracemalloc peak of the mapping alone {peak_tm:.0f} MiB "
+          f"(results {g.n_nodes * len(m.data_vars) * 4 / 2**20:.0f} MiB of float32 variables)")
     del m, g
     # 2. 10^4 nodes, Vp + Vs, per-node sigma
     g = section(100, 100, vs=True, per_node_sigma=True)
