@@ -22,10 +22,10 @@ from .levels import MANTLE_KEY, level_design, node_rng, plan_levels
 from .weigh import (
     STAT_QUANTITIES,
     DesignTables,
-    node_loglik,
-    refine_node,
     interpolate_table,
     level_table,
+    node_loglik,
+    refine_node,
     table_values,
     weigh_batched,
 )

@@ -12,8 +12,14 @@ import pytest
 import xarray as xr
 
 from bayescrust import Layer, exact_layer
-from bayescrust.grid import GridInputError, GridMapping, Zone, grid_from_dataset, map_grid
-from bayescrust.grid import variable_name
+from bayescrust.grid import (
+    GridInputError,
+    GridMapping,
+    Zone,
+    grid_from_dataset,
+    map_grid,
+    variable_name,
+)
 from bayescrust.grid.source import grid_from_csv
 from bayescrust.inference.thermal_priors import HalfSpaceCooling
 
