@@ -96,7 +96,7 @@ def main(quick=False):
           f"({m.attrs['path_choice']}); median importance ESS "
           f"{float(np.nanmedian(m.importance_ess)):.0f}")
     # 3. map vs per-node MCMC
-    from bayescrust.grid import validate_nodes
+    from bayescrust.grid import validate_nodes, validation_summary
 
     g3 = section(20, 100)
     t0 = time.perf_counter()
@@ -104,9 +104,17 @@ def main(quick=False):
     t_map_node = (time.perf_counter() - t0) / g3.n_nodes
     df = validate_nodes(g3, ZONES, m3, n_nodes=3 if quick else 20, seed=1, min_ess=2000)
     t_mcmc = df.groupby("node")["time_s"].first().mean()
+    v = validation_summary(df)
     print(f"3. map {t_map_node * 1e3:.2f} ms a node, MCMC {t_mcmc:.1f} s a node: "
-          f"{t_mcmc / t_map_node:.0f}x; max |dP| {df['difference'].abs().max():.4f} "
-          f"(median |z| {df['z'].abs().median():.2f}) on {df['node'].nunique()} nodes")
+          f"{t_mcmc / t_map_node:.0f}x; max |dP| {v['max_abs_dp']:.4f}, max |z| "
+          f"{v['max_abs_z']:.2f}, chi2 {v['chi2']:.1f} / {v['chi2_df']} (p {v['chi2_p']:.3g}); "
+          f"|dP| < 0.005 testable on {v['n_testable']} entries (max there "
+          f"{v['max_abs_dp_testable']:.4f}) on {v['n_nodes']} nodes")
+    dfe = validate_nodes(g3, ZONES, m3, n_nodes=3 if quick else 20, seed=1, method="exact",
+                         n_points=2**16)
+    ve = validation_summary(dfe)
+    print(f"   against the exact reference: max |dP| {ve['max_abs_dp']:.4f}, max |z| "
+          f"{ve['max_abs_z']:.2f}, chi2 {ve['chi2']:.1f} / {ve['chi2_df']}")
     # 4. dask 2 workers vs 1 on a heavy grid (batched path)
     g4 = section(100 if quick else 200, 100, vs=True, per_node_sigma=True)
     times = {}
