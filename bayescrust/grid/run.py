@@ -346,6 +346,9 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     ----------
     grid : GridData
         From :func:`bayescrust.grid.read_grid` or :func:`bayescrust.grid.grid_from_dataset`.
+        Its crustal ages (``GridMapping(age=...)``), if any, give every node of a zone with a
+        ``HalfSpaceCooling`` thermal prior that prior at its own age
+        (:mod:`bayescrust.grid.ages`).
     zones : sequence of Zone
         Depth zones below the seafloor with their rocks, priors and interpretations.
     seed : int
