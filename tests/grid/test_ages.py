@@ -211,3 +211,16 @@ def test_map_command_with_age_from_distance(tmp_path, section):
     np.testing.assert_allclose(ds.crustal_age.isel(z=-1).values, [1e-3, 5.0], rtol=1e-6)
     assert ds.attrs["n_levels_batched"] > 0
     ds.close()
+
+
+def test_ages_do_not_make_results_depend_on_chunking(section):
+    """Per-node prior ratios are computed per node: chunking changes nothing (float32 BLAS
+    rounding aside, as in test_fastpath.test_chunking_does_not_change_results)."""
+    g = grid_from_dataset(section.isel(z=slice(30, 70, 8)),
+                          _mapping({"axis": 4.0, "half_rate_mm_yr": 5.0}))
+    kw = dict(seed=5, n_points=2**11, level_km=1.0, min_ess=60, n_refine=2**11)
+    a = map_grid(g, [HS_ZONE], chunk_size=7, **kw)
+    b = map_grid(g, [HS_ZONE], chunk_size=100_000, **kw)
+    assert a.attrs["n_chunks"] > 1 and a.attrs["n_levels_batched"] > 0
+    for v in a.data_vars:
+        np.testing.assert_allclose(a[v].values, b[v].values, rtol=2e-4, atol=1e-6, err_msg=v)
