@@ -48,7 +48,7 @@ class GridRun:
     min_ess: float = 100.0
     refine: bool = True
     n_refine: int = 2**14
-    n_table: int = 129
+    n_table: int = 65
     table_tol: float = 0.001
     chunk_size: int = 50_000
     path: str = "auto"
@@ -97,7 +97,7 @@ def result_keys(zones):
 _CACHE: OrderedDict = OrderedDict()
 _CACHE_SIZE = 3
 #: seconds spent in this process on level designs (forward evaluations), for the benchmark
-TIMES = {"design_s": 0.0, "tables_s": 0.0}
+TIMES = {"design_s": 0.0, "tables_s": 0.0, "redo_nodes": 0}
 
 
 def _design(spec, zone, observables, run):
@@ -180,6 +180,7 @@ def run_chunk(task):
             terr = err[j // 2]
             redo = np.flatnonzero(terr > run.table_tol)
             if redo.size:  # interpolation not good enough here: weigh these nodes directly
+                TIMES["redo_nodes"] += int(redo.size)
                 direct = weigh_batched(model, q, tables, {name: values[name][redo]},
                                        {name: sigmas[name][redo]})
                 for k, v in direct.items():
@@ -337,7 +338,7 @@ def _zkey(k):
 
 # ----------------------------------------------------------------------------- driver
 def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0, refine=True,
-             n_refine=None, n_table=129, table_tol=0.001, chunk_size=50_000, path="auto",
+             n_refine=None, n_table=65, table_tol=0.001, chunk_size=50_000, path="auto",
              store=None, scheduler=None, n_workers=None, progress=False, model_error=None,
              likelihood="gaussian", nu=4.0, forward=None):
     """Probability maps of a velocity grid by the per-level fast path.
