@@ -155,9 +155,10 @@ def run_chunk(task):
     run, zones, keys = task["run"], task["zones"], task["keys"]
     m = task["n"]
     col = {k: i for i, k in enumerate(keys)}
-    out2 = np.full((m, len(keys)), np.nan, np.float32)
+    # every row is written by its part: tabulated rows in full (NaN for the zone's absent
+    # interpretations), batched rows after a NaN fill of their own rows
+    out2 = np.empty((m, len(keys)), np.float32)
     out = {k: out2[:, i] for i, k in enumerate(keys)}
-    out["table_error"][:] = 0.0
     for part in task["parts"]:
         spec = part["level"]
         a, b = part["start"], part["stop"]
@@ -190,6 +191,7 @@ def run_chunk(task):
             ess = out["importance_ess"][a:b]
         else:
             stats = weigh_batched(model, q, tables, values, sigmas, ages=ages, ratio=ratio)
+            out2[a:b] = np.nan
             terr = np.zeros(b - a)
             ess = stats["importance_ess"]
         quality = np.zeros(terr.shape[0])
@@ -409,7 +411,13 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     todo = [c for c in range(n_chunks) if not done[c]]
     # results go straight into grid-ordered float32 arrays, which become the Dataset's
     # variables without a copy (no per-chunk list to concatenate, no sorted-order duplicate)
-    flat2 = None if st is not None else np.full((grid.n_nodes, len(keys)), np.nan, np.float32)
+    flat2 = None
+    if st is None:  # NaN only where no chunk writes (masked nodes)
+        flat2 = np.empty((grid.n_nodes, len(keys)), np.float32)
+        masked = np.ones(grid.n_nodes, bool)
+        masked[order] = False
+        flat2[masked] = np.nan
+        del masked
     cs = run.chunk_size
 
     bar = None
