@@ -54,16 +54,21 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
         stems = write_section_maps(ds, folder / "maps", variables=maps, dpi=dpi)
         lines.append(f"- `maps/`: {len(stems)} section maps (PNG and PDF)")
     if validate:
-        from ..grid import validate_nodes
+        from ..grid import validate_nodes, validation_summary
 
         with warn.catch("validation"):
             df = validate_nodes(grid, study.zones, ds, n_nodes=validate, seed=seed)
         write_text(folder / "validation.csv", df.to_csv(index=False))
         t_node = df.groupby("node")["time_s"].first().mean()
-        lines.append(f"- `validation.csv`: {df['node'].nunique()} nodes re-inverted by MCMC; "
-                     f"largest |dP| {df['difference'].abs().max():.4f}; "
-                     f"{t_node:.1f} s a node against {t_map / max(1, grid.n_nodes):.2e} s a "
-                     "node for the map")
+        v = validation_summary(df)
+        lines.append(f"- `validation.csv`: {v['n_nodes']} nodes re-inverted by MCMC; "
+                     f"largest |dP| {v['max_abs_dp']:.4f}, largest |z| {v['max_abs_z']:.2f} "
+                     f"(z: dP over the combined Monte Carlo error; expected below 4), "
+                     f"chi-square {v['chi2']:.1f} on {v['chi2_df']} entries (p = "
+                     f"{v['chi2_p']:.3g}); |dP| < {v['bound']:g} is testable on "
+                     f"{v['n_testable']} entries, largest there "
+                     f"{v['max_abs_dp_testable']:.4f}; {t_node:.1f} s a node against "
+                     f"{t_map / max(1, grid.n_nodes):.2e} s a node for the map")
     if warn.messages:
         lines += ["", "## Warnings", ""] + [f"- {m}" for m in warn.messages]
     write_text(folder / "README.md", "\n".join(lines) + "\n")

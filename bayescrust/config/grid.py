@@ -14,6 +14,9 @@ A grid study is its own TOML file (``bayescrust map STUDY``)::
     seafloor = "seafloor"      # variable/column name, or a number
     variables = { vp = "vp" }  # observable -> variable
     sigmas = { vp = 0.1 }      # observable -> variable name or number
+    age = 5.0                  # crustal age, Myr: a number, a per-column variable name, or
+                               # { axis = 0.0, half_rate_mm_yr = 25.0 } (or full_rate_mm_yr;
+                               # distance_unit = "km"): age = |distance - axis| / half rate
     [[grid.zones]]
     name = "upper crust"
     top_km = 0.0               # below the seafloor
@@ -41,10 +44,34 @@ __all__ = ["GridStudy", "load_grid_study", "parse_grid_study", "GRID_KEYS"]
 
 TOP = ("title", "description", "seed", "thermal", "grid")
 GRID_KEYS = ("file", "depth", "depth_unit", "depth_reference", "seafloor", "distance",
-             "ensemble", "variables", "sigmas", "zones", "level_km", "n_points", "min_ess",
+             "ensemble", "variables", "sigmas", "age", "zones", "level_km", "n_points", "min_ess",
              "chunk_size", "path", "n_table", "validate_nodes")
 ZONE_KEYS = ("name", "top_km", "bottom_km", "rocks", "thermal_prior", "priors")
 _OBS = ("vp", "vs", "vp_vs", "density")
+AGE_KEYS = ("axis", "half_rate_mm_yr", "full_rate_mm_yr", "distance_unit")
+
+
+def _read_age(r, value):
+    """``grid.age``: a number (Myr), a variable name, or {axis, half_rate_mm_yr, ...}."""
+    from ..grid.ages import AGE_MAX_MYR
+
+    if isinstance(value, str):
+        return r.string("grid.age", value)
+    if isinstance(value, dict):
+        r.keys("grid.age", value, AGE_KEYS)
+        rates = [k for k in ("half_rate_mm_yr", "full_rate_mm_yr") if k in value]
+        if len(rates) != 1:
+            r.fail("grid.age", "give exactly one of half_rate_mm_yr, full_rate_mm_yr "
+                   "(age = |distance - axis| / half rate; km / (mm/yr) = Myr)")
+        out = {rates[0]: r.number(f"grid.age.{rates[0]}", value[rates[0]], 0.0, 300.0,
+                                  lo_open=True, unit="mm/yr")}
+        if "axis" in value:
+            out["axis"] = r.number("grid.age.axis", value["axis"], None, None)
+        if "distance_unit" in value:
+            out["distance_unit"] = r.string("grid.age.distance_unit", value["distance_unit"],
+                                            ("km", "m"))
+        return out
+    return r.number("grid.age", value, 0.0, AGE_MAX_MYR, unit="Myr")
 
 
 @dataclass(frozen=True)
@@ -106,6 +133,7 @@ def parse_grid_study(text, *, source="<string>", base=None) -> GridStudy:
     for k in variables:
         if k not in sig:
             r.fail(f"grid.sigmas.{k}", f"missing; every variable needs a sigma ({k})")
+    age = _read_age(r, g["age"]) if "age" in g else None
     sf = g.get("seafloor", 0.0)
     if not isinstance(sf, str):
         sf = r.number("grid.seafloor", sf, 0.0, 11000.0)
@@ -116,7 +144,7 @@ def parse_grid_study(text, *, source="<string>", base=None) -> GridStudy:
             depth_reference=r.string("grid.depth_reference",
                                      g.get("depth_reference", "sea_level"),
                                      ("sea_level", "seafloor")),
-            seafloor=sf, ensemble=g.get("ensemble"), distance=g.get("distance"))
+            seafloor=sf, ensemble=g.get("ensemble"), distance=g.get("distance"), age=age)
     except ValueError as exc:
         r.fail("grid", str(exc))
     zones_raw = g["zones"]
@@ -150,6 +178,12 @@ def parse_grid_study(text, *, source="<string>", base=None) -> GridStudy:
             priors["temperature_c"] = build_thermal_prior(thermal[name])
         zname = r.string(f"{key}.name", z.get("name", f"zone {i + 1}"))
         zones.append(Zone(zname, top, bottom, rocks=tuple(rocks), priors=priors or None))
+    if age is not None:
+        from ..grid.ages import age_aware
+
+        if not any(age_aware(z) for z in zones):
+            r.fail("grid.age", "given, but no zone has a thermal_prior of kind 'half_space' "
+                   "(the crustal age only enters the half-space geotherm)")
     opts = {}
     for k, lo, hi in (("level_km", 1e-3, 10.0), ("min_ess", 0.0, 1e6)):
         if k in g:

@@ -19,8 +19,9 @@ from .source import (
     grid_from_dataset,
     read_grid,
 )
-from .validate import validate_nodes
+from .validate import validate_nodes, validation_summary
 
 __all__ = ["Zone", "GridData", "GridDataWarning", "GridInputError", "GridMapping",
            "QUALITY_FLAGS", "column_summary", "grid_from_csv", "grid_from_dataset", "map_grid",
-           "read_grid", "validate_nodes", "variable_name", "write_netcdf"]
+           "read_grid", "validate_nodes", "validation_summary", "variable_name",
+           "write_netcdf"]

@@ -68,6 +68,8 @@ class Level:
     depth_km: float
     water_depth_km: float
     nodes: np.ndarray = field(repr=False)
+    #: age range (Myr) of the level's nodes when its zone's thermal prior depends on age
+    age_range: tuple | None = None
 
 
 def plan_levels(grid, zones, level_km=0.1):
@@ -85,8 +87,11 @@ def plan_levels(grid, zones, level_km=0.1):
     for a, b in zip(zs, zs[1:], strict=False):
         if b.top_km < a.bottom_km:
             raise ValueError(f"zones {a.name!r} and {b.name!r} overlap")
+    from .ages import age_aware, node_ages
+
     d = grid.depth_km
-    zone_of = np.full(grid.n_nodes, -1)
+    ages = node_ages(grid)
+    zone_of = np.full(grid.n_nodes, -1, np.int32)  # int32: 4 bytes a node
     for i, z in enumerate(zones):
         sel = grid.valid & (d >= z.top_km) & (d < z.bottom_km)
         zone_of[sel] = i
@@ -103,9 +108,12 @@ def plan_levels(grid, zones, level_km=0.1):
         for k, s, e in zip(ukeys, starts, ends, strict=True):
             nodes = idx[s:e]
             depth = float(np.clip((k + 0.5) * level_km, z.top_km + 1e-6, z.bottom_km - 1e-6))
+            ar = None
+            if ages is not None and age_aware(z):
+                ar = (float(ages[nodes].min()), float(ages[nodes].max()))
             levels.append(Level(zone=i, key=int(k), depth_km=depth,
                                 water_depth_km=float(np.median(grid.water_depth_km[nodes])),
-                                nodes=nodes))
+                                nodes=nodes, age_range=ar))
     return levels, zone_of
 
 
@@ -128,10 +136,24 @@ def level_layer(level, observables, depth_halfwidth=1e-3):
                  water_depth_km=min(level.water_depth_km, 11.0), **obs)
 
 
+def level_zone(level, zone):
+    """The zone whose priors the level's design is drawn from (the age proposal, if any)."""
+    from .ages import zone_for_ages
+
+    if level.age_range is None:
+        return zone
+    return zone_for_ages(zone, *level.age_range)
+
+
 def level_model(level, zone, observables, options):
-    """``(model, hypotheses)`` of a level: the layer model of the zone at the level's depth."""
+    """``(model, hypotheses)`` of a level: the layer model of the zone at the level's depth.
+
+    With a crustal age per node the model's temperature prior is the level's proposal
+    (:func:`bayescrust.grid.ages.zone_for_ages`).
+    """
     from ..inference.api import _setup
 
+    zone = level_zone(level, zone)
     layer = level_layer(level, observables)
     return _setup(layer, zone.rocks, zone.priors, zone.hypotheses, options.get("model_error"),
                   options.get("likelihood", "gaussian"), options.get("nu", 4.0),

@@ -6,6 +6,7 @@ Variables (each on the grid's dims; NaN at masked nodes):
   Carlo standard error; ``p_mantle`` (ultramafic fraction >= 0.5) is always present;
 - ``<quantity>_mean``, ``_sd``, ``_hdi_low``, ``_hdi_high`` for temperature, porosity, effective
   melt and serpentinisation, rock-family fractions and predicted Vp, Vs, Vp/Vs and density;
+- ``crustal_age`` (Myr) when the grid has ages (:mod:`bayescrust.grid.ages`);
 - ``importance_ess``, ``table_error``, ``quality`` (flags good / refined / poor / masked),
   ``zone``, ``depth_below_seafloor``, ``vp_observed`` and the per-column ``seafloor_depth``.
 """
@@ -43,7 +44,11 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
     n = grid.n_nodes
 
 
+    placed = info.get("placed", False)  # results already on the grid (masked nodes NaN)
+
     def full(key, fill=np.nan, dtype=np.float32):
+        if placed:
+            return flat.pop(key).reshape(shape)
         a = np.full(n, fill, dtype=dtype)
         a[order] = flat.pop(key)  # release each flat result once placed on the grid
         return a.reshape(shape)
@@ -68,7 +73,8 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
                            {"long_name": "largest probability error of the tabulated path",
                             "units": "1"})
     q = np.full(n, QUALITY_FLAGS["masked"], np.int8)
-    q[order] = flat.pop("quality").astype(np.int8)
+    qf = flat.pop("quality")
+    q[order] = (qf[order] if placed else qf).astype(np.int8)
     data["quality"] = (dims, q.reshape(shape),
                        {"long_name": "quality flag of the fast path",
                         "flag_values": np.array(list(QUALITY_FLAGS.values()), np.int8),
@@ -77,9 +83,15 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
     data["zone"] = (dims, zone_of.reshape(shape).astype(np.int8),
                     {"long_name": "depth zone index (-1: none)",
                      "zone_names": ", ".join(z.name for z in zones)})
-    d = np.where(grid.valid, grid.depth_km, np.nan)
-    data["depth_below_seafloor"] = (dims, d.reshape(shape).astype(np.float32),
+    d = grid.depth_km.astype(np.float32)
+    d[~grid.valid] = np.nan
+    data["depth_below_seafloor"] = (dims, d.reshape(shape),
                                     {"long_name": "depth below the seafloor", "units": "km"})
+    if getattr(grid, "age_myr", None) is not None:
+        data["crustal_age"] = (dims, np.where(grid.valid, grid.age_myr, np.nan).reshape(shape)
+                               .astype(np.float32),
+                               {"long_name": "crustal age used by the thermal-state priors",
+                                "units": "Myr"})
     obs0 = next(iter(grid.values))
     v = grid.values[obs0]
     v = v.mean(axis=1) if v.ndim == 2 else v

@@ -22,11 +22,12 @@ from .levels import MANTLE_KEY, level_design, node_rng, plan_levels
 from .weigh import (
     STAT_QUANTITIES,
     DesignTables,
+    interpolate_table,
+    level_table,
     node_loglik,
     refine_node,
     table_values,
     weigh_batched,
-    weigh_tabulated,
 )
 
 __all__ = ["map_grid", "GridRun", "QUALITY_FLAGS", "result_keys"]
@@ -47,7 +48,7 @@ class GridRun:
     min_ess: float = 100.0
     refine: bool = True
     n_refine: int = 2**14
-    n_table: int = 129
+    n_table: int = 65
     table_tol: float = 0.001
     chunk_size: int = 50_000
     path: str = "auto"
@@ -95,22 +96,35 @@ def result_keys(zones):
 # ----------------------------------------------------------------------------- one chunk
 _CACHE: OrderedDict = OrderedDict()
 _CACHE_SIZE = 3
+#: seconds spent in this process on level designs (forward evaluations), for the benchmark
+TIMES = {"design_s": 0.0, "tables_s": 0.0, "redo_nodes": 0}
 
 
 def _design(spec, zone, observables, run):
-    key = (spec["zone"], spec["key"], run.seed, run.n_points, repr(zone), repr(run.options),
-           tuple(observables))
+    key = (spec["zone"], spec["key"], spec.get("age_range"), run.seed, run.n_points, repr(zone),
+           repr(run.options), tuple(observables))
     if key in _CACHE:
         _CACHE.move_to_end(key)
         return _CACHE[key]
     from .levels import Level
 
     level = Level(zone=spec["zone"], key=spec["key"], depth_km=spec["depth_km"],
-                  water_depth_km=spec["water_depth_km"], nodes=np.empty(0, int))
+                  water_depth_km=spec["water_depth_km"], nodes=np.empty(0, int),
+                  age_range=spec.get("age_range"))
+    t0 = time.perf_counter()
     model, hyps, _, q, u = level_design(level, zone, observables, run.seed, run.n_points,
                                         run.options)
+    TIMES["design_s"] += time.perf_counter() - t0
     hyps = {**hyps, MANTLE_KEY: {"ultramafic_fraction": (0.5, 1.0)}}
-    entry = (model, DesignTables(q, hyps), q, u)
+    ratio = None
+    ar = spec.get("age_range")
+    if ar is not None and ar[1] > ar[0]:  # ages differ within the level: per-node prior ratio
+        from .ages import AgeRatio
+        from .levels import level_layer
+
+        ratio = AgeRatio(zone, level_layer(level, observables),
+                         model.scalar_priors["temperature_c"])
+    entry = (model, DesignTables(q, hyps), q, u, ratio)
     _CACHE[key] = entry
     while len(_CACHE) > _CACHE_SIZE:
         _CACHE.popitem(last=False)
@@ -132,53 +146,86 @@ def _table_cache(spec, run):
 
 
 def run_chunk(task):
-    """Results of one chunk: ``{key: float32 array}`` over the chunk's nodes (sorted order)."""
+    """Results of one chunk: ``{key: float32 array}`` over the chunk's nodes (sorted order).
+
+    The results are one node-major (m, n_keys) float32 array (``out``'s values are its
+    columns), written in place: tabulated levels are interpolated straight into its rows in
+    blocks, so no per-node draws or float64 copies of the chunk's results are held.
+    """
     run, zones, keys = task["run"], task["zones"], task["keys"]
     m = task["n"]
-    out = {k: np.full(m, np.nan) for k in keys}
-    out["table_error"][:] = 0.0
+    col = {k: i for i, k in enumerate(keys)}
+    # every row is written by its part: tabulated rows in full (NaN for the zone's absent
+    # interpretations), batched rows after a NaN fill of their own rows
+    out2 = np.empty((m, len(keys)), np.float32)
+    out = {k: out2[:, i] for i, k in enumerate(keys)}
     for part in task["parts"]:
         spec = part["level"]
-        sl = slice(part["start"], part["stop"])
+        a, b = part["start"], part["stop"]
         values, sigmas = part["values"], part["sigmas"]
-        model, tables, q, u = _design(spec, zones[spec["zone"]], list(values), run)
+        model, tables, q, u, ratio = _design(spec, zones[spec["zone"]], list(values), run)
+        ages = part.get("ages") if ratio is not None else None
         if spec["path"] == "tabulated":
             name = next(iter(values))
-            stats, terr = weigh_tabulated(model, q, tables, name, values[name],
-                                          sigmas[name][0], spec["table"],
-                                          cache=_table_cache(spec, run))
+            cache = _table_cache(spec, run)
+            if "tab" not in cache:
+                t0 = time.perf_counter()
+                y_fine, tkeys, mat, err = level_table(model, q, tables, name,
+                                                      sigmas[name][0], spec["table"])
+                full = np.full((mat.shape[0], len(keys)), np.nan)  # columns in key order
+                full[:, [col[k] for k in tkeys]] = mat
+                cache["tab"] = (y_fine, full, err)
+                TIMES["tables_s"] += time.perf_counter() - t0
+            y_fine, full, err = cache["tab"]
+            j = interpolate_table(y_fine, full, values[name], out2, start=a)
+            terr = err[j // 2]
             redo = np.flatnonzero(terr > run.table_tol)
             if redo.size:  # interpolation not good enough here: weigh these nodes directly
+                TIMES["redo_nodes"] += int(redo.size)
                 direct = weigh_batched(model, q, tables, {name: values[name][redo]},
                                        {name: sigmas[name][redo]})
-                for k in stats:
-                    stats[k][redo] = direct[k]
+                for k, v in direct.items():
+                    out[k][a + redo] = v
                 terr[redo] = 0.0
+            stats = None
+            ess = out["importance_ess"][a:b]
         else:
-            stats = weigh_batched(model, q, tables, values, sigmas)
-            terr = np.zeros(part["stop"] - part["start"])
+            stats = weigh_batched(model, q, tables, values, sigmas, ages=ages, ratio=ratio)
+            out2[a:b] = np.nan
+            terr = np.zeros(b - a)
+            ess = stats["importance_ess"]
         quality = np.zeros(terr.shape[0])
-        low = np.flatnonzero(~(stats["importance_ess"] >= run.min_ess))
+        low = np.flatnonzero(~(ess >= run.min_ess))
+        refined = {}
         for i in low:  # refinement: only the few nodes whose design is too coarse
             quality[i] = QUALITY_FLAGS["poor"]
             if not run.refine or u.shape[1] == 0:
                 continue
             vi = {k: np.asarray(v)[i:i + 1] for k, v in values.items()}
             si = {k: np.asarray(v)[i:i + 1] for k, v in sigmas.items()}
-            w = np.exp(_safe(node_loglik(model, q, vi, si)[0]))
+            ll = node_loglik(model, q, vi, si)[0]
+            age = None
+            if ratio is not None:
+                age = float(ages[i])
+                ll = ll + ratio(ages[i:i + 1], q["temperature_c"])[0]
+            w = np.exp(_safe(ll))
             rng = node_rng(run.seed, int(part["nodes"][i]))
-            ref = refine_node(model, tables, u, w, vi, si, rng, run.n_refine)
+            ref = refine_node(model, tables, u, w, vi, si, rng, run.n_refine, age=age,
+                              ratio=ratio)
             if ref is None:
                 continue
-            for k in ref:
-                stats[k][i] = ref[k][0]
+            refined[i] = ref
             if ref["importance_ess"][0] >= run.min_ess:
                 quality[i] = QUALITY_FLAGS["refined"]
-        for k, v in stats.items():
-            out[k][sl] = v
-        out["table_error"][sl] = terr
-        out["quality"][sl] = quality
-    return task["index"], {k: v.astype(np.float32) for k, v in out.items()}
+        if stats is not None:
+            for k, v in stats.items():
+                out[k][a:b] = v
+        for i, ref in refined.items():
+            for k, v in ref.items():
+                out[k][a + i] = v[0]
+        out["table_error"][a:b] = terr
+        out["quality"][a:b] = quality
+    return task["index"], out2
 
 
 def _safe(ll):
@@ -194,25 +241,31 @@ def _plan(grid, zones, run):
     for lev in levels:
         nodes = lev.nodes
         shared = all(np.ptp(grid.sigmas[k][nodes]) == 0 for k in obs)
-        can_tab = len(obs) == 1 and grid.n_ensemble == 1 and shared
+        one_age = lev.age_range is None or lev.age_range[1] == lev.age_range[0]
+        can_tab = len(obs) == 1 and grid.n_ensemble == 1 and shared and one_age
         if run.path == "tabulated" and not can_tab:
             raise ValueError("path='tabulated' needs one observable, no ensemble and one sigma "
                              f"per depth level (level at {lev.depth_km:g} km has "
-                             f"{'several observables' if len(obs) > 1 else 'per-node sigma'})")
+                             f"{'several observables' if len(obs) > 1 else 'per-node sigma'}"
+                             f"{'' if one_age else ' or crustal ages that differ'})")
         n_table = run.n_table
         path = "batched"
         if can_tab and run.path != "batched" and (run.path == "tabulated" or
                                                   nodes.size > 2 * n_table):
             path = "tabulated"
         spec = {"zone": lev.zone, "key": lev.key, "depth_km": lev.depth_km,
-                "water_depth_km": lev.water_depth_km, "path": path}
+                "water_depth_km": lev.water_depth_km, "path": path,
+                "age_range": lev.age_range}
         if path == "tabulated":
             y = grid.values[obs[0]][nodes]
             spec["table"] = table_values(float(y.min()), float(y.max()), n_table)
         specs.append(spec)
         order.append(nodes)
     order = np.concatenate(order) if order else np.empty(0, int)
-    level_of = np.concatenate([np.full(len(lv.nodes), i) for i, lv in enumerate(levels)]) \
+    if order.size and grid.n_nodes < 2**31:
+        order = order.astype(np.int32)  # 4 bytes a node
+    level_of = np.concatenate([np.full(len(lv.nodes), i, np.int32)
+                               for i, lv in enumerate(levels)]) \
         if levels else np.empty(0, int)
     return specs, order, level_of, zone_of
 
@@ -226,8 +279,12 @@ def _tasks(grid, zones, run, specs, order, level_of, keys, todo):
         cuts = np.flatnonzero(np.diff(lv)) + 1
         for s, e in zip(np.r_[0, cuts], np.r_[cuts, b - a], strict=True):
             nodes = order[a + s:a + e]
-            parts.append({"level": specs[int(lv[s])], "start": int(s), "stop": int(e),
+            spec = specs[int(lv[s])]
+            ar = spec.get("age_range")
+            parts.append({"level": spec, "start": int(s), "stop": int(e),
                           "nodes": nodes,
+                          "ages": (grid.age_myr[nodes] if ar is not None and ar[1] > ar[0]
+                                   else None),
                           "values": {k: v[nodes] for k, v in grid.values.items()},
                           "sigmas": {k: v[nodes] for k, v in grid.sigmas.items()}})
         yield {"index": int(c), "n": int(b - a), "parts": parts, "run": run, "zones": zones,
@@ -283,7 +340,7 @@ def _zkey(k):
 
 # ----------------------------------------------------------------------------- driver
 def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0, refine=True,
-             n_refine=None, n_table=129, table_tol=0.001, chunk_size=50_000, path="auto",
+             n_refine=None, n_table=65, table_tol=0.001, chunk_size=50_000, path="auto",
              store=None, scheduler=None, n_workers=None, progress=False, model_error=None,
              likelihood="gaussian", nu=4.0, forward=None):
     """Probability maps of a velocity grid by the per-level fast path.
@@ -292,6 +349,9 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     ----------
     grid : GridData
         From :func:`bayescrust.grid.read_grid` or :func:`bayescrust.grid.grid_from_dataset`.
+        Its crustal ages (``GridMapping(age=...)``), if any, give every node of a zone with a
+        ``HalfSpaceCooling`` thermal prior that prior at its own age
+        (:mod:`bayescrust.grid.ages`).
     zones : sequence of Zone
         Depth zones below the seafloor with their rocks, priors and interpretations.
     seed : int
@@ -349,8 +409,15 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     st = _Store(store, keys, n, n_chunks, run.chunk_size, fp) if store is not None else None
     done = st.done()[:n_chunks] if st is not None else np.zeros(n_chunks, bool)
     todo = [c for c in range(n_chunks) if not done[c]]
-    # results go straight into preallocated arrays (no per-chunk list to concatenate)
-    flat = None if st is not None else {k: np.full(n, np.nan, np.float32) for k in keys}
+    # results go straight into grid-ordered float32 arrays, which become the Dataset's
+    # variables without a copy (no per-chunk list to concatenate, no sorted-order duplicate)
+    flat2 = None
+    if st is None:  # NaN only where no chunk writes (masked nodes)
+        flat2 = np.empty((grid.n_nodes, len(keys)), np.float32)
+        masked = np.ones(grid.n_nodes, bool)
+        masked[order] = False
+        flat2[masked] = np.nan
+        del masked
     cs = run.chunk_size
 
     bar = None
@@ -362,10 +429,9 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     def finish(c, res):
         a, b = c * cs, min((c + 1) * cs, n)
         if st is not None:
-            st.write(c, a, b, res)
+            st.write(c, a, b, {k: res[:, i] for i, k in enumerate(keys)})
         else:
-            for k in keys:
-                flat[k][a:b] = res[k]
+            flat2[order[a:b]] = res  # whole rows: one contiguous copy per node
         if bar is not None:
             bar.update(b - a)
 
@@ -380,9 +446,13 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
             finish(*run_chunk(task))
     if bar is not None:
         bar.close()
+    placed = st is None
     if st is not None:
         flat = st.read(n)
-    info = {"levels": specs, "mode": mode, "n_chunks": n_chunks,
+    else:  # the Dataset's variables are columns of flat2 (strided views, no copies)
+        flat = {k: flat2[:, i] for i, k in enumerate(keys)}
+        del flat2
+    info = {"placed": placed, "levels": specs, "mode": mode, "n_chunks": n_chunks,
             "n_chunks_computed": len(todo), "fingerprint": fp,
             "wall_time_s": time.perf_counter() - t0}
     return build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info)

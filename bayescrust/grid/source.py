@@ -58,6 +58,10 @@ class GridMapping:
     distance : str, optional
         Horizontal coordinate used for the per-column summary and maps (default: first
         non-depth dim).
+    age : float, str or dict, optional
+        Crustal age (Myr) for the half-space thermal-state priors: one number, a per-column
+        variable (CSV column), or ``{"axis": x0, "half_rate_mm_yr": v}`` (age from the distance
+        to the axis along the distance coordinate; see :mod:`bayescrust.grid.ages`).
     """
 
     variables: dict = field(default_factory=lambda: {"vp": "vp"})
@@ -68,8 +72,12 @@ class GridMapping:
     seafloor: object = 0.0
     ensemble: str | None = None
     distance: str | None = None
+    age: object = None
 
     def __post_init__(self):
+        from .ages import check_age_spec
+
+        object.__setattr__(self, "age", check_age_spec(self.age))
         bad = set(self.variables) - set(OBSERVABLES)
         if bad or not self.variables:
             raise ValueError(f"grid variables: unknown observable {sorted(bad)}; allowed "
@@ -118,6 +126,7 @@ class GridData:
     depth_dim: str
     depth_unit: str = "km"
     depth_reference: str = "sea_level"
+    age_myr: np.ndarray | None = None
 
     @property
     def n_nodes(self) -> int:
@@ -139,6 +148,9 @@ class GridData:
             h.update(k.encode())
             h.update(np.ascontiguousarray(self.values[k]).tobytes())
             h.update(np.ascontiguousarray(self.sigmas[k]).tobytes())
+        if self.age_myr is not None:
+            h.update(b"age")
+            h.update(np.ascontiguousarray(self.age_myr).tobytes())
         return h.hexdigest()[:16]
 
 
@@ -222,7 +234,8 @@ def grid_from_dataset(ds, mapping: GridMapping, *, source="<dataset>") -> GridDa
     else:
         dbsf = np.array(z_nodes)
     column = np.broadcast_to(np.expand_dims(
-        np.arange(int(np.prod(col_shape))).reshape(col_shape), zi), shape).ravel()
+        np.arange(int(np.prod(col_shape)), dtype=np.int32).reshape(col_shape), zi),
+        shape).ravel()
     valid = (dbsf.ravel() > 0.0) & (dbsf.ravel() <= 100.0)
     values, sigmas = {}, {}
     for obs, var in m.variables.items():
@@ -243,7 +256,8 @@ def grid_from_dataset(ds, mapping: GridMapping, *, source="<dataset>") -> GridDa
                            .transpose(*dims).values, float).reshape(n)
         else:
             try:
-                s = np.full(n, float(s_key))
+                # one sigma for every node: a read-only broadcast view (no n-array held)
+                s = np.broadcast_to(np.float64(s_key), (n,))
             except (TypeError, ValueError):
                 raise GridInputError(source, f"sigma of {obs}", f"must be a variable name or a "
                                      f"number; got {s_key!r}") from None
@@ -259,12 +273,43 @@ def grid_from_dataset(ds, mapping: GridMapping, *, source="<dataset>") -> GridDa
         dist = np.asarray(mesh[other.index(dname)], float).ravel()
     else:
         dist = np.zeros(1)
+    ages = _ages_of_dataset(ds, m, source, other, ref, ens, sf.shape, dist, column)
     return GridData(dims=dims, shape=shape, coords=coords, depth_km=dbsf.ravel().astype(float),
                     water_depth_km=sf_nodes.ravel().astype(float), values=values,
                     sigmas=sigmas, valid=valid, column=column, distance=dist,
                     distance_name=dname, source=source, seafloor_km=sf.ravel(),
                     depth_dim=m.depth, depth_unit=m.depth_unit,
-                    depth_reference=m.depth_reference)
+                    depth_reference=m.depth_reference, age_myr=ages)
+
+
+def _ages_of_dataset(ds, m, source, other, ref, ens, col_shape, dist, column):
+    """Per-node ages (Myr) from the mapping's ``age`` (None when not given)."""
+    from .ages import ages_from_distance, check_ages
+
+    if m.age is None:
+        return None
+    if isinstance(m.age, str):
+        if m.age not in ds.variables:
+            raise GridInputError(source, m.age, "crustal age variable not found")
+        da = ds[m.age]
+        if set(da.dims) - set(other):
+            raise GridInputError(source, m.age, f"dims {da.dims} must be among the non-depth "
+                                 f"dims {tuple(other)} (one age per column)")
+        col = np.asarray(da.broadcast_like(ref.isel({m.depth: 0}, drop=True)
+                                           .isel({ens: 0} if ens else {}, drop=True))
+                         .transpose(*other).values, float).reshape(-1)
+        name = m.age
+    elif isinstance(m.age, dict):
+        col = ages_from_distance(dist, m.age)
+        name = "age (distance to the axis / half rate)"
+    else:
+        col = np.full(int(np.prod(col_shape)), float(m.age))
+        name = "age"
+    try:
+        col = check_ages(source, name, col)
+    except ValueError as exc:
+        raise GridInputError(source, name, str(exc).split(": ", 2)[-1]) from None
+    return col[column]
 
 
 def grid_from_csv(path, mapping: GridMapping) -> GridData:
@@ -288,6 +333,8 @@ def grid_from_csv(path, mapping: GridMapping) -> GridData:
     needed += [s for s in mapping.sigmas.values() if isinstance(s, str)]
     if isinstance(mapping.seafloor, str):
         needed.append(mapping.seafloor)
+    if isinstance(mapping.age, str):
+        needed.append(mapping.age)
     for c in needed:
         if c not in df.columns:
             raise GridInputError(path, c, f"column not found; columns are {list(df.columns)}")
@@ -316,12 +363,26 @@ def grid_from_csv(path, mapping: GridMapping) -> GridData:
         values[obs], sigmas[obs] = v, s
     sf_col = np.zeros(len(ux))
     sf_col[column] = sf
+    ages = None
+    if mapping.age is not None:
+        from .ages import ages_from_distance, check_ages
+
+        if isinstance(mapping.age, str):
+            a, name = ds[mapping.age].values.astype(float), mapping.age
+        elif isinstance(mapping.age, dict):
+            a, name = ages_from_distance(x, mapping.age), f"age from {dname}"
+        else:
+            a, name = np.full(n, float(mapping.age)), "age"
+        try:
+            ages = check_ages(str(path), name, a)
+        except ValueError as exc:
+            raise GridInputError(path, name, str(exc).split(": ", 2)[-1]) from None
     return GridData(dims=("node",), shape=(n,), coords={"node": np.arange(n), "x": x, "z": z},
                     depth_km=np.where(np.isfinite(dbsf), dbsf, -1.0), water_depth_km=sf,
                     values=values, sigmas=sigmas, valid=valid, column=column.astype(int),
                     distance=ux.astype(float), distance_name=dname, source=str(path),
                     seafloor_km=sf_col, depth_dim=mapping.depth, depth_unit=mapping.depth_unit,
-                    depth_reference=mapping.depth_reference)
+                    depth_reference=mapping.depth_reference, age_myr=ages)
 
 
 def read_grid(path, mapping: GridMapping) -> GridData:

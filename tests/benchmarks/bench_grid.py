@@ -3,7 +3,9 @@
     OPENBLAS_NUM_THREADS=1 python tests/benchmarks/bench_grid.py [--quick]
 
 1. 10^6 nodes, Vp only, one sigma per depth level (tabulated path): time after the forward
-   evaluations (the designs), and the designs' time separately; peak memory (RSS).
+   evaluations (the designs, timed inside the same run: ``grid.run.TIMES``), and the designs'
+   time separately; peak memory: the process's peak RSS (imported libraries, ~145 MiB, and the
+   input grid included) and tracemalloc's peak of the mapping alone (a second run).
 2. 10^4 nodes, Vp and Vs, per-node sigma (batched importance weighing).
 3. The map against per-node MCMC on a few nodes: time per node and |dP|.
 4. dask: a heavy grid on 2 local workers against 1.
@@ -53,32 +55,41 @@ def peak_mib():
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
 
 
-def time_designs(grid, n_points, level_km):
-    """Time of the designs alone (forward evaluations), by mapping one node per level."""
-    from bayescrust.grid.levels import level_design, plan_levels
-
-    levels, _ = plan_levels(grid, ZONES, level_km)
-    t0 = time.perf_counter()
-    for lev in levels:
-        level_design(lev, ZONES[lev.zone], list(grid.values), 0, n_points, {})
-    return time.perf_counter() - t0, len(levels)
-
-
 def main(quick=False):
     print(f"bench_grid (machine shared; OPENBLAS_NUM_THREADS={os.environ['OPENBLAS_NUM_THREADS']})")
     n_points = 2**13
-    # 1. 10^6 nodes, Vp only, shared sigma per level
+    # 1. 10^6 nodes, Vp only, shared sigma per level (default chunk size)
     nx, nz = (1000, 100) if quick else (10_000, 100)
     g = section(nx, nz)
-    t_design, n_lev = time_designs(g, n_points, 0.2)
     grid_run._CACHE.clear()
+    for k in grid_run.TIMES:
+        grid_run.TIMES[k] = type(grid_run.TIMES[k])(0)
     t0 = time.perf_counter()
-    m = map_grid(g, ZONES, n_points=n_points, level_km=0.2, n_table=65, min_ess=0,
-                 chunk_size=250_000)
+    # n_table 33: nodes interpolate on its 33 values and 32 midpoints (65 values, the
+    # resolution this benchmark's n_table = 65 gave before the fine tables); the bound checked
+    # per node (table_tol) is the 33-value table's measured error
+    m = map_grid(g, ZONES, n_points=n_points, level_km=0.2, n_table=33, min_ess=0)
     t_all = time.perf_counter() - t0
+    t_design = grid_run.TIMES["design_s"]
+    rss = peak_mib()
     print(f"1. {g.n_nodes:.0e} nodes Vp-only, shared sigma: total {t_all:.2f} s, designs "
-          f"{t_design:.2f} s ({n_lev} levels x {n_points} points), after the designs "
-          f"{t_all - t_design:.2f} s; {m.attrs['path_choice']}; peak RSS {peak_mib():.0f} MiB")
+          f"{t_design:.2f} s ({m.attrs['n_levels']} levels x {n_points} points), after the "
+          f"designs {t_all - t_design:.2f} s (level tables {grid_run.TIMES['tables_s']:.2f} s; "
+          f"ratio after/designs {(t_all - t_design) / t_design:.2f}); "
+          f"{m.attrs['path_choice']}; {grid_run.TIMES['redo_nodes']} nodes weighed directly "
+          f"for a table error > table_tol, max table error {float(m.table_error.max()):.2g}; "
+          f"peak RSS {rss:.0f} MiB")
+    del m
+    import tracemalloc
+
+    grid_run._CACHE.clear()
+    grid_run._TABLES.clear()
+    tracemalloc.start()
+    m = map_grid(g, ZONES, n_points=n_points, level_km=0.2, n_table=33, min_ess=0)
+    peak_tm = tracemalloc.get_traced_memory()[1] / 2**20
+    tracemalloc.stop()
+    print(f"   tracemalloc peak of the mapping alone {peak_tm:.0f} MiB "
+          f"(results {g.n_nodes * len(m.data_vars) * 4 / 2**20:.0f} MiB of float32 variables)")
     del m, g
     # 2. 10^4 nodes, Vp + Vs, per-node sigma
     g = section(100, 100, vs=True, per_node_sigma=True)
@@ -90,7 +101,7 @@ def main(quick=False):
           f"({m.attrs['path_choice']}); median importance ESS "
           f"{float(np.nanmedian(m.importance_ess)):.0f}")
     # 3. map vs per-node MCMC
-    from bayescrust.grid import validate_nodes
+    from bayescrust.grid import validate_nodes, validation_summary
 
     g3 = section(20, 100)
     t0 = time.perf_counter()
@@ -98,9 +109,17 @@ def main(quick=False):
     t_map_node = (time.perf_counter() - t0) / g3.n_nodes
     df = validate_nodes(g3, ZONES, m3, n_nodes=3 if quick else 20, seed=1, min_ess=2000)
     t_mcmc = df.groupby("node")["time_s"].first().mean()
+    v = validation_summary(df)
     print(f"3. map {t_map_node * 1e3:.2f} ms a node, MCMC {t_mcmc:.1f} s a node: "
-          f"{t_mcmc / t_map_node:.0f}x; max |dP| {df['difference'].abs().max():.4f} "
-          f"(median |z| {df['z'].abs().median():.2f}) on {df['node'].nunique()} nodes")
+          f"{t_mcmc / t_map_node:.0f}x; max |dP| {v['max_abs_dp']:.4f}, max |z| "
+          f"{v['max_abs_z']:.2f}, chi2 {v['chi2']:.1f} / {v['chi2_df']} (p {v['chi2_p']:.3g}); "
+          f"|dP| < 0.005 testable on {v['n_testable']} entries (max there "
+          f"{v['max_abs_dp_testable']:.4f}) on {v['n_nodes']} nodes")
+    dfe = validate_nodes(g3, ZONES, m3, n_nodes=3 if quick else 20, seed=1, method="exact",
+                         n_points=2**16)
+    ve = validation_summary(dfe)
+    print(f"   against the exact reference: max |dP| {ve['max_abs_dp']:.4f}, max |z| "
+          f"{ve['max_abs_z']:.2f}, chi2 {ve['chi2']:.1f} / {ve['chi2_df']}")
     # 4. dask 2 workers vs 1 on a heavy grid (batched path)
     g4 = section(100 if quick else 200, 100, vs=True, per_node_sigma=True)
     times = {}

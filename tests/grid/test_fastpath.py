@@ -47,7 +47,11 @@ def test_tabulated_equals_direct_weighing(section):
 
 def test_chunking_does_not_change_results(section):
     """Same designs and node streams whatever the chunks: equal up to BLAS rounding (the
-    matrix products' blocking depends on the number of rows), refinement included."""
+    matrix products' blocking depends on the number of rows), refinement included. The weights
+    are float32 (weigh.WORK_DTYPE): a sum of 2^11 float32 terms rounds at ~1e-6 relative, and
+    a posterior sd from E[v^2] - E[v]^2 loses up to ~2 more digits, hence rtol 2e-4; the sd
+    of a near-zero quantity (melt fraction ~1e-4) loses all relative digits, hence atol 1e-6
+    (1e-5 of the melt prior's range)."""
     g = _grid(section)
     kw = dict(seed=5, n_points=2**11, level_km=1.0, min_ess=60, n_refine=2**11)
     a = map_grid(g, ZONES, chunk_size=17, **kw)
@@ -55,7 +59,7 @@ def test_chunking_does_not_change_results(section):
     assert a.attrs["n_chunks"] > 1 and b.attrs["n_chunks"] == 1
     assert a.attrs["n_refined"] + a.attrs["n_poor"] > 0  # the node streams are exercised
     for v in a.data_vars:
-        np.testing.assert_allclose(a[v].values, b[v].values, rtol=1e-5, atol=1e-7, err_msg=v)
+        np.testing.assert_allclose(a[v].values, b[v].values, rtol=2e-4, atol=1e-6, err_msg=v)
     np.testing.assert_array_equal(a.quality.values, b.quality.values)
 
 

@@ -1,35 +1,93 @@
-"""The map against per-node MCMC (emcee) on a random subset of nodes.
+"""The map against per-node inversions on a random subset of nodes.
 
-The reference is an independent sampler (bayescrust.invert_layer, checked against brute-force
-quadrature in tests/inference/test_mcmc_vs_exact.py); agreement is judged against the combined
-Monte Carlo standard error of both estimates.
+References: an independent sampler (bayescrust.invert_layer, emcee; checked against brute-force
+quadrature in tests/inference/test_mcmc_vs_exact.py) and the single-layer exact path
+(bayescrust.exact_layer: its own design per node, drawn from the node's prior, with an adaptive
+second stage), each run per node.
+
+How agreement is judged (issue 12 asks |dP| < 0.005 "within Monte Carlo error"): per-node MCMC
+with an ESS of ~2000 has a standard error of ~0.011 at P = 0.5, so a raw |dP| < 0.005 against
+it is untestable (it would fail by chance). The MCMC check is therefore statistical: every
+|z| = |dP| / sqrt(mcse_map^2 + mcse_mcmc^2) < 4 and a chi-square of the z's; the |dP| < 0.005
+bound is checked where both errors are small enough (combined error < 0.005 / 4). Against the
+exact reference (errors ~1e-3) it is checked on every entry: the map's nominal MCSE is the plain
+Monte Carlo formula, conservative for its scrambled-Sobol design (chi2 / df ~ 0.06 measured on
+the default test's 48 entries), so its true error is well below 0.005 / 4 at ESS >= 1000.
 """
 
 import numpy as np
 import pytest
 
-from bayescrust.grid import GridMapping, Zone, grid_from_dataset, map_grid, validate_nodes
+from bayescrust.grid import (
+    GridMapping,
+    Zone,
+    grid_from_dataset,
+    map_grid,
+    validate_nodes,
+    validation_summary,
+)
 
 ZONES = [Zone("lower", 1.5, 20.0, rocks=("gabbro", "harzburgite"))]
 
 
-def _check(section, n_nodes, min_ess):
+def _map(section):
     g = grid_from_dataset(section, GridMapping(variables={"vp": "vp"}, sigmas={"vp": 0.1},
                                                depth="z", seafloor=3.0))
-    m = map_grid(g, ZONES, seed=4, n_points=2**15, level_km=0.5, min_ess=1000)
-    df = validate_nodes(g, ZONES, m, n_nodes=n_nodes, seed=9, min_ess=min_ess)
-    assert df["node"].nunique() == n_nodes
-    # within 4 combined standard errors (+0.01 for the MCMC error estimate's own error)
-    bad = df[np.abs(df["difference"]) > 4 * np.hypot(df["mcse_map"], df["mcse_node"]) + 0.01]
-    assert bad.empty, bad
-    return df
+    return g, map_grid(g, ZONES, seed=4, n_points=2**15, level_km=0.5, min_ess=1000)
+
+
+def test_summary_separates_testable_entries():
+    import pandas as pd
+
+    # two entries: one with errors far below 0.005/4 (testable), one with MCMC-sized errors
+    df = pd.DataFrame({"node": [0, 1], "difference": [0.003, 0.012],
+                       "mcse_map": [3e-4, 2e-3], "mcse_node": [5e-4, 1e-2]})
+    s = validation_summary(df)
+    assert s["n_testable"] == 1 and s["max_abs_dp_testable"] == pytest.approx(0.003)
+    z2 = 0.012 / np.hypot(2e-3, 1e-2)
+    assert s["max_abs_z"] == pytest.approx(0.003 / np.hypot(3e-4, 5e-4))
+    assert s["chi2"] == pytest.approx((0.003 / np.hypot(3e-4, 5e-4)) ** 2 + z2**2)
+    # scipy's chi-square tail with one degree of freedom per entry
+    from scipy import stats
+
+    assert s["chi2_p"] == pytest.approx(stats.chi2.sf(s["chi2"], 2))
 
 
 def test_map_agrees_with_per_node_mcmc_on_one_node(section):
-    _check(section.isel(x=[0], z=slice(40, 46)), 1, 300)
+    g, m = _map(section.isel(x=[0], z=slice(40, 46)))
+    df = validate_nodes(g, ZONES, m, n_nodes=1, seed=9, min_ess=300)
+    s = validation_summary(df)
+    assert s["n_nodes"] == 1
+    assert s["max_abs_z"] < 4.0, df
+
+
+def test_map_agrees_with_exact_reference_within_0005(section):
+    """|dP| < 0.005 (issue 12's bound) on every entry against the exact reference (measured
+    largest 0.0038, at the node of lowest importance ESS, 1142)."""
+    g, m = _map(section.isel(x=[0, 3], z=slice(20, 70, 10)))
+    df = validate_nodes(g, ZONES, m, n_nodes=6, seed=5, method="exact", n_points=2**16)
+    s = validation_summary(df)
+    assert s["n_nodes"] == 6
+    assert s["max_abs_dp"] < 0.005, (s, df.sort_values("difference"))
+    assert s["max_abs_z"] < 4.0, s
+    assert s["chi2_p"] > 1e-3, s
 
 
 @pytest.mark.slow
 def test_map_agrees_with_per_node_mcmc_on_twenty_nodes(section):
-    df = _check(section, 20, 2000)
-    assert float(np.abs(df["difference"]).max()) < 0.05
+    g, m = _map(section)
+    df = validate_nodes(g, ZONES, m, n_nodes=20, seed=9, min_ess=2000)
+    s = validation_summary(df)
+    assert s["n_nodes"] == 20
+    assert s["max_abs_z"] < 4.0, s
+    assert s["chi2_p"] > 1e-3, s
+    if s["n_testable"]:
+        assert s["max_abs_dp_testable"] < 0.005, s
+
+
+@pytest.mark.slow
+def test_map_agrees_with_exact_reference_on_twenty_nodes(section):
+    g, m = _map(section)
+    df = validate_nodes(g, ZONES, m, n_nodes=20, seed=9, method="exact", n_points=2**16)
+    s = validation_summary(df)
+    assert s["max_abs_dp"] < 0.005 and s["max_abs_z"] < 4.0, s
