@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import os
 import time
 from pathlib import Path
 
@@ -84,34 +85,44 @@ def cmd_demo(args) -> int:
         # and map use the exact or fast paths (--method mcmc runs every layer by MCMC)
         method = args.method or "exact"
         compare_method = args.method or "exact"
-        say(args, f"demo: inverting {len(study.layers)} layers ({method})")
-        (tmp / "invert").mkdir()
-        results = do_invert(args, study, tmp / "invert", method=method, figures=True)
-        misfits = [n for n, r in results.items() if r.misfit]
+        mcmc_part = None
         if method != "mcmc":
-            say(args, f"demo: the deep layer of TL-12 by MCMC ({_DEMO_MCMC_LAYER!r})")
             (tmp / "mcmc").mkdir()
-            do_invert(args, study, tmp / "mcmc", method="mcmc", figures=True,
-                      layer_names=[_DEMO_MCMC_LAYER])
-        say(args, f"demo: comparing thermal-state priors for the deep layers ({compare_method})")
-        (tmp / "compare").mkdir()
-        do_compare(args, study, tmp / "compare", method=compare_method, figures=True,
-                    layer_names=_DEMO_COMPARE_LAYERS)
-        say(args, "demo: probability chart for the deep layer")
-        (tmp / "chart").mkdir()
-        chart_args = argparse.Namespace(vp_min=None, vp_max=None, points=args.points,
-                                        seed=args.seed, quiet=args.quiet)
-        do_chart(chart_args, study, tmp / "chart", layer_name=_DEMO_CHART_LAYER,
-                  method="exact", figures=True)
-        plan_s = demo_plan(args, study, tmp / "plan")
-        say(args, "demo: whole profile of line TL-12 (structured exact path)")
-        profile_s = demo_profile(args, tmp / "study" / "tallowmere_profile.toml", tmp / "profile")
-        say(args, "demo: which new datum would settle the TL-12 profile's questions (plan)")
-        profile_plan_s = demo_profile_plan(args, tmp / "study" / "tallowmere_profile.toml",
-                                           tmp / "profile_plan")
-        say(args, "demo: probability map of an invented section across the ridge (fast path)")
-        (tmp / "map").mkdir()
-        t_grid = demo_grid(args, tmp / "map", tmp / "study")
+            mcmc_part = _start_mcmc_part(args, study, tmp / "mcmc")
+        try:
+            say(args, f"demo: inverting {len(study.layers)} layers ({method})")
+            (tmp / "invert").mkdir()
+            results = do_invert(args, study, tmp / "invert", method=method, figures=True)
+            misfits = [n for n, r in results.items() if r.misfit]
+            say(args, "demo: comparing thermal-state priors for the deep layers "
+                      f"({compare_method})")
+            (tmp / "compare").mkdir()
+            do_compare(args, study, tmp / "compare", method=compare_method, figures=True,
+                        layer_names=_DEMO_COMPARE_LAYERS)
+            say(args, "demo: probability chart for the deep layer")
+            (tmp / "chart").mkdir()
+            chart_args = argparse.Namespace(vp_min=None, vp_max=None, points=args.points,
+                                            seed=args.seed, quiet=args.quiet)
+            do_chart(chart_args, study, tmp / "chart", layer_name=_DEMO_CHART_LAYER,
+                      method="exact", figures=True)
+            plan_s = demo_plan(args, study, tmp / "plan")
+            say(args, "demo: whole profile of line TL-12 (structured exact path)")
+            profile_s = demo_profile(args, tmp / "study" / "tallowmere_profile.toml",
+                                     tmp / "profile")
+            say(args, "demo: which new datum would settle the TL-12 profile's questions (plan)")
+            profile_plan_s = demo_profile_plan(args, tmp / "study" / "tallowmere_profile.toml",
+                                               tmp / "profile_plan")
+            say(args, "demo: probability map of an invented section across the ridge "
+                      "(fast path)")
+            (tmp / "map").mkdir()
+            t_grid = demo_grid(args, tmp / "map", tmp / "study")
+        except BaseException:
+            # wait for the second process, so that the output folder is removed only after it
+            # has stopped writing; this process's error is the one reported
+            if mcmc_part and mcmc_part[0] is not None:
+                mcmc_part[0].exception()
+            raise
+        mcmc_s = _finish_mcmc_part(args, *mcmc_part) if mcmc_part else None
         elapsed = time.perf_counter() - t0
         write_text(tmp / "README.md", "\n".join([
             "# bayescrust demo (invented data)", "",
@@ -127,7 +138,9 @@ def cmd_demo(args) -> int:
             f"- `invert/`: every layer inverted ({method}); start with `invert/report.md`",
             *(["- `mcmc/`: the deep layer of TL-12 by MCMC (emcee), the main sampler; its "
                "probabilities, with their Monte Carlo errors, can be set beside the exact "
-               "reference in `invert/`"]
+               f"reference in `invert/` ({mcmc_s:.1f} s"
+               + (", run in a second process beside the other parts)" if mcmc_part[0]
+                  else ")")]
               if method != "mcmc" else []),
             f"- `compare/`: the deep layers under three thermal-state priors ({compare_method})",
             "- `chart/`: probability of each interpretation against observed Vp",
@@ -162,6 +175,48 @@ def cmd_demo(args) -> int:
     say(args, f"demo: done in {time.perf_counter() - t0:.1f} s; start with {out}/README.md")
     print(out)
     return 0
+
+
+def _mcmc_part(args, study, dest) -> float:
+    """The demo's MCMC part (module level, so that a worker process can run it)."""
+    t0 = time.perf_counter()
+    do_invert(args, study, dest, method="mcmc", figures=True, layer_names=[_DEMO_MCMC_LAYER])
+    return time.perf_counter() - t0
+
+
+def _start_mcmc_part(args, study, dest):
+    """Start the MCMC part: in a second process when the machine has two cores or more (it is
+    independent of the other parts, which then run beside it), else at once, in this one.
+
+    Returns ``(future_or_None, start_time)`` for :func:`_finish_mcmc_part`.
+    """
+    import concurrent.futures as cf
+    import multiprocessing as mp
+
+    t0 = time.perf_counter()
+    if (os.cpu_count() or 1) < 2:
+        say(args, f"demo: the deep layer of TL-12 by MCMC ({_DEMO_MCMC_LAYER!r})")
+        _mcmc_part(args, study, dest)
+        return None, t0
+    say(args, f"demo: the deep layer of TL-12 by MCMC ({_DEMO_MCMC_LAYER!r}), in a second "
+              "process beside the other parts")
+    # spawn: a clean interpreter (no forked matplotlib or BLAS thread state); quiet, so that
+    # its progress bar does not interleave with this process's messages (warnings still show)
+    child_args = argparse.Namespace(**{**vars(args), "quiet": True})
+    pool = cf.ProcessPoolExecutor(max_workers=1, mp_context=mp.get_context("spawn"))
+    future = pool.submit(_mcmc_part, child_args, study, dest)
+    pool.shutdown(wait=False)
+    return future, t0
+
+
+def _finish_mcmc_part(args, future, t0) -> float:
+    """Wait for the MCMC part started by :func:`_start_mcmc_part` (its errors re-raised);
+    returns its run time (s)."""
+    if future is None:
+        return time.perf_counter() - t0
+    took = future.result()
+    say(args, f"demo: MCMC part done in {took:.1f} s (in the second process)")
+    return took
 
 
 #: Reduced designs of the demo's profile plan (the study file's [plan] has the full ones).

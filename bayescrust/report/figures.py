@@ -150,8 +150,13 @@ def corner_figure(idata, *, var_names=None, fig=None, color=PALETTE[0], bins=30)
     return fig
 
 
-def trace_figure(idata, *, var_names=None, fig=None, max_chains=64):
-    """Trace of every chain (walker) per variable, with its marginal histogram beside it."""
+def trace_figure(idata, *, var_names=None, fig=None, max_chains=16):
+    """Trace of the chains (walkers) per variable, with the marginal histogram of all chains
+    beside it.
+
+    At most ``max_chains`` walkers are drawn (more lines only blacken the panel and slow the
+    rendering); their lines are rasterised in vector formats, the axes and text stay vector.
+    """
     names = list(var_names) if var_names is not None else free_parameters(idata)
     if not names:
         raise ValueError("trace_figure: no varying posterior variable to plot")
@@ -162,12 +167,14 @@ def trace_figure(idata, *, var_names=None, fig=None, max_chains=64):
             x = _draws(idata, "posterior", n)
             ax, axh = axes[i]
             for c in range(min(x.shape[0], max_chains)):
-                ax.plot(x[c], color=PALETTE[c % 6], lw=0.5, alpha=0.35)
+                ax.plot(x[c], color=PALETTE[c % 6], lw=0.5, alpha=0.35, rasterized=True)
             ax.set_ylabel(label(n), fontsize=7.5)
             axh.hist(x.ravel(), bins=40, orientation="horizontal", color=PALETTE[0], alpha=0.6)
             axh.set_xticks([])
         axes[-1, 0].set_xlabel("draw (after burn-in and thinning)")
-        fig.suptitle(f"Trace of {min(x.shape[0], max_chains)} chains (walkers)")
+        shown = min(x.shape[0], max_chains)
+        fig.suptitle(f"Trace of {shown} of {x.shape[0]} chains (walkers)" if shown < x.shape[0]
+                     else f"Trace of {shown} chains (walkers)")
     return fig
 
 
