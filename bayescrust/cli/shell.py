@@ -147,10 +147,17 @@ def write_table(folder: Path, stem: str, df, *, caption: str, index: bool = True
 
 
 def save_figure(fig, folder: Path, stem: str):
+    """Write ``fig`` in every :data:`FIG_FORMATS` (PNG at 200 dpi).
+
+    A figure laid out by a layout engine (constrained layout) already fits its canvas and is
+    saved as it is; others (e.g. corner plots) are cropped to their drawn extent
+    (``bbox_inches="tight"``, which costs a second draw).
+    """
     folder.mkdir(parents=True, exist_ok=True)
+    bbox = None if fig.get_layout_engine() is not None else "tight"
     for fmt in FIG_FORMATS:
         fig.savefig(folder / f"{stem}.{fmt}", dpi=200 if fmt == "png" else None,
-                    bbox_inches="tight")
+                    bbox_inches=bbox)
 
 
 def use_agg():

@@ -8,6 +8,8 @@ are imported inside the functions.
 
 from __future__ import annotations
 
+import textwrap
+
 import numpy as np
 
 from ..inference.model import DERIVED_QUANTITIES, SCALAR_PARAMETERS
@@ -168,7 +170,8 @@ def trace_figure(idata, *, var_names=None, fig=None, max_chains=16):
             ax, axh = axes[i]
             for c in range(min(x.shape[0], max_chains)):
                 ax.plot(x[c], color=PALETTE[c % 6], lw=0.5, alpha=0.35, rasterized=True)
-            ax.set_ylabel(label(n), fontsize=7.5)
+            # long labels (e.g. serpentinisation) wrap, so that neighbouring rows do not overlap
+            ax.set_ylabel(textwrap.fill(label(n), 22), fontsize=7.5)
             axh.hist(x.ravel(), bins=40, orientation="horizontal", color=PALETTE[0], alpha=0.6)
             axh.set_xticks([])
         axes[-1, 0].set_xlabel("draw (after burn-in and thinning)")
