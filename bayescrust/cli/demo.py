@@ -177,11 +177,23 @@ def cmd_demo(args) -> int:
     return 0
 
 
-def _mcmc_part(args, study, dest) -> float:
-    """The demo's MCMC part (module level, so that a worker process can run it)."""
+def _mcmc_part(args, study, dest, capture=False):
+    """The demo's MCMC part (module level, so that a worker process can run it).
+
+    Returns ``(seconds, warning lines)``; with ``capture`` its messages are kept from the
+    terminal (a second process would interleave them, progress bar included) and its warnings
+    returned, for the parent to echo.
+    """
+    import contextlib
+    import io
+
     t0 = time.perf_counter()
-    do_invert(args, study, dest, method="mcmc", figures=True, layer_names=[_DEMO_MCMC_LAYER])
-    return time.perf_counter() - t0
+    buf = io.StringIO()
+    with contextlib.redirect_stderr(buf) if capture else contextlib.nullcontext():
+        do_invert(args, study, dest, method="mcmc", figures=True,
+                  layer_names=[_DEMO_MCMC_LAYER])
+    lines = [ln for ln in buf.getvalue().splitlines() if ln.startswith("bayescrust: warning")]
+    return time.perf_counter() - t0, lines
 
 
 def _start_mcmc_part(args, study, dest):
@@ -194,17 +206,17 @@ def _start_mcmc_part(args, study, dest):
     import multiprocessing as mp
 
     t0 = time.perf_counter()
-    if (os.cpu_count() or 1) < 2:
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+    if (cores or 1) < 2:
         say(args, f"demo: the deep layer of TL-12 by MCMC ({_DEMO_MCMC_LAYER!r})")
         _mcmc_part(args, study, dest)
         return None, t0
     say(args, f"demo: the deep layer of TL-12 by MCMC ({_DEMO_MCMC_LAYER!r}), in a second "
               "process beside the other parts")
-    # spawn: a clean interpreter (no forked matplotlib or BLAS thread state); quiet, so that
-    # its progress bar does not interleave with this process's messages (warnings still show)
-    child_args = argparse.Namespace(**{**vars(args), "quiet": True})
+    # spawn: a clean interpreter (no forked matplotlib or BLAS thread state); its messages are
+    # captured and its warnings echoed here when it is done
     pool = cf.ProcessPoolExecutor(max_workers=1, mp_context=mp.get_context("spawn"))
-    future = pool.submit(_mcmc_part, child_args, study, dest)
+    future = pool.submit(_mcmc_part, args, study, dest, True)
     pool.shutdown(wait=False)
     return future, t0
 
@@ -214,8 +226,10 @@ def _finish_mcmc_part(args, future, t0) -> float:
     returns its run time (s)."""
     if future is None:
         return time.perf_counter() - t0
-    took = future.result()
+    took, warned = future.result()
     say(args, f"demo: MCMC part done in {took:.1f} s (in the second process)")
+    for line in warned:
+        say(args, line)
     return took
 
 

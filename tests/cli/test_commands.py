@@ -1,6 +1,7 @@
 """End-to-end tests of the command line, each in a temporary folder."""
 
 import json
+import sys
 import tomllib
 
 import numpy as np
@@ -173,6 +174,31 @@ def test_demo_runs(tmp_path):
     hyp = pd.read_csv(out / "invert" / "hypotheses.csv")
     for _, g in hyp.groupby("layer"):  # every demo layer's interpretations partition the space
         assert abs(g["posterior_probability"].sum() - 1) < SUM_TOL
+
+
+def test_demo_mcmc_part_echoes_its_warnings(tmp_path, monkeypatch, capsys):
+    # the demo's MCMC part runs in a second process with its messages captured: its warnings
+    # (e.g. not converged) must still reach the terminal, its progress output must not
+    import argparse
+
+    import bayescrust.cli.demo as demo
+
+    def fake_invert(args, study, dest, **kw):
+        print("sampling: 100%|####| 300/300", file=sys.stderr)
+        print("bayescrust: warning: layer 'x': ConvergenceWarning: not converged",
+              file=sys.stderr)
+
+    monkeypatch.setattr(demo, "do_invert", fake_invert)
+    took, lines = demo._mcmc_part(argparse.Namespace(quiet=False), None, tmp_path, True)
+    assert lines == ["bayescrust: warning: layer 'x': ConvergenceWarning: not converged"]
+    assert capsys.readouterr().err == ""
+
+    class Done:
+        def result(self):
+            return took, lines
+
+    demo._finish_mcmc_part(argparse.Namespace(quiet=False), Done(), 0.0)
+    assert "ConvergenceWarning: not converged" in capsys.readouterr().err
 
 
 @pytest.mark.parametrize("command", ["invert", "compare"])
