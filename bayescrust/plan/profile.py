@@ -462,9 +462,8 @@ def plan_profile(profile, *, candidates=None, seed=None, rank_question=BOUNDARY_
             what = (f"degenerate for up to {n_kept} of {s.n_simulations} simulated data and "
                     "max_reruns is 0; values of those data kept")
         else:
-            what = (f"still degenerate after the exact rerun (new thermal points for the "
-                    f"stored layer designs) for up to {n_kept} of {n_of} rerun data; their "
-                    "values kept")
+            what = (f"still degenerate after the exact rerun for up to {n_kept} of {n_of} "
+                    "rerun data; their values kept")
         warnings.warn(f"candidate {lab!r}: importance reweighting {what} (effective size < "
                       f"{s.min_ess:g}; more n_layer / n_thermal reduce this)",
                       DegeneracyWarning, stacklevel=2)

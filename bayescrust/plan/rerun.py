@@ -81,8 +81,12 @@ class ProfileRerun:
 
     #: Pilot points for the centres of a heat flow's proposal (:meth:`_centres`).
     PILOT = 4096
-    #: New thermal points per replicate, as a fraction of today's.
+    #: New thermal points per replicate: this fraction of today's, and at least
+    #: ``POINTS_PER_ESS * min_ess`` over all replicates (the rerun's thermal weights reached an
+    #: effective size of 0.3-0.6 times the number of points in the tests and the demo); at
+    #: most ``rerun_points`` (:class:`~.preposterior.Settings`).
     POINTS_FRACTION = 0.5
+    POINTS_PER_ESS = 3.0
 
     def __init__(self, profile, design, questions):
         from ..inference.hypotheses import indicators
@@ -102,31 +106,34 @@ class ProfileRerun:
         return functools.partial(self.rerun, question)
 
     # ----------------------------------------------------------------------------- pieces
-    def _layer_kernel(self, question, i, s):
-        """Kernel over the pooled design points of layer ``i`` (classes, hypotheses and
-        temperature fixed; only their weights change between reruns), and the mask of points
-        whose membership pattern has no class."""
+    def _layer_kernel(self, question, i, s, qs=None):
+        """Kernel over the pooled design points ``qs`` of layer ``i`` (default: the stored ones,
+        whose kernel is cached: only their weights change between reruns), and the mask of
+        points whose membership pattern has no class."""
         from ..inference.hypotheses import indicators
         from .ensemble import assign_classes
 
         key = (question, s.quantity)
-        if key not in self._layer_kernels:
-            hyps = {h: b for h, b in self.design["hypotheses"][i].items() if h != "mantle rock"}
-            names = self.questions[question][2]
+        if qs is None and key in self._layer_kernels:
+            return self._layer_kernels[key]
+        hyps = {h: b for h, b in self.design["hypotheses"][i].items() if h != "mantle rock"}
+        names = self.questions[question][2]
+        stored = qs is None
+        if stored:
             qs = [rep["layer_q"][i] for rep in self.design["replicates"]]
-            ind = [indicators(hyps, q) for q in qs]
-            cls = np.concatenate([assign_classes(d, names) for d in ind])
-            pooled = {h: np.concatenate([d[h] for d in ind]) for h in hyps}
-            t = np.concatenate([np.asarray(q["temperature_c"], float) for q in qs])
-            kern = _Kernel.__new__(_Kernel).setup(np.maximum(cls, 0), pooled,
-                                                  {s.quantity: t}, len(names), s)
+        ind = [indicators(hyps, q) for q in qs]
+        cls = np.concatenate([assign_classes(d, names) for d in ind])
+        pooled = {h: np.concatenate([d[h] for d in ind]) for h in hyps}
+        t = np.concatenate([np.asarray(q["temperature_c"], float) for q in qs])
+        kern = _Kernel.__new__(_Kernel).setup(np.maximum(cls, 0), pooled, {s.quantity: t},
+                                              len(names), s)
+        if stored:
             self._layer_kernels[key] = (kern, cls >= 0)
-        return self._layer_kernels[key]
+        return kern, cls >= 0
 
-    def _datum_at_layer(self, ens, cand, y, law, layer, rep):
-        """The new datum's log-likelihood at one replicate's design points of ``layer``."""
+    def _datum_at_layer(self, ens, cand, y, law, q):
+        """The new datum's log-likelihood at design points ``q`` of the layer it informs."""
         th = self.profile.thermal
-        q = rep["layer_q"][layer]
         if cand.observable == "heat_flow":  # uncoupled: the top layer's conductive gradient
             q = {"heat_flow": th.conductivity_w_mk * (np.asarray(q["temperature_c"], float)
                                                       - th.surface_temperature_c)
@@ -171,16 +178,39 @@ class ProfileRerun:
             lw = lw + np.concatenate(ratio)
         return resample_centres(rng, u, np.exp(lw - np.max(lw)))
 
-    def _replicate(self, rep, r, ens, cand, y, law, affected, extra, centres, keep, rng,
-                   boundary=True):
-        """New thermal points of one replicate: ``(phi, W (J',), mantle (J', L), {layer:
-        marginal weights of its design points})``."""
+    def _fresh_layer(self, ens, cand, y, law, i, rep, omega, rng, n_points):
+        """A fresh design of layer ``i`` for one replicate: the layer path's adaptive stage
+        (:func:`~bayescrust.inference.evidence.adaptive_design`) centred on the stored points
+        resampled by their marginal weights after the datum. Returns its view ``(ll, t, mantle
+        indicator, quantities)`` with ``ll`` the log-likelihood with the datum, over the
+        proposal density in the layer's unit cube (where the stored design is uniform)."""
+        from ..inference.evidence import adaptive_design, resample_centres, weigh_design
+        from ..inference.hypotheses import indicators
+        from ..profile.spec import MANTLE_RULE
+
+        prof, th = self.profile, self.profile.thermal
+        model = self.design["models"][i]
+        centres = resample_centres(rng, rep["layer_u"][i], omega)
+        _, q, log_q, inside = adaptive_design(model, rng, centres, n_points)
+        ll, _ = weigh_design(model, q)
+        t = np.asarray(q["temperature_c"], float)
+        hf = prof.heat_flow if (prof.heat_flow and prof.heat_flow.mode != "off") else None
+        if not th.coupled and hf is not None and i == 0:  # as the exact path
+            ll = ll + hf.log_likelihood(th.conductivity_w_mk * (t - th.surface_temperature_c)
+                                        / prof.mid_depths_km[0])
+        ll = ll + self._datum_at_layer(ens, cand, y, law, q) - log_q[inside]
+        mantle = indicators({"m": MANTLE_RULE}, q)["m"].astype(float)
+        return ll, t, mantle, q
+
+    def _replicate(self, rep, views, ens, cand, y, law, centres, keep, rng, boundary, n_new):
+        """New thermal points of one replicate (its layer ``views``: per layer ``(ll, t,
+        mantle indicator, quantities)``): ``(phi, W (J',), mantle (J', L), {layer: marginal
+        weights of its design points})``."""
         from ..inference.evidence import unit_mixture
         from ..profile.exact import conditional_weights
 
         prof, th = self.profile, self.profile.thermal
         if centres is not None:
-            n_new = max(16, int(self.POINTS_FRACTION * rep["phi"].shape[0]))
             u, log_q, inside = unit_mixture(rng, centres, n_new)
             phi = th.from_unit(np.clip(u[inside], 1e-12, 1 - 1e-12))
             total = -log_q[inside]  # the prior is uniform in the unit cube
@@ -190,19 +220,17 @@ class ProfileRerun:
         hf = prof.heat_flow if (prof.heat_flow and prof.heat_flow.mode != "off") else None
         if th.coupled and hf is not None:
             total = total + hf.log_likelihood(th.heat_flow_mw_m2(phi))
-        if th.coupled and affected is None:
+        if th.coupled and cand.observable == "heat_flow":
             total = total + self._heat_flow_datum(ens, cand, y, law, phi)
         lo, hi = prof.temperature_range_c
         mantle = np.empty((phi.shape[0], prof.n_layers))
         ws = {}
-        for i in range(prof.n_layers):
-            ll = rep["layer_ll"][i] + (extra[r] if i == affected else 0.0)
-            log_l, w, inv = conditional_weights(prof, ll, rep["layer_q"][i]["temperature_c"],
-                                                None if geo is None else geo[:, i],
+        for i, (ll, t, m_ind, _) in enumerate(views):
+            log_l, w, inv = conditional_weights(prof, ll, t, None if geo is None else geo[:, i],
                                                 -math.log(hi - lo), normalise=False)
             total = total + log_l
             if boundary:
-                mantle[:, i] = (w @ self.mantle[r][i]) * inv
+                mantle[:, i] = (w @ m_ind) * inv
             if i in keep:
                 ws[i] = (w, inv)
         mx = np.max(total)
@@ -225,13 +253,35 @@ class ProfileRerun:
         elif not th.coupled:
             affected = 0
         extra = [None if affected is None else
-                 self._datum_at_layer(ens, cand, y, law, affected, rep) for rep in reps]
+                 self._datum_at_layer(ens, cand, y, law, rep["layer_q"][affected])
+                 for rep in reps]
+        views = [[(rep["layer_ll"][i] + (extra[r] if i == affected else 0.0),
+                   rep["layer_q"][i]["temperature_c"], self.mantle[r][i], rep["layer_q"][i])
+                  for i in range(prof.n_layers)] for r, rep in enumerate(reps)]
         free = th.coupled and th.ndim > 0
         centres = self._centres(ens, cand, y, law, affected, extra, rng) if free else None
         qi = prof.names.index(question) if kind == "interpretation" else None
         keep = {i for i in (qi, affected) if i is not None}
-        out = [self._replicate(rep, r, ens, cand, y, law, affected, extra, centres, keep, rng,
-                               boundary=kind != "interpretation") for r, rep in enumerate(reps)]
+        n_new = min(max(int(self.POINTS_FRACTION * reps[0]["phi"].shape[0]),
+                        math.ceil(self.POINTS_PER_ESS * s.min_ess / n_rep)), s.rerun_points)
+
+        def run():
+            return [self._replicate(rep, views[r], ens, cand, y, law, centres, keep, rng,
+                                    kind != "interpretation", n_new)
+                    for r, rep in enumerate(reps)]
+
+        out = run()
+        fresh = False
+        if affected is not None and _kish(np.concatenate([o[3][affected] for o in out])) \
+                < s.min_ess:
+            # the datum is sharper than the stored layer design resolves: a fresh design of
+            # that layer (forward-model runs), then the thermal points again
+            fresh = True
+            for r, rep in enumerate(reps):
+                views[r][affected] = self._fresh_layer(
+                    ens, cand, y, law, affected, rep, out[r][3][affected], rng,
+                    max(s.rerun_points // n_rep, 16))
+            out = run()
         ess = []
         if free:
             ess.append(_kish(np.concatenate([o[1] for o in out])))
@@ -239,7 +289,8 @@ class ProfileRerun:
             ess.append(_kish(np.concatenate([o[3][affected] for o in out])))
         ess = np.array([min(ess) if ess else math.inf])
         if kind == "interpretation":
-            kern, ok = self._layer_kernel(question, qi, s)
+            kern, ok = self._layer_kernel(question, qi, s, [v[qi][3] for v in views]
+                                          if fresh and qi == affected else None)
             omega = np.concatenate([o[3][qi] for o in out]) / n_rep
             p, h, width = _weighted(kern, np.where(ok, omega, 0.0), s)
             return p, h, ess, width

@@ -115,9 +115,9 @@ def _one_replicate(profile: Profile, models, hyps, rng, n_layer, n_thermal, keep
     geo = th.geotherm_c(mids, phi) if th.coupled else None
     hf = profile.heat_flow if (profile.heat_flow and profile.heat_flow.mode != "off") else None
     log_l = np.zeros((n_phi, profile.n_layers))
-    cond_h, cond_m, layer_w, layer_q, layer_ll, thetas = [], [], [], [], [], []
+    cond_h, cond_m, layer_w, layer_q, layer_ll, layer_u, thetas = [], [], [], [], [], [], []
     for i, model in enumerate(models):
-        theta, q, _ = prior_design(model, rng, n_layer)
+        theta, q, u = prior_design(model, rng, n_layer)
         ll, _ = weigh_design(model, q)
         t = q["temperature_c"]
         if not th.coupled and hf is not None and i == 0:
@@ -133,6 +133,7 @@ def _one_replicate(profile: Profile, models, hyps, rng, n_layer, n_thermal, keep
         layer_w.append(w)
         layer_q.append(q)
         layer_ll.append(ll)
+        layer_u.append(u)
         thetas.append(theta if keep_theta else None)
     total = log_l.sum(axis=1)
     if th.coupled and hf is not None:
@@ -142,7 +143,7 @@ def _one_replicate(profile: Profile, models, hyps, rng, n_layer, n_thermal, keep
     big_w = big / big.sum()
     return {"phi": phi, "phi_u": phi_u, "W": big_w, "log_z": log_z, "log_l": log_l,
             "cond_h": cond_h, "cond_m": np.stack(cond_m, axis=1), "layer_w": layer_w,
-            "layer_q": layer_q, "layer_ll": layer_ll, "theta": thetas,
+            "layer_q": layer_q, "layer_ll": layer_ll, "layer_u": layer_u, "theta": thetas,
             "thermal_ess": float(1.0 / np.sum(big_w**2))}
 
 
@@ -191,9 +192,10 @@ def exact_design(profile: Profile, *, n_layer=2**12, n_thermal=256, n_replicates
     "mantle rock"), ``pressures`` (GPa) and ``replicates``: per independent replicate, ``phi``
     (J, ndim) thermal points (``phi_u`` their unit-cube points), ``W`` (J,) their posterior
     weights, and per layer ``layer_w`` (J, N) the posterior weights of its design points given
-    each thermal point, ``layer_q`` the design points' quantities and ``layer_ll`` their
-    log-likelihood (with the heat flow for the top layer of an uncoupled state): what a
-    reweighting with new thermal points needs (:func:`conditional_weights`).
+    each thermal point, ``layer_q`` the design points' quantities, ``layer_ll`` their
+    log-likelihood (with the heat flow for the top layer of an uncoupled state) and ``layer_u``
+    their unit-cube points: what a reweighting with new thermal points needs
+    (:func:`conditional_weights`).
     """
     if not isinstance(profile, Profile):
         raise ValueError("exact_design: profile must be a bayescrust.profile.Profile")
