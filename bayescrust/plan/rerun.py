@@ -98,6 +98,7 @@ class ProfileRerun:
         self.mantle = [[indicators({"m": MANTLE_RULE}, q)["m"].astype(float)
                         for q in rep["layer_q"]] for rep in design["replicates"]]
         self._layer_kernels = {}
+        self._buffers = {}
 
     def for_question(self, question):
         """``rerun(ensemble, candidate, y, rng, settings, cache)`` for ``question``."""
@@ -178,6 +179,15 @@ class ProfileRerun:
             lw = lw + np.concatenate(ratio)
         return resample_centres(rng, u, np.exp(lw - np.max(lw)))
 
+    def _buffer(self, i, rows, cols):
+        """A reused (rows, cols) array for layer ``i``'s weights (``-1``: one shared by the
+        layers whose weights are reduced at once, so that it stays in cache): fresh arrays of a
+        few MB cost page faults on every rerun."""
+        buf = self._buffers.get((i, cols))
+        if buf is None or buf.shape[0] < rows:
+            buf = self._buffers[(i, cols)] = np.empty((rows, cols))
+        return buf[:rows]
+
     def _fresh_layer(self, ens, cand, y, law, i, rep, omega, rng, n_points):
         """A fresh design of layer ``i`` for one replicate: the layer path's adaptive stage
         (:func:`~bayescrust.inference.evidence.adaptive_design`) centred on the stored points
@@ -227,7 +237,10 @@ class ProfileRerun:
         ws = {}
         for i, (ll, t, m_ind, _) in enumerate(views):
             log_l, w, inv = conditional_weights(prof, ll, t, None if geo is None else geo[:, i],
-                                                -math.log(hi - lo), normalise=False)
+                                                -math.log(hi - lo), normalise=False,
+                                                out=self._buffer(i if i in keep else -1,
+                                                                 phi.shape[0], t.shape[0])
+                                                if th.coupled else None)
             total = total + log_l
             if boundary:
                 mantle[:, i] = (w @ m_ind) * inv

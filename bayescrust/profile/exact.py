@@ -65,7 +65,7 @@ def _hypotheses(profile, models):
     return out
 
 
-def _log_weights(profile, ll, t, geo_i, log_q):
+def _log_weights(profile, ll, t, geo_i, log_q, out=None):
     """Log importance weights (J, N): likelihood x conditional / proposal temperature density.
 
     Coupled states expand the Gaussian in ``T`` so the (J, N) array is one outer product
@@ -80,18 +80,20 @@ def _log_weights(profile, ll, t, geo_i, log_q):
     norm = np.log(np.maximum(special.ndtr((hi - geo_i) / s) - special.ndtr((lo - geo_i) / s),
                              1e-300))
     row = -0.5 * (geo_i / s) ** 2 - math.log(s) - 0.5 * math.log(2 * math.pi) - norm - log_q
-    out = np.multiply.outer(geo_i / s**2, t)  # in place below: the (J, N) array is the cost
+    # in place below: the (J, N) array is the cost (``out``: a buffer to reuse)
+    out = np.multiply.outer(geo_i / s**2, t, out=out)
     out += (ll - 0.5 * (t / s) ** 2)[None, :]
     out += row[:, None]
     return out
 
 
-def conditional_weights(profile, ll, t, geo_i, log_q, *, normalise=True):
+def conditional_weights(profile, ll, t, geo_i, log_q, *, normalise=True, out=None):
     """One layer's marginal likelihood given each thermal point and its design points'
     conditional weights: ``(log_l (J,), w (J, N))``, ``w`` rows normalised (importance sampling
     with :func:`_log_weights`; module docstring). ``log_l`` is ``-inf`` where no point weighs.
-    Without ``normalise``, ``(log_l, w, 1 / row sums)`` (the caller scales what it reduces)."""
-    lw = _log_weights(profile, ll, t, geo_i, log_q)
+    Without ``normalise``, ``(log_l, w, 1 / row sums)`` (the caller scales what it reduces);
+    ``out`` (J, N) is a buffer for ``w`` (coupled states)."""
+    lw = _log_weights(profile, ll, t, geo_i, log_q, out=out)
     mx = np.max(lw, axis=1, keepdims=True)
     mx = np.where(np.isfinite(mx), mx, 0.0)
     w = np.exp(np.subtract(lw, mx, out=lw), out=lw)
