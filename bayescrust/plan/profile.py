@@ -22,10 +22,11 @@ A candidate datum in layer ``i`` follows that layer's likelihood (shared and cor
 forward-model errors, :mod:`.likelihood`); a heat-flow candidate the profile's heat-flow law
 (:class:`bayescrust.profile.HeatFlow`: Gaussian, one-sided lower bound, or off). Updates are
 importance reweighting of the joint states, exact for the design up to the stratified draw of
-layer states. There is no exact-path rerun per datum for a profile: degenerate updates (Kish
-effective size below ``min_ess``) are counted in the table and reported in one
-:class:`~.preposterior.DegeneracyWarning` per candidate; more thermal points or states per
-thermal point reduce them.
+layer states. Degenerate updates (Kish effective size below ``min_ess``) are rerun exactly for a
+subsample of at most ``max_reruns`` data (:class:`~.rerun.ProfileRerun`, each question's
+``Ensemble.rerun``: new thermal points weighed with the stored layer designs); the table counts
+them, and one :class:`~.preposterior.DegeneracyWarning` per candidate names the reruns that
+stayed degenerate (more ``n_layer`` / ``n_thermal`` reduce them).
 """
 
 from __future__ import annotations
