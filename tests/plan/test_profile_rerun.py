@@ -235,3 +235,19 @@ def test_no_reruns_keeps_values_and_warns():
     t = pp.table
     assert int(t["degenerate"].max()) > 0
     assert np.all(t["reruns"] == 0)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("y, sigma, mode", [(200.0, 3.0, "gaussian"), (420.0, 5.0, "gaussian"),
+                                            (250.0, 5.0, "lower_bound")])
+def test_rerun_heat_flow_against_exact_path_slow(y, sigma, mode):
+    """Slow version of the heat-flow check: more data, a lower bound (the planner's law is the
+    profile's one-sided law up to a constant away from the cap, tested in
+    test_profile_plan.py), each against exact_profile with that heat flow, |z| < 4."""
+    prof = _two_layer()
+    cand = Candidate("heat_flow", sigma, mode=mode)
+    res, _, _ = _reruns(prof, cand, y, (BOUNDARY_QUESTION, "L1", "L2"), None)
+    ref = exact_profile(dataclasses.replace(prof, heat_flow=HeatFlow(y, sigma, mode)), seed=17,
+                        n_replicates=4, n_layer=2**12, n_thermal=256)
+    assert _compare(res, ref, "L1") >= 3
+    assert _compare(res, ref, "L2") >= 3
