@@ -79,7 +79,7 @@ class ProfileRerun:
     prepared once; :meth:`for_question` gives the ``Ensemble.rerun`` callable of a question.
     """
 
-    #: Pilot points for the centres of a heat flow's proposal (:meth:`_centres`).
+    #: Uniform pilot points for the centres of a heat flow's proposal (:meth:`_centres`).
     PILOT = 4096
     #: New thermal points per replicate: this fraction of today's, and at least
     #: ``POINTS_PER_ESS * min_ess`` over all replicates (the rerun's thermal weights reached an
@@ -151,14 +151,14 @@ class ProfileRerun:
         """Centres of the new thermal points' proposal, in the unit cube: draws that follow
         today's thermal posterior updated with the datum, approximately.
 
-        A heat flow's law is cheap at any thermal point: a pilot of :data:`PILOT` points from a
-        kernel density estimate of today's thermal posterior (:func:`~bayescrust.inference.
-        evidence.unit_mixture` around today's points resampled by their weights) is weighed by
-        the datum's law and resampled (many distinct centres even when the datum is much
-        sharper than today's design spacing). A layer datum's ratio ``L_i'(phi) / L_i(phi) =
-        sum_n w_i(phi, n) p(y | n)`` is known at today's thermal points: they are resampled by
-        their weights times that ratio."""
-        from ..inference.evidence import resample_centres, unit_mixture
+        A heat flow's law is cheap at any thermal point: a pilot of :data:`PILOT` uniform
+        points of the unit cube (the prior) is weighed by the datum's law times today's
+        posterior weight of the nearest of today's thermal points (a piecewise-constant
+        surrogate of today's posterior) and resampled: many distinct centres even when the
+        datum is much sharper than today's design spacing or lies at the prior's edge. A layer
+        datum's ratio ``L_i'(phi) / L_i(phi) = sum_n w_i(phi, n) p(y | n)`` is known at today's
+        thermal points: they are resampled by their weights times that ratio."""
+        from ..inference.evidence import resample_centres
 
         th = self.profile.thermal
         reps = self.design["replicates"]
@@ -166,10 +166,12 @@ class ProfileRerun:
         with np.errstate(divide="ignore"):
             lw = np.concatenate([np.log(rep["W"]) for rep in reps]) - math.log(len(reps))
         if affected is None:
-            today = resample_centres(rng, u, np.exp(lw - np.max(lw)))
-            u, _, inside = unit_mixture(rng, today, self.PILOT, density=False)
-            u = np.clip(u[inside], 1e-12, 1 - 1e-12)
-            lw = self._heat_flow_datum(ens, cand, y, law, th.from_unit(u))
+            from scipy.spatial import cKDTree
+
+            pilot = np.clip(rng.random((self.PILOT, u.shape[1])), 1e-12, 1 - 1e-12)
+            _, near = cKDTree(u).query(pilot)
+            lw = lw[near] + self._heat_flow_datum(ens, cand, y, law, th.from_unit(pilot))
+            u = pilot
         else:
             ratio = []
             for r, rep in enumerate(reps):
