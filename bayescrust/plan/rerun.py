@@ -15,13 +15,14 @@ design points at *new* thermal points follow from the stored layer designs
    errors), or, for a heat flow, multiplies by its law at each thermal point (Gaussian or the
    one-sided lower bound, as the planner simulates it; the top layer's conductive gradient for
    the uncoupled state);
-2. draws new thermal points, per replicate of the design as many as today's, from a defensive
-   mixture in the thermal parameters' unit cube (where the prior is uniform:
-   :meth:`~bayescrust.profile.thermal.ThermalState.from_unit`) centred on today's thermal
-   points resampled by their updated weights
-   (:func:`bayescrust.inference.evidence.unit_mixture`, the layer path's adaptive stage), and
+2. draws new thermal points (per replicate half as many as today's, at least ``3 min_ess`` in
+   all) from a defensive mixture in the thermal parameters' unit cube (where the prior is
+   uniform: :meth:`~bayescrust.profile.thermal.ThermalState.from_unit`) centred on points that
+   follow the updated thermal posterior approximately (:meth:`ProfileRerun._centres`;
+   :func:`bayescrust.inference.evidence.unit_mixture`, the layer path's adaptive stage), and
    weighs them ``W'(phi) = prod_i L_i(phi) L_hf(phi) L_new(phi) / q(phi)`` (self-normalised
-   importance sampling; ``L_hf`` today's heat flow, if any);
+   importance sampling, Geweke 1989, Econometrica 57, 1317; ``L_hf`` today's heat flow, if
+   any);
 3. answers the question from these weights exactly (no stratified draw of layer states): a
    layer's class and hypothesis probabilities and temperature interval from the marginal weights
    ``sum_phi W'(phi) w_i(phi, n)`` of its design points ``n``; the crust-mantle boundary and
@@ -31,12 +32,16 @@ design points at *new* thermal points follow from the stored layer designs
 The replicates of the design are pooled, each with weight ``1 / R``. The rerun's effective size
 is the smaller of the Kish sizes of the new thermal weights and of the marginal weights of the
 layer the datum is measured in (or, uncoupled, the top layer for a heat flow): a rerun that
-stays below ``min_ess`` is counted as ``degenerate_after_rerun``.
+stays below ``min_ess`` is counted as ``degenerate_after_rerun``. When the measured layer's
+marginal weights are degenerate (a datum sharper than the stored layer design resolves), that
+layer gets a fresh adaptive design of ``rerun_points`` points centred on its favoured points
+(:func:`~bayescrust.inference.evidence.adaptive_design`; forward-model runs) and the thermal
+points are drawn and weighed again.
 
 Without free thermal parameters (the uncoupled state, or every thermal parameter fixed) there is
 no thermal design to renew: the rerun reweighs every point of the stored layer designs (``N``
-per layer and replicate, against ``states_per_thermal`` in the joint states); a datum sharper
-than the layer design resolves stays degenerate and is counted (more ``n_layer`` reduce it).
+per layer and replicate, against ``states_per_thermal`` in the joint states), with the fresh
+layer design above when needed; what stays degenerate is counted (more ``n_layer`` reduce it).
 """
 
 from __future__ import annotations
