@@ -219,9 +219,10 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
              f"{s['states_per_thermal']} states of every layer each); each datum updates them "
              "by importance reweighting. Questions: each layer's interpretations, the "
              "crust-mantle boundary, and the interval of each free thermal parameter. Updates "
-             f"with an effective size below {s['min_ess']:g} are counted as degenerate (no "
-             "exact rerun for profiles). Errors are Monte Carlo standard errors over the "
-             "simulated data.", "", "## Today", ""]
+             f"with an effective size below {s['min_ess']:g} are degenerate and rerun exactly "
+             f"(at most {s['max_reruns']} per candidate and question: new thermal points "
+             "weighed with the stored layer designs). Errors are Monte Carlo standard errors "
+             "over the simulated data.", "", "## Today", ""]
     for q, p in pp.plans.items():
         u = p.settings["interval_unit"]
         if pp.questions[q] == "thermal":

@@ -16,7 +16,8 @@ import numpy as np
 from scipy import special
 
 __all__ = ["evidence_from_posterior", "prior_design", "weigh_design", "log_mean_exp",
-           "adaptive_design", "scramble_estimates"]
+           "adaptive_design", "unit_mixture", "resample_centres",
+           "scramble_estimates"]
 
 
 def log_mean_exp(logw, axis=-1):
@@ -178,20 +179,21 @@ def weigh_design(model, q, observed=None):
     return sum(ll.values()), ll
 
 
-def adaptive_design(model, rng, u_centres, n_points, *, uniform_weight=0.2):
-    """Second-stage importance sampling in the prior's unit hypercube.
+def unit_mixture(rng, u_centres, n_points, *, uniform_weight=0.2, density=True):
+    """Draws from a defensive mixture in a unit hypercube, and its log density.
 
-    The proposal is a defensive mixture: ``uniform_weight`` of the uniform density on the cube
-    (the prior in these coordinates) and a Gaussian kernel mixture centred on ``u_centres``
-    (points resampled from the first stage's posterior weights), with the covariance of the
-    centres times Silverman's bandwidth factor squared. Points outside the cube have zero prior
-    and are not evaluated.
+    ``uniform_weight`` of the uniform density on the cube (a prior in its unit-cube coordinates)
+    and a Gaussian kernel mixture centred on ``u_centres`` (m, d) with the covariance of the
+    centres times Silverman's bandwidth factor squared (Silverman 1986, Density Estimation for
+    Statistics and Data Analysis, sec. 4.3); defensive importance sampling after Hesterberg
+    (1995, Technometrics 37, 185).
 
     Returns
     -------
-    (theta, quantities, log_q, inside)
-        ``log_q`` (n,) is the proposal log density; ``theta`` and ``quantities`` cover the
-        ``inside`` points only.
+    (u, log_q, inside)
+        ``u`` (n, d) the draws, ``log_q`` (n,) the mixture's log density at them (``None``
+        without ``density``) and ``inside`` (n,) whether a draw lies in the open cube (outside
+        it the prior is zero).
     """
     c = np.asarray(u_centres, float)
     m, d = c.shape
@@ -203,6 +205,8 @@ def adaptive_design(model, rng, u_centres, n_points, *, uniform_weight=0.2):
     u = np.concatenate([c[k] + rng.standard_normal((n_points - n_unif, d)) @ chol.T,
                         rng.random((n_unif, d))])
     inside = np.all((u > 0.0) & (u < 1.0), axis=1)
+    if not density:
+        return u, None, inside
     # kernel-mixture log density, in blocks of points to bound memory
     logdet = 2 * np.sum(np.log(np.diag(chol)))
     const = -0.5 * d * math.log(2 * math.pi) - 0.5 * logdet - math.log(m)
@@ -214,5 +218,35 @@ def adaptive_design(model, rng, u_centres, n_points, *, uniform_weight=0.2):
         log_k[s:s + 4096] = special.logsumexp(-0.5 * np.maximum(d2, 0.0), axis=1) + const
     log_q = np.logaddexp(math.log1p(-uniform_weight) + log_k,
                          np.where(inside, math.log(uniform_weight), -np.inf))
+    return u, log_q, inside
+
+
+def resample_centres(rng, u, weights, n_centres=256):
+    """Centres of :func:`unit_mixture`: ``min(n_centres, len(u))`` points of ``u`` (n, d)
+    resampled by ``weights``; when (almost) one point holds all the weight (fewer than ``d + 1``
+    distinct centres) they are spread by ``1e-3`` around it, so that the kernel covariance is
+    not singular."""
+    w = np.asarray(weights, float)
+    centres = u[rng.choice(len(w), size=min(n_centres, len(w)), p=w / w.sum())]
+    if np.unique(centres, axis=0).shape[0] < centres.shape[1] + 1:
+        centres = np.clip(centres + 1e-3 * rng.standard_normal(centres.shape), 1e-9, 1 - 1e-9)
+    return centres
+
+
+def adaptive_design(model, rng, u_centres, n_points, *, uniform_weight=0.2):
+    """Second-stage importance sampling in the prior's unit hypercube.
+
+    The proposal is the defensive mixture of :func:`unit_mixture`: ``uniform_weight`` of the
+    uniform density on the cube (the prior in these coordinates) and a Gaussian kernel mixture
+    centred on ``u_centres`` (points resampled from the first stage's posterior weights). Points
+    outside the cube have zero prior and are not evaluated.
+
+    Returns
+    -------
+    (theta, quantities, log_q, inside)
+        ``log_q`` (n,) is the proposal log density; ``theta`` and ``quantities`` cover the
+        ``inside`` points only.
+    """
+    u, log_q, inside = unit_mixture(rng, u_centres, n_points, uniform_weight=uniform_weight)
     theta = model.from_unit(np.clip(u[inside], 1e-12, 1 - 1e-12))
     return theta, model.quantities(theta), log_q, inside

@@ -50,6 +50,12 @@ class Ensemble:
     model, u, current_loglik : optional
         The :class:`~bayescrust.inference.model.LayerModel` and, for a design, its unit-cube
         points and today's log-likelihood: what a rerun of the exact path needs.
+    rerun : callable, optional
+        ``rerun(ensemble, candidate, y, rng, settings, cache) -> (p (1, K), h (1, H), ess (1,),
+        width (1,))``: the exact answer for one degenerate datum ``y`` (class and hypothesis
+        probabilities, effective size, interval width of the settings' quantity). Default: with
+        a ``model``, :func:`bayescrust.plan.preposterior._rerun` (the layer's exact path);
+        profiles set :class:`bayescrust.plan.rerun.ProfileRerun`.
     """
 
     quantities: dict
@@ -67,6 +73,7 @@ class Ensemble:
     model: object = None
     u: np.ndarray | None = None
     current_loglik: np.ndarray | None = None
+    rerun: object = None
 
     @property
     def n(self) -> int:

@@ -14,7 +14,9 @@ subsample of at most ``max_reruns`` degenerate data is recomputed by rerunning t
 for that datum (an adaptive second-stage design centred on the reweighted states; see
 :func:`bayescrust.inference.evidence.adaptive_design`), and the degenerate stratum's mean is
 estimated from that subsample (a stratified estimator whose error includes the subsampling).
-Without a model, degenerate updates are kept and a :class:`DegeneracyWarning` is issued.
+An ensemble may bring its own rerun (``Ensemble.rerun``; profiles: :mod:`.rerun`, new thermal
+points for the stored layer designs). Without either, degenerate updates are kept and a
+:class:`DegeneracyWarning` is issued.
 
 The truth states are drawn from the same ensemble that is reweighted (the state that produced a
 datum is among those weighed); the resulting bias is of order ``1 / ESS`` of the update and is
@@ -308,7 +310,12 @@ def _rerun(ens, cand, y, rng, s: Settings, cache):
     """Rerun the exact path for one datum: an adaptive second-stage design centred on the
     states that the datum favours (stage 1 is today's design, or one prior design shared by
     every rerun when the ensemble holds posterior draws)."""
-    from ..inference.evidence import adaptive_design, prior_design, weigh_design
+    from ..inference.evidence import (
+        adaptive_design,
+        prior_design,
+        resample_centres,
+        weigh_design,
+    )
     from ..inference.hypotheses import indicators
     from .ensemble import assign_classes
 
@@ -324,10 +331,7 @@ def _rerun(ens, cand, y, rng, s: Settings, cache):
     law = _law(ens, cand, ens.quantities)
     lw1 = ll + datum_log_likelihood(y, loc, scale, **law)
     w1 = np.exp(lw1 - np.max(lw1))
-    centres = u[rng.choice(len(w1), size=min(256, len(w1)), p=w1 / w1.sum())]
-    if np.unique(centres, axis=0).shape[0] < centres.shape[1] + 1:
-        # (almost) one state holds all the weight: spread the centres a little around it
-        centres = np.clip(centres + 1e-3 * rng.standard_normal(centres.shape), 1e-9, 1 - 1e-9)
+    centres = resample_centres(rng, u, w1)
     _, q2, log_q, inside = adaptive_design(model, rng, centres, s.rerun_points)
     ll2, _ = weigh_design(model, q2)
     loc2, scale2 = _loc_scale(ens, cand, q2)
@@ -407,17 +411,18 @@ def evaluate(ensemble, candidate, rng, settings: Settings | None = None) -> dict
     n_deg = int(deg.sum())
     rr_idx = np.zeros(0, int)
     rr = None
-    if n_deg and ens.model is not None and s.max_reruns > 0:
+    rerun = ens.rerun if ens.rerun is not None else (_rerun if ens.model is not None else None)
+    if n_deg and rerun is not None and s.max_reruns > 0:
         cand_idx = np.flatnonzero(deg)
         rr_idx = rng.choice(cand_idx, size=min(s.max_reruns, n_deg), replace=False)
         cache: dict = {}
-        rows = [_rerun(ens, candidate, y[j], rng, s, cache) for j in rr_idx]  # per rerun datum
+        rows = [rerun(ens, candidate, y[j], rng, s, cache) for j in rr_idx]  # per rerun datum
         rr = tuple(np.concatenate([r[i] for r in rows]) for i in range(4))
     elif n_deg:
+        why = "max_reruns is 0" if rerun is not None else "no model to rerun the exact path"
         warnings.warn(f"candidate {candidate.label!r}: importance reweighting degenerate for "
-                      f"{n_deg} of {m} simulated data (effective size < {s.min_ess:g}) and no "
-                      "layer model to rerun the exact path; values of those data kept",
-                      DegeneracyWarning, stacklevel=2)
+                      f"{n_deg} of {m} simulated data (effective size < {s.min_ess:g}) and "
+                      f"{why}; values of those data kept", DegeneracyWarning, stacklevel=2)
 
     def per_datum(p, h, width, cls):
         pt = p[np.arange(p.shape[0]), cls]

@@ -22,10 +22,11 @@ A candidate datum in layer ``i`` follows that layer's likelihood (shared and cor
 forward-model errors, :mod:`.likelihood`); a heat-flow candidate the profile's heat-flow law
 (:class:`bayescrust.profile.HeatFlow`: Gaussian, one-sided lower bound, or off). Updates are
 importance reweighting of the joint states, exact for the design up to the stratified draw of
-layer states. There is no exact-path rerun per datum for a profile: degenerate updates (Kish
-effective size below ``min_ess``) are counted in the table and reported in one
-:class:`~.preposterior.DegeneracyWarning` per candidate; more thermal points or states per
-thermal point reduce them.
+layer states. Degenerate updates (Kish effective size below ``min_ess``) are rerun exactly for a
+subsample of at most ``max_reruns`` data (:class:`~.rerun.ProfileRerun`, each question's
+``Ensemble.rerun``: new thermal points weighed with the stored layer designs); the table counts
+them, and one :class:`~.preposterior.DegeneracyWarning` per candidate names the reruns that
+stayed degenerate (more ``n_layer`` / ``n_thermal`` reduce them).
 """
 
 from __future__ import annotations
@@ -187,13 +188,24 @@ def profile_ensemble(profile, design, states, question, group=None) -> Ensemble:
     return Ensemble(quantities=q, log_weights=lw, hypotheses=ind, boxes={},
                     classes=np.maximum(classes, 0), class_names=tuple(names),
                     prior_probabilities=np.asarray(pc, float), existing=existing,
-                    model_error=me, likelihood=lik, nu=nu, source="profile exact design")
+                    model_error=me, likelihood=lik, nu=nu, source="profile exact design",
+                    rerun=_rerun_cache(profile, design, states).for_question(question))
 
 
 def _questions_cache(profile, design, states):
     if "_questions" not in states:
         states["_questions"] = _questions(profile, design, states)
     return states["_questions"]
+
+
+def _rerun_cache(profile, design, states):
+    """One :class:`~.rerun.ProfileRerun` per set of states (shared by every question)."""
+    from .rerun import ProfileRerun
+
+    if "_rerun" not in states:
+        states["_rerun"] = ProfileRerun(profile, design, _questions_cache(profile, design,
+                                                                          states))
+    return states["_rerun"]
 
 
 # --------------------------------------------------------------------------------- candidates
@@ -420,7 +432,7 @@ def plan_profile(profile, *, candidates=None, seed=None, rank_question=BOUNDARY_
     for c in cands:
         groups.setdefault(None if c.observable == "heat_flow" else c.layer, []).append(c)
     streams = iter(r_plan.spawn(len(groups) * len(qs)))
-    plans, degenerate = {}, {}
+    plans, degenerate, kept = {}, {}, {}
     for q, (kind, *_, label, unit) in qs.items():
         key = rank_by or ("interval_narrowing" if kind == "thermal" else
                           "information_gain_bits")
@@ -438,14 +450,24 @@ def plan_profile(profile, *, candidates=None, seed=None, rank_question=BOUNDARY_
             parts.append(part)
         plans[q] = _merge(parts)
         for lab, row in plans[q].table.iterrows():
-            degenerate[lab] = max(degenerate.get(lab, 0), int(row["degenerate"]))
-    for lab, n_deg in degenerate.items():
-        if n_deg:
-            warnings.warn(f"candidate {lab!r}: importance reweighting degenerate for up to "
-                          f"{n_deg} of {s.n_simulations} simulated data (effective size < "
-                          f"{s.min_ess:g}); the profile planner has no exact rerun, values of "
-                          "those data kept (more n_thermal / states_per_thermal reduce this)",
-                          DegeneracyWarning, stacklevel=2)
+            n_deg, n_rr = int(row["degenerate"]), int(row["reruns"])
+            # kept as they are: all degenerate data when nothing was rerun, else the reruns
+            # that stayed degenerate (they stand for the degenerate stratum)
+            n_kept = int(row["degenerate_after_rerun"]) if n_rr else n_deg
+            degenerate[lab] = max(degenerate.get(lab, (0, 0)), (n_kept, n_rr or n_deg))
+            kept[lab] = kept.get(lab, False) or (n_rr == 0 and n_deg > 0)
+    for lab, (n_kept, n_of) in degenerate.items():
+        if not n_kept:
+            continue
+        if kept[lab]:
+            what = (f"degenerate for up to {n_kept} of {s.n_simulations} simulated data and "
+                    "max_reruns is 0; values of those data kept")
+        else:
+            what = (f"still degenerate after the exact rerun for up to {n_kept} of {n_of} "
+                    "rerun data; their values kept")
+        warnings.warn(f"candidate {lab!r}: importance reweighting {what} (effective size < "
+                      f"{s.min_ess:g}; more n_layer / n_thermal reduce this)",
+                      DegeneracyWarning, stacklevel=2)
     mass = f"{100 * s.interval:.0f} % intervals"
     out_settings = {**s.as_dict(), "seed": seed_val, "rank_question": rank_question,
                     "rank_by": plans[rank_question].settings["rank_by"],

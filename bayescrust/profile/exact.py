@@ -37,21 +37,22 @@ from ..inference.hypotheses import default_hypotheses, indicators
 from ..physics.thermal import THERMAL_DATA as _TH
 from .spec import MANTLE_RULE, Profile
 
-__all__ = ["exact_profile", "design_thermal", "exact_design"]
+__all__ = ["exact_profile", "design_thermal", "exact_design", "conditional_weights"]
 
 _G = 1e-3 * float(_TH["lithostatic"]["gravity_m_s2"])  # GPa per (g/cm^3 km)
 
 
-def design_thermal(thermal, rng, n_points):
-    """Scrambled-Sobol design over the free thermal parameters, shape (J, ndim)."""
+def design_thermal(thermal, rng, n_points, *, unit=False):
+    """Scrambled-Sobol design over the free thermal parameters, shape (J, ndim); with ``unit``
+    also its unit-cube points ``(phi, u)``."""
     from scipy.stats import qmc
 
     if not thermal.coupled or thermal.ndim == 0:
-        return np.zeros((1, 0))
+        return (np.zeros((1, 0)), np.zeros((1, 0))) if unit else np.zeros((1, 0))
     m = max(1, int(math.ceil(math.log2(max(n_points, 2)))))
     u = np.clip(qmc.Sobol(thermal.ndim, scramble=True, rng=rng).random_base2(m), 1e-12,
                 1 - 1e-12)
-    return thermal.from_unit(u)
+    return (thermal.from_unit(u), u) if unit else thermal.from_unit(u)
 
 
 def _hypotheses(profile, models):
@@ -64,7 +65,7 @@ def _hypotheses(profile, models):
     return out
 
 
-def _log_weights(profile, ll, t, geo_i, log_q):
+def _log_weights(profile, ll, t, geo_i, log_q, out=None):
     """Log importance weights (J, N): likelihood x conditional / proposal temperature density.
 
     Coupled states expand the Gaussian in ``T`` so the (J, N) array is one outer product
@@ -79,38 +80,53 @@ def _log_weights(profile, ll, t, geo_i, log_q):
     norm = np.log(np.maximum(special.ndtr((hi - geo_i) / s) - special.ndtr((lo - geo_i) / s),
                              1e-300))
     row = -0.5 * (geo_i / s) ** 2 - math.log(s) - 0.5 * math.log(2 * math.pi) - norm - log_q
-    out = np.multiply.outer(geo_i / s**2, t)  # in place below: the (J, N) array is the cost
+    # in place below: the (J, N) array is the cost (``out``: a buffer to reuse)
+    out = np.multiply.outer(geo_i / s**2, t, out=out)
     out += (ll - 0.5 * (t / s) ** 2)[None, :]
     out += row[:, None]
     return out
+
+
+def conditional_weights(profile, ll, t, geo_i, log_q, *, normalise=True, out=None):
+    """One layer's marginal likelihood given each thermal point and its design points'
+    conditional weights: ``(log_l (J,), w (J, N))``, ``w`` rows normalised (importance sampling
+    with :func:`_log_weights`; module docstring). ``log_l`` is ``-inf`` where no point weighs.
+    Without ``normalise``, ``(log_l, w, 1 / row sums)`` (the caller scales what it reduces);
+    ``out`` (J, N) is a buffer for ``w`` (coupled states)."""
+    lw = _log_weights(profile, ll, t, geo_i, log_q, out=out)
+    mx = np.max(lw, axis=1, keepdims=True)
+    mx = np.where(np.isfinite(mx), mx, 0.0)
+    w = np.exp(np.subtract(lw, mx, out=lw), out=lw)
+    sw = w.sum(axis=1)
+    with np.errstate(divide="ignore"):
+        log_l = np.log(sw / w.shape[1]) + mx[:, 0]
+    inv = 1.0 / np.maximum(sw, 1e-300)
+    if not normalise:
+        return log_l, w, inv
+    w *= inv[:, None]
+    return log_l, w
 
 
 def _one_replicate(profile: Profile, models, hyps, rng, n_layer, n_thermal, keep_theta=False):
     th = profile.thermal
     lo, hi = profile.temperature_range_c
     log_q = -math.log(hi - lo)
-    phi = design_thermal(th, rng, n_thermal)
+    phi, phi_u = design_thermal(th, rng, n_thermal, unit=True)
     n_phi = phi.shape[0]
     mids = profile.mid_depths_km
     geo = th.geotherm_c(mids, phi) if th.coupled else None
     hf = profile.heat_flow if (profile.heat_flow and profile.heat_flow.mode != "off") else None
     log_l = np.zeros((n_phi, profile.n_layers))
-    cond_h, cond_m, layer_w, layer_q, thetas = [], [], [], [], []
+    cond_h, cond_m, layer_w, layer_q, layer_ll, layer_u, thetas = [], [], [], [], [], [], []
     for i, model in enumerate(models):
-        theta, q, _ = prior_design(model, rng, n_layer)
+        theta, q, u = prior_design(model, rng, n_layer)
         ll, _ = weigh_design(model, q)
         t = q["temperature_c"]
         if not th.coupled and hf is not None and i == 0:
             ll = ll + hf.log_likelihood(
                 th.conductivity_w_mk * (t - th.surface_temperature_c) / mids[0])
-        lw = _log_weights(profile, ll, t, None if geo is None else geo[:, i], log_q)
-        mx = np.max(lw, axis=1, keepdims=True)
-        mx = np.where(np.isfinite(mx), mx, 0.0)
-        w = np.exp(np.subtract(lw, mx, out=lw), out=lw)
-        sw = w.sum(axis=1)
-        with np.errstate(divide="ignore"):
-            log_l[:, i] = np.log(sw / w.shape[1]) + mx[:, 0]
-        w *= (1.0 / np.maximum(sw, 1e-300))[:, None]
+        log_l[:, i], w = conditional_weights(profile, ll, t, None if geo is None else geo[:, i],
+                                             log_q)
         ind = indicators(hyps[i], q)
         mat = np.stack([v.astype(float) for v in ind.values()], axis=1)
         cond = w @ mat  # (J, H)
@@ -118,6 +134,8 @@ def _one_replicate(profile: Profile, models, hyps, rng, n_layer, n_thermal, keep
         cond_m.append(cond_h[-1]["mantle rock"])
         layer_w.append(w)
         layer_q.append(q)
+        layer_ll.append(ll)
+        layer_u.append(u)
         thetas.append(theta if keep_theta else None)
     total = log_l.sum(axis=1)
     if th.coupled and hf is not None:
@@ -125,9 +143,10 @@ def _one_replicate(profile: Profile, models, hyps, rng, n_layer, n_thermal, keep
     log_z = float(log_mean_exp(total))
     big = np.exp(total - np.max(total))
     big_w = big / big.sum()
-    return {"phi": phi, "W": big_w, "log_z": log_z, "log_l": log_l, "cond_h": cond_h,
-            "cond_m": np.stack(cond_m, axis=1), "layer_w": layer_w, "layer_q": layer_q,
-            "theta": thetas, "thermal_ess": float(1.0 / np.sum(big_w**2))}
+    return {"phi": phi, "phi_u": phi_u, "W": big_w, "log_z": log_z, "log_l": log_l,
+            "cond_h": cond_h, "cond_m": np.stack(cond_m, axis=1), "layer_w": layer_w,
+            "layer_q": layer_q, "layer_ll": layer_ll, "layer_u": layer_u, "theta": thetas,
+            "thermal_ess": float(1.0 / np.sum(big_w**2))}
 
 
 def _answers(profile, rep, hyps):
@@ -173,9 +192,12 @@ def exact_design(profile: Profile, *, n_layer=2**12, n_thermal=256, n_replicates
     Same pressure pass and designs as :func:`exact_profile`. Returns a dict: ``models`` (one
     :class:`~bayescrust.inference.model.LayerModel` per layer), ``hypotheses`` (per layer, with
     "mantle rock"), ``pressures`` (GPa) and ``replicates``: per independent replicate, ``phi``
-    (J, ndim) thermal points, ``W`` (J,) their posterior weights, and per layer ``layer_w`` (J, N)
-    the posterior weights of its design points given each thermal point and ``layer_q`` the
-    design points' quantities.
+    (J, ndim) thermal points (``phi_u`` their unit-cube points), ``W`` (J,) their posterior
+    weights, and per layer ``layer_w`` (J, N) the posterior weights of its design points given
+    each thermal point, ``layer_q`` the design points' quantities, ``layer_ll`` their
+    log-likelihood (with the heat flow for the top layer of an uncoupled state) and ``layer_u``
+    their unit-cube points: what a reweighting with new thermal points needs
+    (:func:`conditional_weights`).
     """
     if not isinstance(profile, Profile):
         raise ValueError("exact_design: profile must be a bayescrust.profile.Profile")
