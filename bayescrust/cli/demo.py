@@ -84,27 +84,14 @@ def cmd_demo(args) -> int:
         # well, so that the whole demo stays under a minute; comparison, chart, plan, profile
         # and map use the exact or fast paths (--method mcmc runs every layer by MCMC)
         method = args.method or "exact"
-        compare_method = args.method or "exact"
-        mcmc_part = None
-        if method != "mcmc":
-            (tmp / "mcmc").mkdir()
-            mcmc_part = _start_mcmc_part(args, study, tmp / "mcmc")
+        # the MCMC run, the comparison and the chart need nothing from the other parts: they
+        # run in a second process beside them (where there are two cores)
+        second = _start_second_part(args, study, tmp, method)
         try:
             say(args, f"demo: inverting {len(study.layers)} layers ({method})")
             (tmp / "invert").mkdir()
             results = do_invert(args, study, tmp / "invert", method=method, figures=True)
             misfits = [n for n, r in results.items() if r.misfit]
-            say(args, "demo: comparing thermal-state priors for the deep layers "
-                      f"({compare_method})")
-            (tmp / "compare").mkdir()
-            do_compare(args, study, tmp / "compare", method=compare_method, figures=True,
-                        layer_names=_DEMO_COMPARE_LAYERS)
-            say(args, "demo: probability chart for the deep layer")
-            (tmp / "chart").mkdir()
-            chart_args = argparse.Namespace(vp_min=None, vp_max=None, points=args.points,
-                                            seed=args.seed, quiet=args.quiet)
-            do_chart(chart_args, study, tmp / "chart", layer_name=_DEMO_CHART_LAYER,
-                      method="exact", figures=True)
             plan_s = demo_plan(args, study, tmp / "plan")
             say(args, "demo: whole profile of line TL-12 (structured exact path)")
             profile_s = demo_profile(args, tmp / "study" / "tallowmere_profile.toml",
@@ -119,10 +106,11 @@ def cmd_demo(args) -> int:
         except BaseException:
             # wait for the second process, so that the output folder is removed only after it
             # has stopped writing; this process's error is the one reported
-            if mcmc_part and mcmc_part[0] is not None:
-                mcmc_part[0].exception()
+            if second[0] is not None:
+                second[0].exception()
             raise
-        mcmc_s = _finish_mcmc_part(args, *mcmc_part) if mcmc_part else None
+        second_s = _finish_second_part(args, *second)
+        where = ", in a second process beside the other parts" if second[0] else ""
         elapsed = time.perf_counter() - t0
         write_text(tmp / "README.md", "\n".join([
             "# bayescrust demo (invented data)", "",
@@ -138,12 +126,12 @@ def cmd_demo(args) -> int:
             f"- `invert/`: every layer inverted ({method}); start with `invert/report.md`",
             *(["- `mcmc/`: the deep layer of TL-12 by MCMC (emcee), the main sampler; its "
                "probabilities, with their Monte Carlo errors, can be set beside the exact "
-               f"reference in `invert/` ({mcmc_s:.1f} s"
-               + (", run in a second process beside the other parts)" if mcmc_part[0]
-                  else ")")]
+               f"reference in `invert/` ({second_s['mcmc']:.1f} s{where})"]
               if method != "mcmc" else []),
-            f"- `compare/`: the deep layers under three thermal-state priors ({compare_method})",
-            "- `chart/`: probability of each interpretation against observed Vp",
+            f"- `compare/`: the deep layers under three thermal-state priors ({method}; "
+            f"{second_s['compare']:.1f} s{where})",
+            "- `chart/`: probability of each interpretation against observed Vp (exact; "
+            f"{second_s['chart']:.1f} s{where})",
             f"- `plan/`: which extra observation would settle the deep layer on TL-07 "
             f"(preposterior simulation on the exact path's design, importance reweighting; "
             f"{_DEMO_PLAN_SIMULATIONS} simulated data per candidate; {plan_s:.1f} s); start "
@@ -177,60 +165,76 @@ def cmd_demo(args) -> int:
     return 0
 
 
-def _mcmc_part(args, study, dest, capture=False):
-    """The demo's MCMC part (module level, so that a worker process can run it).
+def _second_part(args, study, tmp, method, capture=False):
+    """The parts that need nothing from the others: the ambiguous deep layer by MCMC (unless
+    every layer already is), the thermal-state comparison and the chart (module level, so that
+    a worker process can run it).
 
-    Returns ``(seconds, warning lines)``; with ``capture`` its messages are kept from the
-    terminal (a second process would interleave them, progress bar included) and its warnings
-    returned, for the parent to echo.
+    Returns ``({part: seconds}, warning lines)``; with ``capture`` the messages are kept from
+    the terminal (a second process would interleave them, progress bars included) and the
+    warnings returned, for the parent to echo.
     """
     import contextlib
     import io
 
-    t0 = time.perf_counter()
+    times = {}
     buf = io.StringIO()
     with contextlib.redirect_stderr(buf) if capture else contextlib.nullcontext():
-        do_invert(args, study, dest, method="mcmc", figures=True,
-                  layer_names=[_DEMO_MCMC_LAYER])
+        t = time.perf_counter()
+        if method != "mcmc":
+            say(args, f"demo: the deep layer of TL-12 by MCMC ({_DEMO_MCMC_LAYER!r})")
+            (tmp / "mcmc").mkdir()
+            do_invert(args, study, tmp / "mcmc", method="mcmc", figures=True,
+                      layer_names=[_DEMO_MCMC_LAYER])
+        times["mcmc"] = time.perf_counter() - t
+        t = time.perf_counter()
+        say(args, f"demo: comparing thermal-state priors for the deep layers ({method})")
+        (tmp / "compare").mkdir()
+        do_compare(args, study, tmp / "compare", method=method, figures=True,
+                   layer_names=_DEMO_COMPARE_LAYERS)
+        times["compare"] = time.perf_counter() - t
+        t = time.perf_counter()
+        say(args, "demo: probability chart for the deep layer")
+        (tmp / "chart").mkdir()
+        chart_args = argparse.Namespace(vp_min=None, vp_max=None, points=args.points,
+                                        seed=args.seed, quiet=args.quiet)
+        do_chart(chart_args, study, tmp / "chart", layer_name=_DEMO_CHART_LAYER,
+                 method="exact", figures=True)
+        times["chart"] = time.perf_counter() - t
     lines = [ln for ln in buf.getvalue().splitlines() if ln.startswith("bayescrust: warning")]
-    return time.perf_counter() - t0, lines
+    return times, lines
 
 
-def _start_mcmc_part(args, study, dest):
-    """Start the MCMC part: in a second process when the machine has two cores or more (it is
-    independent of the other parts, which then run beside it), else at once, in this one.
-
-    Returns ``(future_or_None, start_time)`` for :func:`_finish_mcmc_part`.
-    """
+def _start_second_part(args, study, tmp, method):
+    """Start :func:`_second_part`: in a second process when this process may use two cores or
+    more, else at once, in this one. Returns ``(future_or_None, result_or_None)`` for
+    :func:`_finish_second_part`."""
     import concurrent.futures as cf
     import multiprocessing as mp
 
-    t0 = time.perf_counter()
     cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
     if (cores or 1) < 2:
-        say(args, f"demo: the deep layer of TL-12 by MCMC ({_DEMO_MCMC_LAYER!r})")
-        _mcmc_part(args, study, dest)
-        return None, t0
-    say(args, f"demo: the deep layer of TL-12 by MCMC ({_DEMO_MCMC_LAYER!r}), in a second "
-              "process beside the other parts")
-    # spawn: a clean interpreter (no forked matplotlib or BLAS thread state); its messages are
-    # captured and its warnings echoed here when it is done
+        return None, _second_part(args, study, tmp, method)
+    say(args, "demo: MCMC run, thermal-state comparison and chart in a second process, beside "
+              "the other parts")
+    # spawn: a clean interpreter (no forked matplotlib or BLAS thread state)
     pool = cf.ProcessPoolExecutor(max_workers=1, mp_context=mp.get_context("spawn"))
-    future = pool.submit(_mcmc_part, args, study, dest, True)
+    future = pool.submit(_second_part, args, study, tmp, method, True)
     pool.shutdown(wait=False)
-    return future, t0
+    return future, None
 
 
-def _finish_mcmc_part(args, future, t0) -> float:
-    """Wait for the MCMC part started by :func:`_start_mcmc_part` (its errors re-raised);
-    returns its run time (s)."""
+def _finish_second_part(args, future, result) -> dict:
+    """Wait for the second process (its errors re-raised), echo its warnings; returns the run
+    time of each of its parts (s)."""
     if future is None:
-        return time.perf_counter() - t0
-    took, warned = future.result()
-    say(args, f"demo: MCMC part done in {took:.1f} s (in the second process)")
+        return result[0]
+    times, warned = future.result()
+    say(args, "demo: second process done (" + ", ".join(f"{k} {v:.1f} s"
+                                                         for k, v in times.items()) + ")")
     for line in warned:
         say(args, line)
-    return took
+    return times
 
 
 #: Reduced designs of the demo's profile plan (the study file's [plan] has the full ones).

@@ -176,9 +176,10 @@ def test_demo_runs(tmp_path):
         assert abs(g["posterior_probability"].sum() - 1) < SUM_TOL
 
 
-def test_demo_mcmc_part_echoes_its_warnings(tmp_path, monkeypatch, capsys):
-    # the demo's MCMC part runs in a second process with its messages captured: its warnings
-    # (e.g. not converged) must still reach the terminal, its progress output must not
+def test_demo_second_process_echoes_its_warnings(tmp_path, monkeypatch, capsys):
+    # the demo's MCMC, comparison and chart parts run in a second process with their messages
+    # captured: their warnings (e.g. not converged) must still reach the terminal, their
+    # progress output must not
     import argparse
 
     import bayescrust.cli.demo as demo
@@ -189,15 +190,19 @@ def test_demo_mcmc_part_echoes_its_warnings(tmp_path, monkeypatch, capsys):
               file=sys.stderr)
 
     monkeypatch.setattr(demo, "do_invert", fake_invert)
-    took, lines = demo._mcmc_part(argparse.Namespace(quiet=False), None, tmp_path, True)
+    monkeypatch.setattr(demo, "do_compare", lambda *a, **k: None)
+    monkeypatch.setattr(demo, "do_chart", lambda *a, **k: None)
+    args = argparse.Namespace(quiet=False, points=3, seed=None)
+    times, lines = demo._second_part(args, None, tmp_path, "exact", True)
+    assert set(times) == {"mcmc", "compare", "chart"}
     assert lines == ["bayescrust: warning: layer 'x': ConvergenceWarning: not converged"]
     assert capsys.readouterr().err == ""
 
     class Done:
         def result(self):
-            return took, lines
+            return times, lines
 
-    demo._finish_mcmc_part(argparse.Namespace(quiet=False), Done(), 0.0)
+    demo._finish_second_part(args, Done(), None)
     assert "ConvergenceWarning: not converged" in capsys.readouterr().err
 
 
