@@ -20,9 +20,9 @@ import warnings
 
 import numpy as np
 import pytest
+from test_profile_plan import _two_layer  # the planner tests' two-layer profile
 
 from bayescrust import Layer
-from bayescrust.inference.priors import Uniform
 from bayescrust.plan import Candidate, DegeneracyWarning, update
 from bayescrust.plan.preposterior import Settings
 from bayescrust.plan.profile import (
@@ -31,22 +31,13 @@ from bayescrust.plan.profile import (
     profile_ensemble,
     profile_states,
 )
-from bayescrust.profile import HalfSpaceState, HeatFlow, Profile, exact_profile
+from bayescrust.profile import HeatFlow, Profile, exact_profile
 from bayescrust.profile.exact import exact_design
 from bayescrust.profile.thermal import Uncoupled
 
 _SETTINGS = Settings(quantity="interval quantity")
 _N_DESIGNS = 6
 _MAX_RERUNS = 25
-
-
-def _two_layer(**kw):
-    th = HalfSpaceState(age_myr=Uniform(1.0, 20.0), mantle_temperature_c=1350.0,
-                        scatter_c=60.0)
-    layers = [Layer("L1", top_km=3.0, bottom_km=5.0, vp=(7.3, 0.15)),
-              Layer("L2", top_km=5.0, bottom_km=7.0, vp=(7.7, 0.15))]
-    return Profile(layers, th, water_depth_km=3.0, rocks=[("gabbro", "harzburgite")] * 2,
-                   priors=[{"melt_fraction": 0.0}] * 2, pressure="reference", **kw)
 
 
 def _uncoupled():
