@@ -211,7 +211,7 @@ class ProfileRerun:
         _, q, log_q, inside = adaptive_design(model, rng, centres, n_points)
         ll, _ = weigh_design(model, q)
         t = np.asarray(q["temperature_c"], float)
-        hf = prof.heat_flow if (prof.heat_flow and prof.heat_flow.mode != "off") else None
+        hf = prof.active_heat_flow
         if not th.coupled and hf is not None and i == 0:  # as the exact path
             ll = ll + hf.log_likelihood(th.conductivity_w_mk * (t - th.surface_temperature_c)
                                         / prof.mid_depths_km[0])
@@ -234,7 +234,7 @@ class ProfileRerun:
         else:
             phi, total = rep["phi"], np.zeros(rep["phi"].shape[0])
         geo = th.geotherm_c(prof.mid_depths_km, phi) if th.coupled else None
-        hf = prof.heat_flow if (prof.heat_flow and prof.heat_flow.mode != "off") else None
+        hf = prof.active_heat_flow
         if th.coupled and hf is not None:
             total = total + hf.log_likelihood(th.heat_flow_mw_m2(phi))
         if th.coupled and cand.observable == "heat_flow":

@@ -320,7 +320,7 @@ def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_e
         mat = np.stack([v.astype(float) for v in ind.values()], axis=1)
         tables.append(LayerTable(profile, ll, q["temperature_c"], mat, n_designs, grid))
         designs.append((theta, q, ll, list(ind)))
-    hf = profile.heat_flow if (profile.heat_flow and profile.heat_flow.mode != "off") else None
+    hf = profile.active_heat_flow
     mids = profile.mid_depths_km
     t_design = time.perf_counter() - t0
 

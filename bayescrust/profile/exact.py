@@ -115,7 +115,7 @@ def _one_replicate(profile: Profile, models, hyps, rng, n_layer, n_thermal, keep
     n_phi = phi.shape[0]
     mids = profile.mid_depths_km
     geo = th.geotherm_c(mids, phi) if th.coupled else None
-    hf = profile.heat_flow if (profile.heat_flow and profile.heat_flow.mode != "off") else None
+    hf = profile.active_heat_flow
     log_l = np.zeros((n_phi, profile.n_layers))
     cond_h, cond_m, layer_w, layer_q, layer_ll, layer_u, thetas = [], [], [], [], [], [], []
     for i, model in enumerate(models):

@@ -173,6 +173,13 @@ class Profile:
                      ("temperature_range_c", (lo, hi)), ("basement_km", base)):
             object.__setattr__(self, k, v)
 
+    @property
+    def active_heat_flow(self):
+        """The heat-flow observation that enters the likelihood: ``heat_flow`` unless it is
+        absent or switched off (mode ``"off"``), else ``None``."""
+        hf = self.heat_flow
+        return hf if (hf and hf.mode != "off") else None
+
     # ------------------------------------------------------------------ geometry
     @property
     def n_layers(self) -> int:
