@@ -1,4 +1,5 @@
-"""Compiled (numba) per-element kernels for the hot spots of the forward model.
+"""Compiled (numba) per-element kernels: the forward model's hot spots and, for its default
+settings, the whole forward model in one loop (:func:`forward`).
 
 Imported only when numba is installed and :func:`bayescrust.physics._jit.enabled` is true. The
 physics is not restated here: the kernels call the same functions as the numpy reference
@@ -20,9 +21,14 @@ import numpy as np
 from numba import njit
 from numba.extending import register_jitable
 
+from ._data import CELSIUS_TO_KELVIN
 from ._jit import JITABLE
-from .inclusions import _pq
+from .anelastic import _band_factors, _j02_q_inv
+from .fluids import _brine, _melt
+from .inclusions import _geometry_terms, _pq, _theta_f1
 from .minerals import _state_formula, _table_columns
+from .pores import _close, _gassmann_k
+from .serpentinization import _hs_upper
 
 # the shared physics functions become callable from compiled code (they stay the same objects)
 for _fn in JITABLE:
@@ -66,57 +72,59 @@ def _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, inc, e):
 @njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
 def _dem_loop(host, inc, par):
     """The DEM integration of :func:`inclusions._dem` element by element (see :func:`dem`)."""
-    n_fixed = int(par[0])
-    log_change, max_steps, solid_factor, tiny = par[1], par[2], par[3], par[4]
-    m = inc.shape[1]
     n = host.shape[1]
     out = np.empty((2, n))
     for e in range(n):
-        km = host[0, e]
-        gm = host[1, e]
-        te = host[2, e]
-        kmax = km
-        gmax = gm
-        solid = False
-        for j in range(m):
-            kmax = max(kmax, inc[_K, j, e])
-            gmax = max(gmax, inc[_G, j, e])
-            if inc[_G, j, e] > 0.0 and inc[_W, j, e] > 0.0:
-                solid = True
-        lk_lo = math.log(tiny * km)
-        lg_lo = math.log(tiny * gm)
-        lk_hi = math.log(2.0 * kmax)
-        lg_hi = math.log(2.0 * gmax)
-        lk = math.log(km)
-        lg = math.log(gm)
-        a_k, a_g = _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, inc, e)
-        if n_fixed < 0:
-            if not te > 0.0:
-                n_el = 0
-            else:
-                stiff = te * max(abs(a_k), abs(a_g))
-                if solid:
-                    stiff *= solid_factor
-                n_el = int(min(max(math.ceil(stiff / log_change), 1.0), max_steps))
-        else:
-            n_el = n_fixed
-        h = te / max(n_el, 1)
-        h2 = 0.5 * h
-        h6 = h / 6.0
-        for step in range(n_el):
-            if step:
-                a_k, a_g = _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, inc, e)
-            b_k, b_g = _dem_rate1(lk + h2 * a_k, lg + h2 * a_g, lk_lo, lk_hi, lg_lo, lg_hi,
-                                  inc, e)
-            c_k, c_g = _dem_rate1(lk + h2 * b_k, lg + h2 * b_g, lk_lo, lk_hi, lg_lo, lg_hi,
-                                  inc, e)
-            d_k, d_g = _dem_rate1(lk + h * c_k, lg + h * c_g, lk_lo, lk_hi, lg_lo, lg_hi,
-                                  inc, e)
-            lk = max(lk + ((a_k + d_k) + 2.0 * (b_k + c_k)) * h6, lk_lo)
-            lg = max(lg + ((a_g + d_g) + 2.0 * (b_g + c_g)) * h6, lg_lo)
-        out[0, e] = math.exp(lk)
-        out[1, e] = math.exp(lg)
+        out[0, e], out[1, e] = _dem_el(host[0, e], host[1, e], host[2, e], inc, e, par)
     return out
+
+
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
+def _dem_el(km, gm, te, inc, e, par):
+    """K*, G* of element ``e``: host (km, gm), t_end ``te``, inclusions ``inc[:, :, e]``."""
+    n_fixed = int(par[0])
+    log_change, max_steps, solid_factor, tiny = par[1], par[2], par[3], par[4]
+    m = inc.shape[1]
+    kmax = km
+    gmax = gm
+    solid = False
+    for j in range(m):
+        kmax = max(kmax, inc[_K, j, e])
+        gmax = max(gmax, inc[_G, j, e])
+        if inc[_G, j, e] > 0.0 and inc[_W, j, e] > 0.0:
+            solid = True
+    lk_lo = math.log(tiny * km)
+    lg_lo = math.log(tiny * gm)
+    lk_hi = math.log(2.0 * kmax)
+    lg_hi = math.log(2.0 * gmax)
+    lk = math.log(km)
+    lg = math.log(gm)
+    a_k, a_g = _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, inc, e)
+    if n_fixed < 0:
+        if not te > 0.0:
+            n_el = 0
+        else:
+            stiff = te * max(abs(a_k), abs(a_g))
+            if solid:
+                stiff *= solid_factor
+            n_el = int(min(max(math.ceil(stiff / log_change), 1.0), max_steps))
+    else:
+        n_el = n_fixed
+    h = te / max(n_el, 1)
+    h2 = 0.5 * h
+    h6 = h / 6.0
+    for step in range(n_el):
+        if step:
+            a_k, a_g = _dem_rate1(lk, lg, lk_lo, lk_hi, lg_lo, lg_hi, inc, e)
+        b_k, b_g = _dem_rate1(lk + h2 * a_k, lg + h2 * a_g, lk_lo, lk_hi, lg_lo, lg_hi,
+                              inc, e)
+        c_k, c_g = _dem_rate1(lk + h2 * b_k, lg + h2 * b_g, lk_lo, lk_hi, lg_lo, lg_hi,
+                              inc, e)
+        d_k, d_g = _dem_rate1(lk + h * c_k, lg + h * c_g, lk_lo, lk_hi, lg_lo, lg_hi,
+                              inc, e)
+        lk = max(lk + ((a_k + d_k) + 2.0 * (b_k + c_k)) * h6, lk_lo)
+        lg = max(lg + ((a_g + d_g) + 2.0 * (b_g + c_g)) * h6, lg_lo)
+    return math.exp(lk), math.exp(lg)
 
 
 def dem(km, gm, k_i, g_i, w, t_end, geo, n_steps, log_change, max_steps, solid_factor, tiny):
@@ -173,20 +181,174 @@ def mineral_state(table, temperature_k, pressure_gpa):
     return out[0], out[1], out[2]
 
 
-def _drop_stale_cache(kernels=(_dem_loop, _mineral_state_loop, _dem_rate1)) -> None:
+# --------------------------------------------------------------------------------------------
+# the whole forward model of the default settings, one element at a time
+# --------------------------------------------------------------------------------------------
+#: Entries of the settings vector of :func:`_forward_loop` (see :func:`forward`).
+_FP_SALINITY, _FP_CLOSURE, _FP_ANELASTIC, _FP_FREQ, _FP_GRAIN, _FP_HALF_COT, _FP_QMAX = range(7)
+_FP_DEM = 7  # five DEM settings follow (the ``par`` of :func:`_dem_loop`)
+
+
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
+def _hill(x, k, g):
+    """Voigt-Reuss-Hill mean of positive moduli: :func:`mixing._positive_hill` per element."""
+    kv = 0.0
+    gv = 0.0
+    kr = 0.0
+    gr = 0.0
+    for j in range(x.size):
+        kv += x[j] * k[j]
+        gv += x[j] * g[j]
+        kr += x[j] / k[j]
+        gr += x[j] / g[j]
+    return 0.5 * (kv + 1.0 / kr), 0.5 * (gv + 1.0 / gr)
+
+
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
+def _dem_single(km, gm, k_i, alpha, frac, inc, par):
+    """DEM of one fluid (or empty) inclusion phase: :func:`inclusions._dem` for one element."""
+    theta, f = _theta_f1(alpha)
+    geo = _geometry_terms(theta, f)
+    inc[0, 0, 0] = k_i
+    inc[1, 0, 0] = 0.0
+    inc[2, 0, 0] = 1.0  # w = frac / frac
+    for j in range(_N_GEO):
+        inc[3 + j, 0, 0] = geo[j]
+    return _dem_el(km, gm, -math.log1p(-frac), inc, 0, par)
+
+
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
+def _forward_loop(fr, sc, modes, serp_modes, um, cols, par):
+    """Vp, Vs, density of every element: ``ForwardModel._solid`` then ``_finish``, fused.
+
+    ``fr`` (n, r) rock fractions; ``sc`` (8, n) temperature (C), pressure, porosity, aspect
+    ratio, melt fraction, melt aspect ratio, serpentinisation, pore pressure; ``modes``
+    (r, m), ``serp_modes`` (m,) and ``um`` (r,) the model's recipe arrays; ``cols`` (14, m) the
+    packed mineral table; ``par`` the settings (``_FP_*``).
+    """
+    n, nr = fr.shape
+    m = modes.shape[1]
+    rho_m = np.empty(m)
+    k_m = np.empty(m)
+    g_m = np.empty(m)
+    x = np.empty(m)
+    x_f = np.empty(m)
+    inc = np.zeros((3 + _N_GEO, 1, 1))
+    dem_par = par[_FP_DEM:_FP_DEM + 5]
+    out = np.empty((3, n))
+    for e in range(n):
+        t_c = sc[0, e]
+        p = sc[1, e]
+        phi = sc[2, e]
+        ar = sc[3, e]
+        melt = sc[4, e]
+        serp = sc[6, e]
+        t_k = t_c + CELSIUS_TO_KELVIN
+        # --- the solid: minerals at (P, T), their fractions, Hill mean, serpentinite (HS)
+        for j in range(m):
+            rho_m[j], k_m[j], g_m[j] = _state_formula(
+                t_k, p, cols[0, j], cols[1, j], cols[2, j], cols[3, j], cols[4, j], cols[5, j],
+                cols[6, j], cols[7, j], cols[8, j], cols[9, j], cols[10, j], cols[11, j],
+                cols[12, j], cols[13, j])
+        um_sum = 0.0
+        for i in range(nr):
+            um_sum += fr[e, i] * um[i]
+        s_rock = serp * um_sum
+        rho_s = 0.0
+        for j in range(m):
+            v = 0.0
+            for i in range(nr):
+                v += (fr[e, i] - serp * (fr[e, i] * um[i])) * modes[i, j]
+            x[j] = v + s_rock * serp_modes[j]
+            rho_s += x[j] * rho_m[j]
+        if s_rock > 0.0:
+            fresh = 1.0 - s_rock
+            for j in range(m):
+                x_f[j] = (x[j] - s_rock * serp_modes[j]) / fresh if fresh > 1e-9 else x[j]
+            k_f, g_f = _hill(x_f, k_m, g_m)
+            k_sp, g_sp = _hill(serp_modes, k_m, g_m)
+            k_s, g_s = _hs_upper(k_f, g_f, k_sp, g_sp, s_rock)
+        else:
+            k_s, g_s = _hill(x, k_m, g_m)
+        # --- melt films, then empty pores in the melt-bearing solid, saturated by Gassmann
+        k = k_s
+        g = g_s
+        rho = rho_s
+        if phi > 0.0 or melt > 0.0:
+            p_pore = sc[7, e]
+            rho_w = 1.0
+            k_w = 1.0
+            rho_l = 1.0
+            k_l = 1.0
+            if phi > 0.0:
+                rho_w, k_w = _brine(t_c, p_pore, par[_FP_SALINITY])
+            if melt > 0.0:
+                rho_l, k_l = _melt(t_c, p)
+            phi_i = phi
+            ar_i = ar
+            if par[_FP_CLOSURE] != 0.0:
+                phi_i, ar_i = _close(phi, ar, p - p_pore, k_s, g_s)
+            k_h = k_s
+            g_h = g_s
+            if melt > 0.0:
+                fm = melt / max(1.0 - phi_i, 1e-12)
+                k_h, g_h = _dem_single(k_h, g_h, k_l, sc[5, e], fm, inc, dem_par)
+            k = k_h
+            g = g_h
+            if phi_i > 0.0:
+                k_d, g = _dem_single(k_h, g_h, 0.0, ar_i, phi_i, inc, dem_par)
+                k = _gassmann_k(k_d, k_h, k_w, phi_i)
+            rho = (1.0 - phi_i - melt) * rho_s + phi_i * rho_w + melt * rho_l
+        vp = math.sqrt((k + 4.0 / 3.0 * g) / rho)
+        vs = math.sqrt(g / rho)
+        if par[_FP_ANELASTIC] != 0.0:
+            q = min(_j02_q_inv(t_k, p, par[_FP_FREQ], par[_FP_GRAIN]), par[_FP_QMAX])
+            ratio2 = vs * vs / (vp * vp) if vp > 0.0 else 0.0
+            fp, fs = _band_factors(q, par[_FP_HALF_COT], ratio2)
+            vp = vp * fp
+            vs = vs * fs
+        out[0, e] = vp
+        out[1, e] = vs
+        out[2, e] = rho
+    return out
+
+
+def forward(model, f, sc):
+    """Vp, Vs, density of flat rows by :func:`_forward_loop` for a ``ForwardModel`` whose
+    settings :func:`fused_settings` accepts; ``f`` (n, r), ``sc`` (8, n) as there."""
+    par = model._fused
+    hit = _COLUMNS.get(id(model._table))
+    if hit is None or hit[0] is not model._table:
+        hit = _COLUMNS[id(model._table)] = (model._table, np.stack(_table_columns(model._table)))
+    return _forward_loop(f, sc, model._modes, model._serp_modes, model._ultramafic, hit[1], par)
+
+
+def _drop_stale_cache(kernels=(_dem_loop, _mineral_state_loop, _dem_rate1,
+                                      _forward_loop)) -> None:
     """Delete numba's cached machine code of this module when a shared physics function changed.
 
     numba's on-disk cache is keyed on this file only: an edit of a :func:`~._jit.jitable`
     function in another module (e.g. :func:`inclusions._pq`) would otherwise leave the old
-    physics compiled in. A hash of their source is kept beside the cache; a different hash
-    empties this module's entries (they recompile on first use).
+    physics compiled in, and so would an edit of a data table whose numbers are module-level
+    constants of those functions (e.g. the Batzle & Wang coefficients). A hash of the source of
+    every module holding a jitable function and of ``data/*.toml`` is kept beside the cache; a
+    different hash empties this module's entries (they recompile on first use).
     """
     import glob
     import hashlib
     import inspect
     import os
 
-    src = "".join(inspect.getsource(f) for f in JITABLE)
+    # the whole modules (their module-level constants are frozen into compiled code) and the
+    # data tables those constants are read from
+    import sys
+
+    mods = sorted({f.__module__ for f in JITABLE} | {__name__})
+    src = "".join(inspect.getsource(sys.modules[m]) for m in mods)
+    data = os.path.join(os.path.dirname(__file__), "data")
+    for name in sorted(glob.glob(os.path.join(data, "*.toml"))):
+        with open(name, encoding="utf-8") as fh:
+            src += fh.read()
     stamp = hashlib.sha256(src.encode()).hexdigest()
     path = getattr(getattr(kernels[0], "_cache", None), "_cache_path", None)
     if not path:

@@ -36,6 +36,7 @@ import numpy as np
 from bayescrust.physics import premelting
 from bayescrust.physics._checks import as_float_array, check_range
 from bayescrust.physics._data import CELSIUS_TO_KELVIN, load_table
+from bayescrust.physics._jit import jitable
 
 __all__ = [
     "ANELASTIC_DATA",
@@ -72,13 +73,22 @@ _D_MIN_UM = 1.0e-6
 
 def _q_inv_jackson2002(temperature_k, pressure_gpa, frequency_hz, grain_size_mm):
     """Shear Q^-1 (unclipped) and frequency exponent of Jackson et al. (2002); no checks."""
-    t = np.maximum(np.asarray(temperature_k, dtype=float), _T_MIN_K)
-    d_um = np.maximum(np.asarray(grain_size_mm, dtype=float) * _UM_PER_MM, _D_MIN_UM)
-    period = 1.0 / np.asarray(frequency_hz, dtype=float)
-    h = _J02_E + (np.asarray(pressure_gpa, dtype=float) - _J02_PREF) * _PA_PER_GPA * _J02_V
+    q = _j02_q_inv(np.asarray(temperature_k, dtype=float), np.asarray(pressure_gpa, dtype=float),
+                   np.asarray(frequency_hz, dtype=float), np.asarray(grain_size_mm, dtype=float))
+    return q, _J02_ALPHA
+
+
+@jitable
+def _j02_q_inv(temperature_k, pressure_gpa, frequency_hz, grain_size_mm):
+    """Unclipped shear Q^-1 of Jackson et al. (2002) on arrays or scalars (the compiled forward
+    model calls it per element): A [T_o d^-1 exp(-(E + (P - P_r) V)/(R T))]^alpha."""
+    t = np.maximum(temperature_k, _T_MIN_K)
+    d_um = np.maximum(grain_size_mm * _UM_PER_MM, _D_MIN_UM)
+    period = 1.0 / frequency_hz
+    h = _J02_E + (pressure_gpa - _J02_PREF) * _PA_PER_GPA * _J02_V
     # Work in logs: exp(-E/RT) underflows in cold rock, where Q^-1 -> 0 is the right answer.
     log_x = np.log(period) - np.log(d_um) - h / (_R * t)
-    return _J02_A * np.exp(_J02_ALPHA * log_x), _J02_ALPHA
+    return _J02_A * np.exp(_J02_ALPHA * log_x)
 
 
 def _q_inv_yamauchi_takei2016(temperature_k, pressure_gpa, frequency_hz, grain_size_mm):
@@ -113,9 +123,15 @@ def _factors(q_s_inv, alpha, vp, vs):
     vp = np.asarray(vp, dtype=float)
     vs = np.asarray(vs, dtype=float)
     ratio2 = np.divide(vs * vs, vp * vp, out=np.zeros(np.broadcast(vp, vs).shape), where=vp > 0)
+    fp, fs = _band_factors(q_s_inv, _half_cot(alpha), ratio2)
+    return fp, fs, q_s_inv
+
+
+@jitable
+def _band_factors(q_s_inv, half_cot, ratio2):
+    """fp, fs of :func:`_factors` from the clipped Q_S^-1, cot(alpha pi/2)/2 and (Vs/Vp)^2."""
     q_p_inv = (4.0 / 3.0) * ratio2 * q_s_inv
-    c = _half_cot(alpha)
-    return 1.0 - c * q_p_inv, 1.0 - c * q_s_inv, q_s_inv
+    return 1.0 - half_cot * q_p_inv, 1.0 - half_cot * q_s_inv
 
 
 def _factors_jackson2002(temperature_k, pressure_gpa, frequency_hz, grain_size_mm, vp, vs):

@@ -15,6 +15,7 @@ import numpy as np
 
 from bayescrust.physics._checks import check_range
 from bayescrust.physics._data import load_table
+from bayescrust.physics._jit import jitable
 
 __all__ = ["FLUID_DATA", "basaltic_melt", "seawater"]
 
@@ -26,6 +27,10 @@ _BW = FLUID_DATA["batzle_wang_1992"]
 _RHO_W = np.asarray(_BW["water_density_coeffs"], dtype=float)  # [T power, P power]
 _RHO_W_SCALE = float(_BW["water_density_scale"])
 _RHO_B = {k: float(v) for k, v in _BW["brine_density"].items()}
+# eq. 27b's coefficients as plain floats (the kernels are also compiled, where a dict is not)
+_RB_S1, _RB_S2, _RB_SCALE = _RHO_B["s1"], _RHO_B["s2"], _RHO_B["scale"]
+_RB_P, _RB_PS, _RB_T, _RB_TT = _RHO_B["p"], _RHO_B["ps"], _RHO_B["t"], _RHO_B["tt"]
+_RB_TS, _RB_TP, _RB_TPS = _RHO_B["ts"], _RHO_B["tp"], _RHO_B["tps"]
 _V_W = np.asarray(_BW["water_velocity"]["w"], dtype=float)  # [T power, P power]
 _V_B = _BW["brine_velocity"]
 _V_B_S1_T = np.asarray(_V_B["s1_t"], dtype=float)
@@ -54,14 +59,25 @@ _P_RANGE_GPA = (0.0, 15.0)
 _S_RANGE = (0.0, 0.3)
 
 
-def _poly2(coeffs: np.ndarray, x: np.ndarray, y: np.ndarray) -> np.ndarray:
-    """Evaluate sum_ij coeffs[i, j] x**i y**j by Horner's rule in x (broadcasting x, y)."""
-    out = np.zeros(np.broadcast(x, y).shape)
-    for row in coeffs[::-1]:
-        inner = np.zeros_like(out)
-        for c in row[::-1]:
-            inner = inner * y + c
+@jitable
+def _poly2(coeffs, x, y):
+    """Evaluate sum_ij coeffs[i, j] x**i y**j by Horner's rule in x (broadcasting x, y; also
+    on scalars in the compiled kernels)."""
+    out = 0.0 * x * y
+    for i in range(coeffs.shape[0] - 1, -1, -1):
+        inner = 0.0 * y
+        for j in range(coeffs.shape[1] - 1, -1, -1):
+            inner = inner * y + coeffs[i, j]
         out = out * x + inner
+    return out
+
+
+@jitable
+def _poly1(coeffs, x):
+    """Evaluate sum_i coeffs[i] x**i by Horner's rule (numpy's polyval order of operations)."""
+    out = coeffs[coeffs.shape[0] - 1] + 0.0 * x
+    for i in range(coeffs.shape[0] - 2, -1, -1):
+        out = coeffs[i] + out * x
     return out
 
 
@@ -72,22 +88,29 @@ def _seawater(temperature_c, pressure_gpa, salinity):
     (``data/fluids.toml``, ``[batzle_wang_1992.validity]``), so the result is finite for any
     finite input. Arguments broadcast against each other.
     """
-    t = np.clip(np.asarray(temperature_c, dtype=float), *_T_FIT_C)
-    p = np.clip(np.asarray(pressure_gpa, dtype=float) * _MPA_PER_GPA, *_P_FIT_MPA)
-    s = np.clip(np.asarray(salinity, dtype=float), 0.0, None)
+    return _brine(np.asarray(temperature_c, dtype=float), np.asarray(pressure_gpa, dtype=float),
+                  np.asarray(salinity, dtype=float))
+
+
+@jitable
+def _brine(temperature_c, pressure_gpa, salinity):
+    """:func:`_seawater` on arrays or scalars (the compiled forward model calls it per element):
+    Batzle & Wang (1992) eqs. 27a, 27b, 28 and 29."""
+    t = np.minimum(np.maximum(temperature_c, _T_FIT_C[0]), _T_FIT_C[1])
+    p = np.minimum(np.maximum(pressure_gpa * _MPA_PER_GPA, _P_FIT_MPA[0]), _P_FIT_MPA[1])
+    s = np.maximum(salinity, 0.0)
 
     rho_w = 1.0 + _RHO_W_SCALE * _poly2(_RHO_W, t, p)  # eq. 27a
-    c = _RHO_B
     rho = rho_w + s * (  # eq. 27b
-        c["s1"]
-        + c["s2"] * s
-        + c["scale"]
-        * (c["p"] * p + c["ps"] * p * s + t * (c["t"] + c["tt"] * t + c["ts"] * s + c["tp"] * p
-                                               + c["tps"] * p * s))
+        _RB_S1
+        + _RB_S2 * s
+        + _RB_SCALE
+        * (_RB_P * p + _RB_PS * p * s + t * (_RB_T + _RB_TT * t + _RB_TS * s + _RB_TP * p
+                                             + _RB_TPS * p * s))
     )
 
     v_w = _poly2(_V_W, t, p)  # eq. 28, m/s
-    s1 = np.polynomial.polynomial.polyval(t, _V_B_S1_T) + _V_B_S1_P[0] * p + _V_B_S1_P[1] * p**2
+    s1 = _poly1(_V_B_S1_T, t) + _V_B_S1_P[0] * p + _V_B_S1_P[1] * p**2
     s1 = s1 + _V_B_S1_TP * t * p
     s15 = _V_B_S15_P[0] + _V_B_S15_P[1] * p + _V_B_S15_P[2] * p**2
     v_b = v_w + s * s1 + s**1.5 * s15 + _V_B_S2 * s**2  # eq. 29, m/s
@@ -108,8 +131,14 @@ def _basaltic_melt(temperature_c, pressure_gpa):
     ``data/fluids.toml``. Temperature is held inside ``temperature_window_c`` and pressure at
     >= 0, so the result is finite for any finite input. Arguments broadcast.
     """
-    t = np.clip(np.asarray(temperature_c, dtype=float), *_MELT_T_WINDOW_C)
-    p = np.clip(np.asarray(pressure_gpa, dtype=float), 0.0, None)
+    return _melt(np.asarray(temperature_c, dtype=float), np.asarray(pressure_gpa, dtype=float))
+
+
+@jitable
+def _melt(temperature_c, pressure_gpa):
+    """:func:`_basaltic_melt` on arrays or scalars (called per element by the compiled model)."""
+    t = np.minimum(np.maximum(temperature_c, _MELT_T_WINDOW_C[0]), _MELT_T_WINDOW_C[1])
+    p = np.maximum(pressure_gpa, 0.0)
     rho0 = _MELT_RHO0 * np.exp(-_MELT_ALPHA * (t - _MELT_T0_C))
     x = 1.0 + _MELT_KP * p / _MELT_K0
     rho = rho0 * x ** (1.0 / _MELT_KP)

@@ -122,6 +122,32 @@ def _theta_f(alpha):
 def _geometry(aspect):
     """Aspect-only constants of the Wu / Berryman F-functions (computed once per call)."""
     t, f = _theta_f(aspect)
+    return _geometry_terms(t, f)
+
+
+@jitable
+def _theta_f1(alpha):
+    """:func:`_theta_f` of one aspect ratio (the compiled forward model): the same closed forms
+    and series, chosen by a branch instead of masks (tested equal in test_accel.py)."""
+    u = 1.0 - alpha * alpha
+    if abs(u) < _SERIES_U:
+        gs = 0.0
+        hs = 0.0
+        for c in _G_COEF:
+            gs = gs * u + c
+        for c in _H_COEF:
+            hs = hs * u + c
+        return alpha * gs, alpha * alpha * hs
+    if u > 0.0:
+        theta = alpha / u**1.5 * (np.arccos(alpha) - alpha * np.sqrt(u))
+    else:
+        theta = alpha / (-u) ** 1.5 * (alpha * np.sqrt(-u) - np.arccosh(alpha))
+    return theta, alpha * alpha * (3.0 * theta - 2.0) / u
+
+
+@jitable
+def _geometry_terms(t, f):
+    """The 15 aspect-only terms c1..c13, f, theta of :func:`_pq` from theta and f."""
     return (
         1.5 * (f + t),  # c1
         1.5 * f + 2.5 * t - 4.0 / 3.0,  # c2

@@ -20,6 +20,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from bayescrust.physics._jit import jitable
+
 __all__ = ["POROUS_FLUID_MODES", "close_cracks", "gassmann", "walsh_closing_pressure_gpa"]
 
 #: Pore-fluid modes of the forward model.
@@ -56,11 +58,16 @@ def walsh_closing_pressure_gpa(aspect_ratio, k_m, g_m):
     >>> round(float(walsh_closing_pressure_gpa(1e-3, 80.0, 40.0)), 3)
     0.088
     """
-    k_m = np.asarray(k_m, float)
-    g_m = np.asarray(g_m, float)
+    return _walsh(np.asarray(aspect_ratio, float), np.asarray(k_m, float),
+                  np.asarray(g_m, float))
+
+
+@jitable
+def _walsh(aspect_ratio, k_m, g_m):
+    """:func:`walsh_closing_pressure_gpa` on arrays or scalars (compiled forward model)."""
     e = 9.0 * k_m * g_m / (3.0 * k_m + g_m)
     nu = (3.0 * k_m - 2.0 * g_m) / (2.0 * (3.0 * k_m + g_m))
-    return np.pi * np.asarray(aspect_ratio, float) * e / (4.0 * (1.0 - nu * nu))
+    return np.pi * aspect_ratio * e / (4.0 * (1.0 - nu * nu))
 
 
 def close_cracks(porosity, aspect_ratio, effective_pressure_gpa, k_m, g_m):
@@ -87,10 +94,17 @@ def close_cracks(porosity, aspect_ratio, effective_pressure_gpa, k_m, g_m):
     Only flat cracks close this way; for aspect ratios near 1 (pores) P_c is far above crustal
     pressures and the scaling leaves them essentially unchanged.
     """
-    pc = walsh_closing_pressure_gpa(aspect_ratio, k_m, g_m)
-    pe = np.maximum(np.asarray(effective_pressure_gpa, float), 0.0)
-    frac = np.clip(1.0 - pe / pc, 0.0, 1.0)
-    return np.asarray(porosity, float) * frac, np.maximum(np.asarray(aspect_ratio) * frac, 1e-6)
+    return _close(*(np.asarray(x, float) for x in (porosity, aspect_ratio,
+                                                    effective_pressure_gpa, k_m, g_m)))
+
+
+@jitable
+def _close(porosity, aspect_ratio, effective_pressure_gpa, k_m, g_m):
+    """:func:`close_cracks` on arrays or scalars (compiled forward model)."""
+    pc = _walsh(aspect_ratio, k_m, g_m)
+    pe = np.maximum(effective_pressure_gpa, 0.0)
+    frac = np.minimum(np.maximum(1.0 - pe / pc, 0.0), 1.0)
+    return porosity * frac, np.maximum(aspect_ratio * frac, 1e-6)
 
 
 def gassmann(k_dry, g_dry, k_mineral, k_fluid, porosity):
@@ -124,10 +138,16 @@ def gassmann(k_dry, g_dry, k_mineral, k_fluid, porosity):
     49.14
     """
     k_dry = np.asarray(k_dry, float)
-    k0 = np.asarray(k_mineral, float)
-    phi = np.asarray(porosity, float)
-    b = 1.0 - k_dry / k0
-    den = phi / np.asarray(k_fluid, float) + (1.0 - phi) / k0 - k_dry / (k0 * k0)
     with np.errstate(divide="ignore", invalid="ignore"):
-        add = np.where(den > 0.0, b * b / np.where(den > 0.0, den, 1.0), 0.0)
-    return k_dry + add, np.asarray(g_dry, float) + 0.0 * add
+        k_sat = _gassmann_k(k_dry, np.asarray(k_mineral, float), np.asarray(k_fluid, float),
+                            np.asarray(porosity, float))
+    return k_sat, np.asarray(g_dry, float) + 0.0 * k_sat
+
+
+@jitable
+def _gassmann_k(k_dry, k0, k_fluid, phi):
+    """Gassmann's K_sat on arrays or scalars (compiled forward model); the fluid term is 0 where
+    its denominator is not positive (no fluid-filled porosity)."""
+    b = 1.0 - k_dry / k0
+    den = phi / k_fluid + (1.0 - phi) / k0 - k_dry / (k0 * k0)
+    return k_dry + (den > 0.0) * (b * b / np.maximum(den, 1e-300))

@@ -22,7 +22,7 @@ from types import MappingProxyType
 
 import numpy as np
 
-from . import anelastic, fluids, inclusions, minerals, mixing, pores, serpentinization
+from . import _jit, anelastic, fluids, inclusions, minerals, mixing, pores, serpentinization
 from ._checks import as_float_array, check_range
 from ._data import CELSIUS_TO_KELVIN, load_table
 
@@ -245,6 +245,7 @@ class ForwardModel:
     _serp_modes: np.ndarray = field(init=False, repr=False)
     _ultramafic: np.ndarray = field(init=False, repr=False)
     _table: object = field(init=False, repr=False)
+    _fused: np.ndarray | None = field(init=False, repr=False)
 
     def __post_init__(self):
         if isinstance(self.rocks, str | Rock):
@@ -282,6 +283,22 @@ class ForwardModel:
         object.__setattr__(self, "_serp_modes", serp_modes)
         object.__setattr__(self, "_ultramafic", np.array([r.ultramafic for r in rocks], float))
         object.__setattr__(self, "_table", minerals.mineral_table(mineral_names))
+        object.__setattr__(self, "_fused", self._fused_settings())
+
+    def _fused_settings(self) -> np.ndarray | None:
+        """Settings vector of the compiled whole-model kernel (``physics._accel.forward``), or
+        None where the settings need the numpy path (any mixing but Hill, another inclusion
+        scheme, isolated pores, the mineral-Hill serpentinite, an attenuation law other than
+        Jackson et al. 2002). The kernel runs only when the compiled kernels are on."""
+        if (self.mixing, self.inclusion_scheme, self.pore_fluid, self.serpentine_mixing) != (
+                "hill", "dem", "connected", "hs_upper") or (
+                self.anelastic and self.attenuation_law != "jackson2002"):
+            return None
+        return np.array([
+            self.salinity, float(self.crack_closure), float(self.anelastic), self.frequency_hz,
+            self.grain_size_mm, float(anelastic._half_cot(anelastic._J02_ALPHA)),
+            anelastic._Q_INV_MAX, -1.0, inclusions.DEM_LOG_CHANGE_PER_STEP,
+            inclusions.DEM_MAX_STEPS, inclusions.DEM_SOLID_INCLUSION_FACTOR, inclusions._TINY])
 
     @property
     def rock_names(self) -> tuple[str, ...]:
@@ -348,6 +365,11 @@ class ForwardModel:
             # batch of one (CLI, users' scripts): one array instead of nine broadcasts; the
             # same rows as the general path below (tested equal)
             flat = np.array(scalars, dtype=float).reshape(-1, 1)
+            if self._fused is not None and _jit.enabled():
+                from bayescrust.physics import _accel
+
+                out = _accel.forward(self, np.array(f[None, :], dtype=float), flat)
+                return out[0, 0].reshape(()), out[1, 0].reshape(()), out[2, 0].reshape(())
             solid = self._solid(f[None, :], flat[0], flat[1], flat[6])
             vp, vs, rho = self._finish(*solid, *flat[[0, 1, 2, 3, 4, 5, 7]])
             return vp.reshape(()), vs.reshape(()), rho.reshape(())
@@ -366,6 +388,11 @@ class ForwardModel:
         flat = [np.ascontiguousarray(a, dtype=float).ravel() for a in args[:-1]]
         f = np.broadcast_to(f, shape + (f.shape[-1],)).reshape(-1, f.shape[-1])
         n = f.shape[0]
+        if self._fused is not None and _jit.enabled():  # the compiled whole model
+            from bayescrust.physics import _accel
+
+            out = _accel.forward(self, np.ascontiguousarray(f, dtype=float), np.stack(flat))
+            return out[0].reshape(shape), out[1].reshape(shape), out[2].reshape(shape)
         t_c, p, phi, ar, melt, mar, serp, p_pore = flat
         solid = np.empty((3, n))
         for start in range(0, n, _CHUNK):  # loop over cache-sized blocks, not over samples

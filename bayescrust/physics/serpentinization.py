@@ -18,9 +18,12 @@ from __future__ import annotations
 
 import numpy as np
 
+from bayescrust.physics._jit import jitable
+
 __all__ = ["SERPENTINE_MIXING", "hs_upper_two_phase"]
 
 
+@jitable
 def _zeta(k, g):
     """Berryman's zeta(K, G) = (G/6)(9K + 8G)/(K + 2G)."""
     return g * (9.0 * k + 8.0 * g) / (6.0 * (k + 2.0 * g))
@@ -58,9 +61,14 @@ def hs_upper_two_phase(k_fresh, g_fresh, k_serp, g_serp, s):
     Carlson, R. L. & Miller, D. J. (2003) Mantle wedge water contents estimated from seismic
     velocities in partially serpentinized peridotites. Geophys. Res. Lett. 30(5), 1250.
     """
-    s = np.asarray(s, float)
-    zk = 4.0 / 3.0 * np.asarray(g_fresh, float)
-    zg = _zeta(np.asarray(k_fresh, float), np.asarray(g_fresh, float))
+    return _hs_upper(*(np.asarray(x, float) for x in (k_fresh, g_fresh, k_serp, g_serp, s)))
+
+
+@jitable
+def _hs_upper(k_fresh, g_fresh, k_serp, g_serp, s):
+    """:func:`hs_upper_two_phase` on arrays or scalars (the compiled forward model)."""
+    zk = 4.0 / 3.0 * g_fresh
+    zg = _zeta(k_fresh, g_fresh)
     k = 1.0 / ((1.0 - s) / (k_fresh + zk) + s / (k_serp + zk)) - zk
     g = 1.0 / ((1.0 - s) / (g_fresh + zg) + s / (g_serp + zg)) - zg
     return k, g
