@@ -9,8 +9,13 @@ compile. What is here is the loop over elements that numpy does with whole-array
 the same equations, step rule, limits and order of floating-point operations, so that the
 compiled and numpy results agree to rounding (tested in tests/physics/test_accel.py).
 
-Every tunable constant is an argument (not a global), so that numba's on-disk cache
-(``cache=True``) can never hold a stale value of it.
+:func:`_forward_loop` restates only the *order* of the steps of ``ForwardModel._solid`` and
+``_finish`` (which formula is applied to what); every formula is a shared jitable function.
+
+Every tunable constant of this module is an argument (not a global). The module-level constants
+of the shared functions (literature coefficients read from ``data/*.toml``) are frozen into
+the compiled code; :func:`_drop_stale_cache` empties numba's on-disk cache (``cache=True``)
+when those modules or tables change.
 """
 
 from __future__ import annotations
