@@ -373,6 +373,17 @@ class ForwardModel:
             solid = self._solid(f[None, :], flat[0], flat[1], flat[6])
             vp, vs, rho = self._finish(*solid, *flat[[0, 1, 2, 3, 4, 5, 7]])
             return vp.reshape(()), vs.reshape(()), rho.reshape(())
+        if self._fused is not None and _jit.enabled():  # the compiled whole model
+            from bayescrust.physics import _accel
+
+            shape = np.broadcast_shapes(f.shape[:-1], *(np.shape(a) for a in scalars))
+            sc = np.empty((len(scalars),) + shape)
+            for k, a in enumerate(scalars):  # eight broadcasting copies, no temporaries
+                sc[k] = a
+            n = sc[0].size
+            f = np.ascontiguousarray(np.broadcast_to(f, shape + f.shape[-1:]).reshape(n, -1))
+            out = _accel.forward(self, f, sc.reshape(len(scalars), n))
+            return out[0].reshape(shape), out[1].reshape(shape), out[2].reshape(shape)
         args = np.broadcast_arrays(
             temperature_c,
             pressure_gpa,
@@ -388,11 +399,6 @@ class ForwardModel:
         flat = [np.ascontiguousarray(a, dtype=float).ravel() for a in args[:-1]]
         f = np.broadcast_to(f, shape + (f.shape[-1],)).reshape(-1, f.shape[-1])
         n = f.shape[0]
-        if self._fused is not None and _jit.enabled():  # the compiled whole model
-            from bayescrust.physics import _accel
-
-            out = _accel.forward(self, np.ascontiguousarray(f, dtype=float), np.stack(flat))
-            return out[0].reshape(shape), out[1].reshape(shape), out[2].reshape(shape)
         t_c, p, phi, ar, melt, mar, serp, p_pore = flat
         solid = np.empty((3, n))
         for start in range(0, n, _CHUNK):  # loop over cache-sized blocks, not over samples
