@@ -21,6 +21,7 @@ when those modules or tables change.
 from __future__ import annotations
 
 import math
+import weakref
 
 import numpy as np
 from numba import njit
@@ -222,22 +223,115 @@ def _dem_single(km, gm, k_i, alpha, frac, inc, par):
     return _dem_el(km, gm, -math.log1p(-frac), inc, 0, par)
 
 
-@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
-def _forward_loop(fr, sc, modes, serp_modes, um, cols, par):
-    """Vp, Vs, density of every element: ``ForwardModel._solid`` then ``_finish``, fused.
+#: Grid of the per-recipe table of :func:`_forward_loop`: temperature (K) linear over
+#: ``_TAB_T_N`` nodes, pressure (GPa) by 4-point Lagrange cubics over ``_TAB_P_N`` nodes.
+#: Measured interpolation error of the tabulated sums: 2.4e-7 relative at most (tests/physics/
+#: test_accel.py); elements outside the grid take the exact formulas.
+_TAB_T_K = (-20.0 + CELSIUS_TO_KELVIN, 1800.0 + CELSIUS_TO_KELVIN)
+_TAB_T_N = 1024
+_TAB_P_GPA = (0.0, 4.0)
+_TAB_P_N = 33
 
-    ``fr`` (n, r) rock fractions; ``sc`` (8, n) temperature (C), pressure, porosity, aspect
-    ratio, melt fraction, melt aspect ratio, serpentinisation, pore pressure; ``modes``
-    (r, m), ``serp_modes`` (m,) and ``um`` (r,) the model's recipe arrays; ``cols`` (14, m) the
-    packed mineral table; ``par`` the settings (``_FP_*``).
-    """
-    n, nr = fr.shape
-    m = modes.shape[1]
+
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
+def _recipe_sums(t_k, p, recipes, cols, q, rho_m, k_m, g_m):
+    """Exact sums of each recipe (row of ``recipes``) at (T, P) into ``q`` (5, n_recipes):
+    density, Voigt K, Reuss 1/K, Voigt G and Reuss 1/G sums over its minerals."""
+    for j in range(cols.shape[1]):
+        rho_m[j], k_m[j], g_m[j] = _state_formula(
+            t_k, p, cols[0, j], cols[1, j], cols[2, j], cols[3, j], cols[4, j], cols[5, j],
+            cols[6, j], cols[7, j], cols[8, j], cols[9, j], cols[10, j], cols[11, j],
+            cols[12, j], cols[13, j])
+    for r in range(recipes.shape[0]):
+        a = 0.0
+        b = 0.0
+        c = 0.0
+        d = 0.0
+        e = 0.0
+        for j in range(cols.shape[1]):
+            x = recipes[r, j]
+            a += x * rho_m[j]
+            b += x * k_m[j]
+            c += x / k_m[j]
+            d += x * g_m[j]
+            e += x / g_m[j]
+        q[0, r] = a
+        q[1, r] = b
+        q[2, r] = c
+        q[3, r] = d
+        q[4, r] = e
+
+
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
+def _recipe_table(recipes, cols, grid):
+    """The sums of :func:`_recipe_sums` on the (T, P) grid ``grid`` = (T0, dT, nT, P0, dP, nP):
+    array (nT, nP, 5, n_recipes)."""
+    n_t = int(grid[2])
+    n_p = int(grid[5])
+    m = cols.shape[1]
+    out = np.empty((n_t, n_p, 5, recipes.shape[0]))
     rho_m = np.empty(m)
     k_m = np.empty(m)
     g_m = np.empty(m)
-    x = np.empty(m)
-    x_f = np.empty(m)
+    for i in range(n_t):
+        for j in range(n_p):
+            _recipe_sums(grid[0] + i * grid[1], grid[3] + j * grid[4], recipes, cols,
+                         out[i, j], rho_m, k_m, g_m)
+    return out
+
+
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
+def _recipe_lookup(t_k, p, tab, grid, q):
+    """Tabulated recipe sums at (T, P) into ``q``: linear in T, 4-point Lagrange in P. Returns
+    False (``q`` untouched) outside the grid."""
+    u = (t_k - grid[0]) / grid[1]
+    v = (p - grid[3]) / grid[4]
+    n_t = int(grid[2])
+    n_p = int(grid[5])
+    if not (u >= 0.0 and u <= n_t - 1 and v >= 0.0 and v <= n_p - 1):
+        return False
+    i = min(int(u), n_t - 2)
+    ft = u - i
+    j = min(max(int(v) - 1, 0), n_p - 4)
+    x = v - j  # in [0, 3]
+    w0 = -(x - 1.0) * (x - 2.0) * (x - 3.0) / 6.0
+    w1 = x * (x - 2.0) * (x - 3.0) / 2.0
+    w2 = -x * (x - 1.0) * (x - 3.0) / 2.0
+    w3 = x * (x - 1.0) * (x - 2.0) / 6.0
+    a0 = 1.0 - ft
+    for k in range(5):
+        for r in range(q.shape[1]):
+            lo = (w0 * tab[i, j, k, r] + w1 * tab[i, j + 1, k, r] + w2 * tab[i, j + 2, k, r]
+                  + w3 * tab[i, j + 3, k, r])
+            hi = (w0 * tab[i + 1, j, k, r] + w1 * tab[i + 1, j + 1, k, r]
+                  + w2 * tab[i + 1, j + 2, k, r] + w3 * tab[i + 1, j + 3, k, r])
+            q[k, r] = a0 * lo + ft * hi
+    return True
+
+
+@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
+def _forward_loop(fr, sc, recipes, um, cols, par, tab, grid):
+    """Vp, Vs, density of every element: ``ForwardModel._solid`` then ``_finish``, fused.
+
+    ``fr`` (n, r) rock fractions; ``sc`` (8, n) temperature (C), pressure, porosity, aspect
+    ratio, melt fraction, melt aspect ratio, serpentinisation, pore pressure; ``recipes``
+    (r + 1, m) the mineral modes of the rocks and, last, of serpentinite; ``um`` (r,) the
+    ultramafic mask; ``cols`` (14, m) the packed mineral table; ``par`` the settings
+    (``_FP_*``); ``tab``, ``grid`` from :func:`_recipe_table`.
+
+    The solid is built from sums over each recipe's minerals (density, Voigt and Reuss sums of
+    K and G), which are linear in the recipe weights: for mineral fractions
+    x = sum_r w_r m_r, sum_j x_j M_j = sum_r w_r (sum_j m_rj M_j), and so for 1/M_j. The rock
+    weights are w_r = f_r (1 - s um_r), serpentinite's s sum_r f_r um_r, exactly the mineral
+    fractions of ``ForwardModel.mineral_fractions``; the sums come from the table inside its
+    grid and from the mineral formulas outside it.
+    """
+    n, nr = fr.shape
+    m = cols.shape[1]
+    rho_m = np.empty(m)
+    k_m = np.empty(m)
+    g_m = np.empty(m)
+    q = np.empty((5, nr + 1))
     inc = np.zeros((3 + _N_GEO, 1, 1))
     dem_par = par[_FP_DEM:_FP_DEM + 5]
     out = np.empty((3, n))
@@ -249,32 +343,43 @@ def _forward_loop(fr, sc, modes, serp_modes, um, cols, par):
         melt = sc[4, e]
         serp = sc[6, e]
         t_k = t_c + CELSIUS_TO_KELVIN
-        # --- the solid: minerals at (P, T), their fractions, Hill mean, serpentinite (HS)
-        for j in range(m):
-            rho_m[j], k_m[j], g_m[j] = _state_formula(
-                t_k, p, cols[0, j], cols[1, j], cols[2, j], cols[3, j], cols[4, j], cols[5, j],
-                cols[6, j], cols[7, j], cols[8, j], cols[9, j], cols[10, j], cols[11, j],
-                cols[12, j], cols[13, j])
+        # --- the solid: recipe sums at (P, T), Hill mean, serpentinite (HS)
+        if not _recipe_lookup(t_k, p, tab, grid, q):
+            _recipe_sums(t_k, p, recipes, cols, q, rho_m, k_m, g_m)
         um_sum = 0.0
         for i in range(nr):
             um_sum += fr[e, i] * um[i]
         s_rock = serp * um_sum
-        rho_s = 0.0
-        for j in range(m):
-            v = 0.0
-            for i in range(nr):
-                v += (fr[e, i] - serp * (fr[e, i] * um[i])) * modes[i, j]
-            x[j] = v + s_rock * serp_modes[j]
-            rho_s += x[j] * rho_m[j]
+        rho_s = s_rock * q[0, nr]
+        kv = 0.0
+        kr = 0.0
+        gv = 0.0
+        gr = 0.0
+        for i in range(nr):
+            w = fr[e, i] - serp * (fr[e, i] * um[i])
+            rho_s += w * q[0, i]
+            kv += w * q[1, i]
+            kr += w * q[2, i]
+            gv += w * q[3, i]
+            gr += w * q[4, i]
         if s_rock > 0.0:
             fresh = 1.0 - s_rock
-            for j in range(m):
-                x_f[j] = (x[j] - s_rock * serp_modes[j]) / fresh if fresh > 1e-9 else x[j]
-            k_f, g_f = _hill(x_f, k_m, g_m)
-            k_sp, g_sp = _hill(serp_modes, k_m, g_m)
-            k_s, g_s = _hs_upper(k_f, g_f, k_sp, g_sp, s_rock)
+            if fresh > 1e-9:  # the fresh part alone, renormalised
+                kv /= fresh
+                kr /= fresh
+                gv /= fresh
+                gr /= fresh
+            else:  # no fresh part: any valid mix stands in (weight 0), as in _solid
+                kv += s_rock * q[1, nr]
+                kr += s_rock * q[2, nr]
+                gv += s_rock * q[3, nr]
+                gr += s_rock * q[4, nr]
+            k_s, g_s = _hs_upper(0.5 * (kv + 1.0 / kr), 0.5 * (gv + 1.0 / gr),
+                                 0.5 * (q[1, nr] + 1.0 / q[2, nr]),
+                                 0.5 * (q[3, nr] + 1.0 / q[4, nr]), s_rock)
         else:
-            k_s, g_s = _hill(x, k_m, g_m)
+            k_s = 0.5 * (kv + 1.0 / kr)
+            g_s = 0.5 * (gv + 1.0 / gr)
         # --- melt films, then empty pores in the melt-bearing solid, saturated by Gassmann
         k = k_s
         g = g_s
@@ -307,9 +412,9 @@ def _forward_loop(fr, sc, modes, serp_modes, um, cols, par):
         vp = math.sqrt((k + 4.0 / 3.0 * g) / rho)
         vs = math.sqrt(g / rho)
         if par[_FP_ANELASTIC] != 0.0:
-            q = min(_j02_q_inv(t_k, p, par[_FP_FREQ], par[_FP_GRAIN]), par[_FP_QMAX])
+            q_s = min(_j02_q_inv(t_k, p, par[_FP_FREQ], par[_FP_GRAIN]), par[_FP_QMAX])
             ratio2 = vs * vs / (vp * vp) if vp > 0.0 else 0.0
-            fp, fs = _band_factors(q, par[_FP_HALF_COT], ratio2)
+            fp, fs = _band_factors(q_s, par[_FP_HALF_COT], ratio2)
             vp = vp * fp
             vs = vs * fs
         out[0, e] = vp
@@ -318,14 +423,32 @@ def _forward_loop(fr, sc, modes, serp_modes, um, cols, par):
     return out
 
 
-def forward(model, f, sc):
-    """Vp, Vs, density of flat rows by :func:`_forward_loop` for a ``ForwardModel`` whose
-    settings :func:`fused_settings` accepts; ``f`` (n, r), ``sc`` (8, n) as there."""
-    par = model._fused
-    hit = _COLUMNS.get(id(model._table))
-    if hit is None or hit[0] is not model._table:
-        hit = _COLUMNS[id(model._table)] = (model._table, np.stack(_table_columns(model._table)))
-    return _forward_loop(f, sc, model._modes, model._serp_modes, model._ultramafic, hit[1], par)
+# id(model) -> (recipes, packed columns, table, grid); an entry leaves with its model
+_RECIPES: dict[int, tuple] = {}
+
+
+def _recipes(model, tabulate=True):
+    hit = _RECIPES.get(id(model))
+    if hit is None:
+        recipes = np.vstack([model._modes, model._serp_modes])
+        cols = np.stack(_table_columns(model._table))
+        grid = np.array([_TAB_T_K[0], (_TAB_T_K[1] - _TAB_T_K[0]) / (_TAB_T_N - 1), _TAB_T_N,
+                         _TAB_P_GPA[0], (_TAB_P_GPA[1] - _TAB_P_GPA[0]) / (_TAB_P_N - 1),
+                         _TAB_P_N])
+        hit = _RECIPES[id(model)] = (recipes, cols, _recipe_table(recipes, cols, grid), grid)
+        weakref.finalize(model, _RECIPES.pop, id(model), None)
+    if not tabulate:  # a grid no element is inside: the exact formulas everywhere
+        return hit[0], hit[1], hit[2][:1, :1], np.array([0.0, 1.0, 0.0, 0.0, 1.0, 0.0])
+    return hit
+
+
+def forward(model, f, sc, tabulate=True):
+    """Vp, Vs, density of flat rows by :func:`_forward_loop` for a ``ForwardModel`` with
+    settings ``model._fused``; ``f`` (n, r), ``sc`` (8, n) as there. The recipe table is built
+    on a model's first call (~0.1 s); ``tabulate=False`` evaluates the mineral formulas for
+    every element instead (the comparison in the tests)."""
+    recipes, cols, tab, grid = _recipes(model, tabulate)
+    return _forward_loop(f, sc, recipes, model._ultramafic, cols, model._fused, tab, grid)
 
 
 def _drop_stale_cache(kernels=(_dem_loop, _mineral_state_loop, _dem_rate1,
