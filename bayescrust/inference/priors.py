@@ -61,6 +61,9 @@ class Prior:
     """
 
     fixed = False
+    #: Whether samplers work on ln(x) for this prior (a positive scale spanning decades; see
+    #: ``LayerModel.log_coordinates``).
+    log_scale = False
 
     def logpdf(self, x):  # pragma: no cover - interface
         raise NotImplementedError
@@ -110,10 +113,14 @@ class Uniform(Prior):
 
 @dataclass(frozen=True)
 class LogUniform(Prior):
-    """Log-uniform prior on ``[lo, hi]`` with ``0 < lo < hi`` (density proportional to 1/x)."""
+    """Log-uniform prior on ``[lo, hi]`` with ``0 < lo < hi`` (density proportional to 1/x).
+
+    A layer's sampler works on ln(x), where this prior is uniform (``log_scale``).
+    """
 
     lo: float
     hi: float
+    log_scale = True
 
     def __post_init__(self):
         lo, hi = _ordered("LogUniform", self.lo, self.hi)
