@@ -196,21 +196,6 @@ _FP_DEM = 7  # five DEM settings follow (the ``par`` of :func:`_dem_loop`)
 
 
 @njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
-def _hill(x, k, g):
-    """Voigt-Reuss-Hill mean of positive moduli: :func:`mixing._positive_hill` per element."""
-    kv = 0.0
-    gv = 0.0
-    kr = 0.0
-    gr = 0.0
-    for j in range(x.size):
-        kv += x[j] * k[j]
-        gv += x[j] * g[j]
-        kr += x[j] / k[j]
-        gr += x[j] / g[j]
-    return 0.5 * (kv + 1.0 / kr), 0.5 * (gv + 1.0 / gr)
-
-
-@njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
 def _dem_single(km, gm, k_i, alpha, frac, inc, par):
     """DEM of one fluid (or empty) inclusion phase: :func:`inclusions._dem` for one element."""
     theta, f = _theta_f1(alpha)

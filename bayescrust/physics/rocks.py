@@ -294,7 +294,7 @@ class ForwardModel:
                 "hill", "dem", "connected", "hs_upper") or (
                 self.anelastic and self.attenuation_law != "jackson2002"):
             return None
-        return np.array([
+        return np.array([  # in the order of physics/_accel.py's _FP_* indices
             self.salinity, float(self.crack_closure), float(self.anelastic), self.frequency_hz,
             self.grain_size_mm, float(anelastic._half_cot(anelastic._J02_ALPHA)),
             anelastic._Q_INV_MAX, -1.0, inclusions.DEM_LOG_CHANGE_PER_STEP,
