@@ -156,6 +156,7 @@ def _sbc_mcmc(m, seed):
     q_true = sim.quantities(theta_true)
     names = RANKED[:-1]
     ranks = np.empty((m, len(names)), int)
+    not_converged = []
     y_all = sim.simulate_observations(q_true, rng)  # the likelihood's own law
     for i in range(m):
         y = {k: float(v[i]) for k, v in y_all.items()}
@@ -169,14 +170,22 @@ def _sbc_mcmc(m, seed):
                                   evidence=False, n_prior=100)
         post = res.idata.posterior
         flat = {k: post[k].values.ravel() for k in names}
-        idx = rng.choice(flat[names[0]].size, size=L_DRAWS, replace=False)
+        if not res.diagnostics["converged"]:
+            # part of the procedure a user runs (warned): ranked from what it returned, with
+            # replacement when the run kept fewer than L draws, and counted
+            not_converged.append((i, y, {k: float(q_true[k][i]) for k in names[:4]}))
+        size = flat[names[0]].size
+        idx = rng.choice(size, size=L_DRAWS, replace=size < L_DRAWS)
         for j, k in enumerate(names):
             ranks[i, j] = _rank(flat[k][idx], np.asarray(q_true[k][i]), rng)
-    return ranks
+    return ranks, not_converged
 
 
 @pytest.mark.slow
 def test_sbc_mcmc():
     m = 150
-    ranks = _sbc_mcmc(m, seed=99)
+    ranks, not_converged = _sbc_mcmc(m, seed=99)
+    print(f"MCMC SBC: {len(not_converged)} of {m} replicates not converged: {not_converged}")
     assert _suite_passes(ranks, {}), suite_pvalue(ranks, {})
+    # runs that hit max_steps are rare (each is warned to the user)
+    assert len(not_converged) <= 0.03 * m
