@@ -168,22 +168,28 @@ def _mineral_state_loop(t, p, c):
 _COLUMNS: dict[int, tuple] = {}  # id(table) -> (table, packed columns); tables live for a run
 
 
-def mineral_state(table, temperature_k, pressure_gpa):
-    """:func:`minerals._mineral_state` by the compiled loop over (sample, mineral)."""
+def _packed_columns(table):
+    """The columns of a mineral table stacked into one array (14, n_minerals), cached."""
     hit = _COLUMNS.get(id(table))
     if hit is None or hit[0] is not table:
         hit = _COLUMNS[id(table)] = (table, np.stack(_table_columns(table)))
+    return hit[1]
+
+
+def mineral_state(table, temperature_k, pressure_gpa):
+    """:func:`minerals._mineral_state` by the compiled loop over (sample, mineral)."""
+    cols = _packed_columns(table)
     t = np.asarray(temperature_k, dtype=float)
     p = np.asarray(pressure_gpa, dtype=float)
     if t.shape == p.shape and t.ndim == 1:
-        out = _mineral_state_loop(np.array(t), np.array(p), hit[1])
+        out = _mineral_state_loop(np.array(t), np.array(p), cols)
         return out[0], out[1], out[2]
     batch = np.broadcast_shapes(t.shape, p.shape)
 
     def flat(x):  # a fresh array: views of np.broadcast_arrays warn when numba types them
         return np.array(np.broadcast_to(x, batch), dtype=float).ravel()
 
-    out = _mineral_state_loop(flat(t), flat(p), hit[1]).reshape((3,) + batch + (-1,))
+    out = _mineral_state_loop(flat(t), flat(p), cols).reshape((3,) + batch + (-1,))
     return out[0], out[1], out[2]
 
 
@@ -416,7 +422,7 @@ def _recipes(model, tabulate=True):
     hit = _RECIPES.get(id(model))
     if hit is None:
         recipes = np.vstack([model._modes, model._serp_modes])
-        cols = np.stack(_table_columns(model._table))
+        cols = _packed_columns(model._table)
         grid = np.array([_TAB_T_K[0], (_TAB_T_K[1] - _TAB_T_K[0]) / (_TAB_T_N - 1), _TAB_T_N,
                          _TAB_P_GPA[0], (_TAB_P_GPA[1] - _TAB_P_GPA[0]) / (_TAB_P_N - 1),
                          _TAB_P_N])

@@ -6,6 +6,8 @@ defect of the compiled kernel. Accuracy against the converged DEM reference is c
 test_inclusions.py (it runs whichever kernel is switched on; here both are compared directly).
 """
 
+import functools
+
 import numpy as np
 import pytest
 
@@ -211,13 +213,11 @@ def test_whole_forward_model_compiled_equals_numpy(settings, branches):
     far = ~((pe > 0) & (np.abs(1.0 - pe / pc) < 0.01) & (kw.get("porosity", 0.0) > 0))
     _close(tuple(x[far] for x in ref), tuple(x[far] for x in fast), rtol=5e-7)
     # with the mineral formulas evaluated for every element, the same to rounding
-    names = ("temperature_c", "pressure_gpa", "porosity", "aspect_ratio", "melt_fraction",
-             "melt_aspect_ratio", "serpentinization", "pore_pressure_gpa")
-    defaults = dict(porosity=0.0, aspect_ratio=0.1, melt_fraction=0.0, melt_aspect_ratio=0.05,
-                    serpentinization=0.0, pore_pressure_gpa=kw["pressure_gpa"])
-    sc = np.stack([np.broadcast_to(kw.get(k, defaults.get(k)), n) for k in names]).astype(float)
-    exact = _accel.forward(fm, np.ascontiguousarray(kw["fractions"]), sc, tabulate=False)
-    _close(ref, tuple(exact), rtol=1e-9)  # measured 2.4e-11 (Vs through the dry-crack DEM)
+    exact_fwd = functools.partial(_accel.forward, tabulate=False)
+    with pytest.MonkeyPatch.context() as mp, _jit.use_accel(True):
+        mp.setattr(_accel, "forward", exact_fwd)
+        exact = fm(**kw)
+    _close(ref, exact, rtol=1e-9)  # measured 2.4e-11 (Vs through the dry-crack DEM)
     # batch of one (its own short path) equals the batch
     for i in (0, 7, 123):  # (rounding: the same table)
         one = {k: (v[i] if np.ndim(v) else v) for k, v in kw.items()}
