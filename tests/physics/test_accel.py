@@ -144,8 +144,9 @@ def test_forward_model_compiled_equals_numpy(pore_fluid):
               melt_aspect_ratio=10 ** rng.uniform(-2, 0, n))
     fm = ForwardModel(rocks=("gabbro", "harzburgite"), pore_fluid=pore_fluid)
     # "connected" takes the compiled whole model, whose solid comes from a (T, P) table:
-    # equal to its interpolation error (test_recipe_table_interpolation_error)
-    rtol = 1e-4 if fm._fused is not None else RTOL
+    # equal to its interpolation error (test_recipe_table_interpolation_error; no crack is
+    # near closing here: the pore pressure is the confining pressure)
+    rtol = 5e-7 if fm._fused is not None else RTOL
     ref, fast = _both(fm, **kw)
     _close(ref, fast, rtol=rtol)
     assert np.ptp(ref[1]) > 1.0  # not vacuous: Vs spans km/s
