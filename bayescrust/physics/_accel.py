@@ -30,6 +30,7 @@ from numba.extending import register_jitable
 from ._data import CELSIUS_TO_KELVIN
 from ._jit import JITABLE
 from .anelastic import _band_factors, _j02_q_inv
+from .dem_flow import _dry_dem
 from .fluids import _brine, _melt
 from .inclusions import _geometry_terms, _pq, _theta_f1
 from .minerals import _state_formula, _table_columns
@@ -301,14 +302,15 @@ def _recipe_lookup(t_k, p, tab, grid, q):
 
 
 @njit(cache=True, nogil=True, error_model="numpy", fastmath=_FASTMATH)
-def _forward_loop(fr, sc, recipes, um, cols, par, tab, grid):
+def _forward_loop(fr, sc, recipes, um, cols, par, tab, grid, dry):
     """Vp, Vs, density of every element: ``ForwardModel._solid`` then ``_finish``, fused.
 
     ``fr`` (n, r) rock fractions; ``sc`` (8, n) temperature (C), pressure, porosity, aspect
     ratio, melt fraction, melt aspect ratio, serpentinisation, pore pressure; ``recipes``
     (r + 1, m) the mineral modes of the rocks and, last, of serpentinite; ``um`` (r,) the
     ultramafic mask; ``cols`` (14, m) the packed mineral table; ``par`` the settings
-    (``_FP_*``); ``tab``, ``grid`` from :func:`_recipe_table`.
+    (``_FP_*``); ``tab``, ``grid`` from :func:`_recipe_table`; ``dry`` the tables of
+    :func:`dem_flow.build` (the dry-pore DEM; elements they do not cover are integrated).
 
     The solid is built from sums over each recipe's minerals (density, Voigt and Reuss sums of
     K and G), which are linear in the recipe weights: for mineral fractions
@@ -397,7 +399,10 @@ def _forward_loop(fr, sc, recipes, um, cols, par, tab, grid):
             k = k_h
             g = g_h
             if phi_i > 0.0:
-                k_d, g = _dem_single(k_h, g_h, 0.0, ar_i, phi_i, inc, dem_par)
+                ok, k_d, g = _dry_dem(k_h, g_h, ar_i, -math.log1p(-phi_i), dry[0], dry[1],
+                                      dry[2], dry[3])
+                if not ok:
+                    k_d, g = _dem_single(k_h, g_h, 0.0, ar_i, phi_i, inc, dem_par)
                 k = _gassmann_k(k_d, k_h, k_w, phi_i)
             rho = (1.0 - phi_i - melt) * rho_s + phi_i * rho_w + melt * rho_l
         vp = math.sqrt((k + 4.0 / 3.0 * g) / rho)
@@ -433,13 +438,22 @@ def _recipes(model, tabulate=True):
     return hit
 
 
+#: Stand-in for the dry-pore DEM tables that covers no element (``tabulate=False``).
+_NO_DRY = (np.zeros((1, 1, 2)), np.zeros((1, 1, 2)), np.zeros((1, 4)), np.zeros(12))
+
+
 def forward(model, f, sc, tabulate=True):
     """Vp, Vs, density of flat rows by :func:`_forward_loop` for a ``ForwardModel`` with
     settings ``model._fused``; ``f`` (n, r), ``sc`` (8, n) as there. The recipe table is built
-    on a model's first call (~0.1 s); ``tabulate=False`` evaluates the mineral formulas for
-    every element instead (the comparison in the tests)."""
+    on a model's first call (~0.1 s), the dry-pore DEM tables of :mod:`.dem_flow` on the first
+    call of the process (~0.2 s); ``tabulate=False`` evaluates the mineral formulas and
+    integrates the DEM for every element instead (the comparison in the tests)."""
+    from .dem_flow import build
+
     recipes, cols, tab, grid = _recipes(model, tabulate)
-    return _forward_loop(f, sc, recipes, model._ultramafic, cols, model._fused, tab, grid)
+    dry = build() if tabulate else _NO_DRY
+    return _forward_loop(f, sc, recipes, model._ultramafic, cols, model._fused, tab, grid,
+                         dry)
 
 
 def _drop_stale_cache(kernels=(_dem_loop, _mineral_state_loop, _dem_rate1,

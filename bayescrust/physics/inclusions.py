@@ -540,7 +540,7 @@ def _dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=None):
         lg[order] = lg.copy()
     return np.exp(lk).reshape(batch), np.exp(lg).reshape(batch)
 
-def _dem_reference(k_m, g_m, k_i, g_i, aspect_i, frac_i, rtol=1e-12):
+def _dem_reference(k_m, g_m, k_i, g_i, aspect_i, frac_i, rtol=1e-12, floor=_TINY):
     """Converged DEM integration: the definition the fast kernel :func:`_dem` is tested against.
 
     The same equations, variables and floors as :func:`_dem` (Norris 1985; Berryman, Pride &
@@ -549,6 +549,8 @@ def _dem_reference(k_m, g_m, k_i, g_i, aspect_i, frac_i, rtol=1e-12):
     mapped to tau in [0, 1] and the whole batch is one system for scipy's ``solve_ivp`` with the
     8th-order Dormand-Prince method (DOP853) at relative tolerance ``rtol`` and absolute
     tolerance ``rtol`` on the log-moduli. Slow; for tests and benchmarks, not the forward model.
+    ``floor=0`` integrates the theory without the floor (empty inclusions only: their rates
+    stay finite for any moduli).
     """
     from scipy.integrate import solve_ivp
 
@@ -558,7 +560,8 @@ def _dem_reference(k_m, g_m, k_i, g_i, aspect_i, frac_i, rtol=1e-12):
     phi = frac_i.sum(axis=0)
     w = frac_i / np.maximum(phi, np.finfo(float).tiny)
     t_end = -np.log1p(-phi)
-    lk_min, lg_min = np.log(_TINY * km), np.log(_TINY * gm)
+    with np.errstate(divide="ignore"):  # floor 0: log 0 = -inf, no floor
+        lk_min, lg_min = np.log(floor * km), np.log(floor * gm)
 
     def rhs(_tau, y):
         lk, lg = y[:n], y[n:]

@@ -4,8 +4,12 @@ The numpy code is the definition; the compiled kernels run the same equations el
 element (bayescrust/physics/_accel.py). Any difference beyond rounding (1e-12 relative) is a
 defect of the compiled kernel. Accuracy against the converged DEM reference is checked in
 test_inclusions.py (it runs whichever kernel is switched on; here both are compared directly).
+The compiled whole model also reads two kinds of table (the solid's mineral sums, and the
+dry-pore DEM of physics/dem_flow.py); with them it is compared to the numpy model with the
+dry-pore DEM integrated to convergence, to the tables' own accuracy.
 """
 
+import contextlib
 import functools
 
 import numpy as np
@@ -16,6 +20,29 @@ from bayescrust.physics import _jit, inclusions, minerals
 pytest.importorskip("numba")
 
 RTOL = 1e-11  # measured: 1.6e-12 at most on the grids below
+
+
+@contextlib.contextmanager
+def _converged_dry_dem():
+    """The numpy path with the DEM of empty pores integrated to convergence without the floor
+    along the path, floored at the end (the theory the tables of physics/dem_flow.py hold)."""
+    rk4 = inclusions._INCLUSION_KERNELS["dem"]
+
+    def dem(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps=None):
+        if np.any(k_i) or np.any(g_i):
+            return rk4(k_m, g_m, k_i, g_i, aspect_i, frac_i, n_steps)
+        k, g = inclusions._dem_reference(k_m, g_m, k_i, g_i, aspect_i, frac_i, floor=0.0)
+        return np.maximum(k, inclusions._TINY * k_m), np.maximum(g, inclusions._TINY * g_m)
+
+    with pytest.MonkeyPatch.context() as mp, _jit.use_accel(False):
+        mp.setitem(inclusions._INCLUSION_KERNELS, "dem", dem)
+        yield
+
+
+#: Compiled whole model with its tables against the numpy model with the converged dry-pore DEM
+#: (_converged_dry_dem): the mineral-sum table (2.4e-7) and the DEM tables (5e-6 in the moduli
+#: against the converged theory, tests/physics/test_dem_flow.py) together.
+TABLE_RTOL = 1e-5
 
 
 def _both(fn, *args, **kw):
@@ -143,17 +170,20 @@ def test_forward_model_compiled_equals_numpy(pore_fluid):
               melt_fraction=np.where(t > 1100, rng.uniform(0, 0.05, n), 0.0),
               melt_aspect_ratio=10 ** rng.uniform(-2, 0, n))
     fm = ForwardModel(rocks=("gabbro", "harzburgite"), pore_fluid=pore_fluid)
-    # "connected" takes the compiled whole model, whose solid comes from a (T, P) table:
-    # equal to its interpolation error (test_recipe_table_interpolation_error; no crack is
-    # near closing here: the pore pressure is the confining pressure)
-    rtol = 5e-7 if fm._fused is not None else RTOL
+    # "connected" takes the compiled whole model, which reads tables: equal to their accuracy
+    # (no crack is near closing here: the pore pressure is the confining pressure)
+    rtol = TABLE_RTOL if fm._fused is not None else RTOL
     ref, fast = _both(fm, **kw)
-    _close(ref, fast, rtol=rtol)
+    theory = ref
+    if fm._fused is not None:
+        with _converged_dry_dem():
+            theory = fm(**kw)
+    _close(theory, fast, rtol=rtol)
     assert np.ptp(ref[1]) > 1.0  # not vacuous: Vs spans km/s
-    for i in (0, 17, 1234):
+    for i in (0, 17, 1234):  # batch of one: each kernel equals its own batch (rounding)
         one = _both(fm, **{k: v[i] for k, v in kw.items()})
         _close(one[0], tuple(x[i] for x in ref))
-        _close(one[1], tuple(x[i] for x in ref), rtol=rtol)
+        _close(one[1], tuple(x[i] for x in fast))
 
 
 def test_use_accel_without_numba_refuses(monkeypatch):
@@ -200,9 +230,11 @@ def test_whole_forward_model_compiled_equals_numpy(settings, branches):
     kw = _rock_inputs(3000, 11, **branches)
     n = len(kw["temperature_c"])
     ref, fast = _both(fm, **kw)
-    # the compiled model reads the solid's mineral sums from its (T, P) table: the same to the
-    # table's interpolation error (2.4e-7 in the moduli), except for cracks within 1 % of
-    # their closing pressure, where the open fraction 1 - P_e/P_c is a difference of near-equal
+    with _converged_dry_dem():
+        theory = fm(**kw)
+    # the compiled model reads the solid's mineral sums and the dry-pore DEM from tables: the
+    # same as the theory to the tables' accuracy, except for cracks within 1 % of their
+    # closing pressure, where the open fraction 1 - P_e/P_c is a difference of near-equal
     # numbers that amplifies any difference in the solid's moduli without bound
     from bayescrust.physics import pores
 
@@ -212,7 +244,7 @@ def test_whole_forward_model_compiled_equals_numpy(settings, branches):
     pe = kw["pressure_gpa"] - kw.get("pore_pressure_gpa", kw["pressure_gpa"])
     pc = pores.walsh_closing_pressure_gpa(kw.get("aspect_ratio", 0.1), k_s, g_s)
     far = ~((pe > 0) & (np.abs(1.0 - pe / pc) < 0.01) & (kw.get("porosity", 0.0) > 0))
-    _close(tuple(x[far] for x in ref), tuple(x[far] for x in fast), rtol=5e-7)
+    _close(tuple(x[far] for x in theory), tuple(x[far] for x in fast), rtol=TABLE_RTOL)
     # with the mineral formulas evaluated for every element, the same to rounding
     exact_fwd = functools.partial(_accel.forward, tabulate=False)
     with pytest.MonkeyPatch.context() as mp, _jit.use_accel(True):

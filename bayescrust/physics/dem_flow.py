@@ -1,0 +1,238 @@
+"""The DEM of empty (dry) spheroidal pores as a one-dimensional flow, solved once and tabulated.
+
+The differential effective medium equations (Norris 1985, Mech. Mater. 4, 1-16; Berryman,
+Pride & Wang 2002, Geophys. J. Int. 151, 597-611, eq. 3) for one phase of inclusions with
+K_i = G_i = 0, in t = -ln(1 - phi), read (see :func:`bayescrust.physics.inclusions._dem`)
+
+    d ln K*/dt = -P(x, alpha),    d ln G*/dt = -Q(x, alpha),    x = ln(G*/K*),
+
+because the polarisation factors P, Q of Berryman (1980) depend on the host only through
+R = 3G/(3K + 4G), a function of x, once K_i/K* = G_i/G* = 0. So x obeys the autonomous
+equation dx/dt = P - Q, which has one attracting fixed point x*(alpha) (the Poisson's ratio
+the porous frame tends to: 0.2 for spheres, about 0.001 for alpha = 1e-3), and the moduli
+follow by quadrature. Every start x0 of a host lies on one trajectory per alpha, the one
+started from X_LO (Poisson's ratio 0.49): with s(x) the time that trajectory takes to reach x
+and L(x) = integral of P dt along it,
+
+    ln K*(t) - ln K0 = -[L(x1) - L(x0)],   s(x1) = s(x0) + t,
+    ln G*(t) - ln G0 = ln K*(t) - ln K0 + x1 - x0.
+
+This is exact. :func:`build` integrates the trajectory for a grid of aspect ratios with
+scipy's DOP853 (the converged-reference method of ``inclusions._dem_reference``) in two
+forms: table A gives (sigma, L) against u = ln(x* - x), table B gives (u, L) against
+sigma = lambda t, lambda being the decay rate of x* - x at the fixed point (the scaling
+makes the tables alike across aspect ratios, and near the fixed point u falls linearly with
+sigma and L grows linearly, which the lookup continues past the table's end). The lookup
+:func:`_dry_dem` interpolates both tables with 4-point Lagrange cubics in (ln alpha, u) and
+(ln alpha, sigma): about a hundred operations, against 4 x 15-128 evaluations of P, Q for the
+RK4 integration. Elements the tables do not cover (alpha outside ALPHA_RANGE, a host outside
+X_LO..x* or within 1.5e-8 of x*) are reported back for the exact integration. Accuracy
+against the converged reference: tests/physics/test_dem_flow.py.
+
+The moduli are floored at 1e-12 of the matrix's, as in the RK4 integration, but at the end:
+the integration floors them along the path (its rates stay finite), so where K* falls below
+its floor (dry cracks with phi/alpha beyond ~60) its G* follows the floored K* rather than the
+theory. Both are then below 1e-12 of the matrix in K* and, in G*, far below anything a
+velocity can resolve; the tables give the theory's G*.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+
+import numpy as np
+
+from ._jit import jitable
+from .inclusions import _TINY, _geometry, _pq
+
+#: Aspect ratios tabulated: oblate pores and cracks (down to the 1e-6 that crack closure can
+#: leave, see pores.close_cracks) and spheres.
+ALPHA_RANGE = (1e-6, 1.0)
+#: Nodes in ln(alpha), uniform.
+N_ALPHA = 257
+#: Lowest x = ln(G/K) of a host (Poisson's ratio 0.49): G/K = 3(1 - 2 nu) / (2 (1 + nu)).
+X_LO = math.log(3.0 * (1.0 - 2.0 * 0.49) / (2.0 * (1.0 + 0.49)))
+#: Table A: u = ln(x* - x) from U_MIN up to ln(x* - X_LO), as v = (u - U_MIN)/(u_max - U_MIN)
+#: in [0, 1] on N_V uniform nodes. Below U_MIN (x within 1.5e-8 of x*) the exact path is used.
+U_MIN = -18.0
+N_V = 384
+#: Table B: sigma = lambda t on N_S nodes over [0, SIGMA_MAX], uniform in
+#: zeta = ln(1 + sigma / SIGMA_SCALE) (the path bends most at its start); beyond SIGMA_MAX, u
+#: and L are continued linearly (slopes -1 and P*/lambda, the fixed point's own; error < 1e-8).
+SIGMA_MAX = 28.0
+SIGMA_SCALE = 0.1
+N_S = 384
+#: Distance x* - x below which P - Q is taken as lambda (x* - x) while building the tables.
+LINEAR_ZONE = 1e-6
+
+# layout of the per-alpha scalars
+_XS, _LLAM, _RHO, _UMAX = range(4)
+
+
+def _pq_dry(x, geo):
+    """P, Q of empty inclusions in a host with ln(G/K) = x (``geo`` from inclusions._geometry)."""
+    e = np.exp(x)
+    return _pq(0.0, 0.0, 3.0 * e / (3.0 + 4.0 * e), geo)
+
+
+def _rate_near(eu, xs, lam, geo):
+    """P and P - Q at x = x* - eu. Within LINEAR_ZONE of the fixed point P - Q = lambda eu to
+    O(eu^2) and the difference of the two large numbers P, Q would be rounding noise (which
+    stalls the step control of the integration), so the linear form is used there."""
+    p, q = _pq_dry(xs - eu, geo)
+    return p, np.where(eu < LINEAR_ZONE, lam * eu, p - q)
+
+
+def _fixed_point(geo, n):
+    """x* (P = Q) and lambda = -d(P - Q)/dx at x*, for each of ``n`` aspect ratios."""
+    lo = np.full(n, X_LO)
+    hi = np.full(n, math.log(1.5) - 1e-12)  # G/K -> 1.5 is Poisson's ratio -1
+    f_lo = np.subtract(*_pq_dry(lo, geo))
+    if np.any(f_lo <= 0.0) or np.any(np.subtract(*_pq_dry(hi, geo)) >= 0.0):
+        raise RuntimeError("dry DEM flow: no fixed point inside (X_LO, ln 1.5)")
+    for _ in range(200):  # bisection to rounding
+        mid = 0.5 * (lo + hi)
+        pos = np.subtract(*_pq_dry(mid, geo)) > 0.0
+        lo = np.where(pos, mid, lo)
+        hi = np.where(pos, hi, mid)
+    xs = 0.5 * (lo + hi)
+    h = 1e-5
+    lam = -(np.subtract(*_pq_dry(xs + h, geo)) - np.subtract(*_pq_dry(xs - h, geo))) / (2 * h)
+    return xs, lam
+
+
+@functools.lru_cache(maxsize=1)
+def build(n_alpha=N_ALPHA, n_v=N_V, n_s=N_S, rtol=1e-9):
+    """The tables of :func:`_dry_dem`: ``(tab_a, tab_b, scal, grid)``.
+
+    ``tab_a`` (n_alpha, n_v, 2): sigma and L at v; ``tab_b`` (n_alpha, n_s, 2): u and L at
+    sigma; ``scal`` (n_alpha, 4): x*, ln lambda, P*/lambda, u_max; ``grid``: ln alpha of the
+    first node and spacing, v spacing, sigma spacing, the node counts, U_MIN, X_LO. Built with
+    scipy's DOP853 at relative and absolute tolerance ``rtol`` (about 0.1 s; cached).
+    """
+    from scipy.integrate import solve_ivp
+
+    la = np.linspace(math.log(ALPHA_RANGE[0]), math.log(ALPHA_RANGE[1]), n_alpha)
+    geo = tuple(_geometry(np.exp(la)))
+    xs, lam = _fixed_point(geo, n_alpha)
+    p_star = _pq_dry(xs, geo)[0]
+    u_max = np.log(xs - X_LO)
+    span = u_max - U_MIN
+
+    def rhs_a(v, y):  # d(sigma, L)/dv along the trajectory, x = x* - exp(u(v))
+        eu = np.exp(U_MIN + v * span)
+        p, d = _rate_near(eu, xs, lam, geo)
+        c = -span * eu / d
+        return np.concatenate([lam * c, p * c])
+
+    v = np.linspace(0.0, 1.0, n_v)
+    sol = solve_ivp(rhs_a, (1.0, 0.0), np.zeros(2 * n_alpha), method="DOP853", rtol=rtol,
+                    atol=rtol, t_eval=v[::-1])
+    if not sol.success:  # pragma: no cover - the reference integration must converge
+        raise RuntimeError(f"dry DEM table A: {sol.message}")
+    tab_a = np.stack([sol.y[:n_alpha, ::-1], sol.y[n_alpha:, ::-1]], axis=-1)
+
+    def rhs_b(_s, y):  # d(u, L)/dsigma
+        u = y[:n_alpha]
+        eu = np.exp(u)
+        p, d = _rate_near(eu, xs, lam, geo)
+        return np.concatenate([-d / (lam * eu), p / lam])
+
+    zeta = np.linspace(0.0, math.log1p(SIGMA_MAX / SIGMA_SCALE), n_s)
+    s = SIGMA_SCALE * np.expm1(zeta)
+    s[-1] = SIGMA_MAX
+    sol = solve_ivp(rhs_b, (0.0, SIGMA_MAX), np.concatenate([u_max, np.zeros(n_alpha)]),
+                    method="DOP853", rtol=rtol, atol=rtol, t_eval=s)
+    if not sol.success:  # pragma: no cover
+        raise RuntimeError(f"dry DEM table B: {sol.message}")
+    tab_b = np.stack([sol.y[:n_alpha], sol.y[n_alpha:]], axis=-1)
+    if np.any(tab_b[:, -1, 0] > U_MIN):  # the linear continuation needs the fixed point
+        raise RuntimeError("dry DEM table B ends before the fixed point's neighbourhood")
+    scal = np.stack([xs, np.log(lam), p_star / lam, u_max], axis=-1)
+    grid = np.array([la[0], la[1] - la[0], v[1] - v[0], zeta[1] - zeta[0], n_alpha, n_v, n_s,
+                     U_MIN, X_LO, _TINY, SIGMA_SCALE, SIGMA_MAX])
+    return tab_a, tab_b, scal, grid
+
+
+@jitable
+def _lagrange4(z, n):
+    """Start index and 4-point Lagrange weights at fractional node position ``z`` (nodes 0..n-1;
+    the stencil is shifted inward at the ends)."""
+    i = int(math.floor(z)) - 1
+    i = min(max(i, 0), n - 4)
+    d = z - i  # position inside the stencil: nodes at 0, 1, 2, 3
+    d1 = d - 1.0
+    d2 = d - 2.0
+    d3 = d - 3.0
+    return i, (-d1 * d2 * d3 / 6.0, d * d2 * d3 / 2.0, -d * d1 * d3 / 2.0, d * d1 * d2 / 6.0)
+
+
+@jitable
+def _dry_dem(k0, g0, alpha, t, tab_a, tab_b, scal, grid):
+    """K*, G* of a host (k0, g0) with empty spheroids of aspect ``alpha`` added to
+    t = -ln(1 - phi), from the tables of :func:`build`, floored at 1e-12 of k0, g0. Returns
+    (ok, K*, G*); ok False where the tables do not apply and the exact integration must be
+    used."""
+    ok, dlk, dlg = _dry_dem_log(k0, g0, alpha, t, tab_a, tab_b, scal, grid)
+    if not ok:
+        return False, 0.0, 0.0
+    return True, k0 * max(math.exp(dlk), grid[9]), g0 * max(math.exp(dlg), grid[9])
+
+
+@jitable
+def _dry_dem_log(k0, g0, alpha, t, tab_a, tab_b, scal, grid):
+    """ln(K*/k0), ln(G*/g0) of :func:`_dry_dem`, not floored: (ok, dlnK, dlnG)."""
+    n_a = int(grid[4])
+    if n_a < 4:  # no table
+        return False, 0.0, 0.0
+    za = (math.log(alpha) - grid[0]) / grid[1]
+    if not (za >= 0.0 and za <= n_a - 1.0):
+        return False, 0.0, 0.0
+    x0 = math.log(g0 / k0)
+    ia, wa = _lagrange4(za, n_a)
+    xs = 0.0
+    llam = 0.0
+    rho = 0.0
+    umax = 0.0
+    for a in range(4):
+        xs += wa[a] * scal[ia + a, 0]
+        llam += wa[a] * scal[ia + a, 1]
+        rho += wa[a] * scal[ia + a, 2]
+        umax += wa[a] * scal[ia + a, 3]
+    if not (x0 >= grid[8] and x0 < xs):
+        return False, 0.0, 0.0
+    u0 = math.log(xs - x0)
+    zv = (u0 - grid[7]) / (umax - grid[7]) / grid[2]
+    n_v = int(grid[5])
+    if not zv >= 0.0:  # within 1.5e-8 of the fixed point
+        return False, 0.0, 0.0
+    zv = min(zv, n_v - 1.0)
+    iv, wv = _lagrange4(zv, n_v)
+    s0 = 0.0
+    l0 = 0.0
+    for a in range(4):
+        for b in range(4):
+            w = wa[a] * wv[b]
+            s0 += w * tab_a[ia + a, iv + b, 0]
+            l0 += w * tab_a[ia + a, iv + b, 1]
+    s1 = s0 + math.exp(llam) * t
+    n_s = int(grid[6])
+    extra = 0.0
+    if s1 >= grid[11]:
+        extra = s1 - grid[11]
+        zs = n_s - 1.0
+    else:
+        zs = math.log1p(s1 / grid[10]) / grid[3]
+    is_, ws = _lagrange4(zs, n_s)
+    u1 = 0.0
+    l1 = 0.0
+    for a in range(4):
+        for b in range(4):
+            w = wa[a] * ws[b]
+            u1 += w * tab_b[ia + a, is_ + b, 0]
+            l1 += w * tab_b[ia + a, is_ + b, 1]
+    u1 -= extra
+    l1 += rho * extra
+    dlk = l0 - l1
+    return True, dlk, dlk + (xs - math.exp(u1)) - x0
