@@ -39,7 +39,7 @@ from .serpentinization import _hs_upper
 
 # the shared physics functions become callable from compiled code (they stay the same objects)
 for _fn in JITABLE:
-    register_jitable(_fn)
+    register_jitable(inline="always" if _fn._jit_inline else "never")(_fn)
 del _fn
 
 #: LLVM fast-math flags without "no NaN / no inf" (the floors and clips must see inf and NaN
@@ -439,7 +439,7 @@ def _recipes(model, tabulate=True):
 
 
 #: Stand-in for the dry-pore DEM tables that covers no element (``tabulate=False``).
-_NO_DRY = (np.zeros((1, 1, 2)), np.zeros((1, 1, 2)), np.zeros((1, 4)), np.zeros(12))
+_NO_DRY = (np.zeros((1, 1, 2)), np.zeros((1, 1, 2)), np.zeros((4, 1)), np.zeros(11))
 
 
 def forward(model, f, sc, tabulate=True):

@@ -9,7 +9,8 @@ K_i = G_i = 0, in t = -ln(1 - phi), read (see :func:`bayescrust.physics.inclusio
 because the polarisation factors P, Q of Berryman (1980) depend on the host only through
 R = 3G/(3K + 4G), a function of x, once K_i/K* = G_i/G* = 0. So x obeys the autonomous
 equation dx/dt = P - Q, which has one attracting fixed point x*(alpha) (the Poisson's ratio
-the porous frame tends to: 0.2 for spheres, about 0.001 for alpha = 1e-3), and the moduli
+the porous frame tends to: 0.2 for spheres, about 0.001 for alpha = 1e-3; a host at or
+beyond it, Poisson's ratio <= nu*, takes the exact integration), and the moduli
 follow by quadrature. Every start x0 of a host lies on one trajectory per alpha, the one
 started from X_LO (Poisson's ratio 0.49): with s(x) the time that trajectory takes to reach x
 and L(x) = integral of P dt along it,
@@ -19,15 +20,16 @@ and L(x) = integral of P dt along it,
 
 This is exact. :func:`build` integrates the trajectory for a grid of aspect ratios with
 scipy's DOP853 (the converged-reference method of ``inclusions._dem_reference``) in two
-forms: table A gives (sigma, L) against u = ln(x* - x), table B gives (u, L) against
-sigma = lambda t, lambda being the decay rate of x* - x at the fixed point (the scaling
-makes the tables alike across aspect ratios, and near the fixed point u falls linearly with
-sigma and L grows linearly, which the lookup continues past the table's end). The lookup
-:func:`_dry_dem` interpolates both tables with 4-point Lagrange cubics in (ln alpha, u) and
-(ln alpha, sigma): about a hundred operations, against 4 x 15-128 evaluations of P, Q for the
-RK4 integration. Elements the tables do not cover (alpha outside ALPHA_RANGE, a host outside
-X_LO..x* or within 1.5e-8 of x*) are reported back for the exact integration. Accuracy
-against the converged reference: tests/physics/test_dem_flow.py.
+forms: table A gives (sigma, L) against u = ln(x* - x), table B gives (G/K = exp(x), L)
+against sigma = lambda t, lambda being the decay rate of x* - x at the fixed point (the
+scaling makes the tables alike across aspect ratios; past table B's end the element sits at
+the fixed point and L grows linearly). The lookup :func:`_dry_dem` interpolates both tables
+with 4-point Lagrange cubics in (ln alpha, u) and (ln alpha, sqrt sigma): about a hundred
+operations (~0.2 us compiled), against 4 x 15-128 evaluations of P, Q for the RK4
+integration (~1-6 us). While building, P - Q within NEAR_ZONE of x* is its Taylor
+polynomial (see :func:`_rate_near`). Elements the tables do not cover (alpha outside
+ALPHA_RANGE, a host outside X_LO..x* or within 1.5e-8 of x*) are reported back for the exact
+integration. Accuracy against the converged reference: tests/physics/test_dem_flow.py.
 
 The moduli are floored at 1e-12 of the matrix's, as in the RK4 integration, but at the end:
 the integration floors them along the path (its rates stay finite), so where K* falls below
@@ -57,17 +59,13 @@ X_LO = math.log(3.0 * (1.0 - 2.0 * 0.49) / (2.0 * (1.0 + 0.49)))
 #: in [0, 1] on N_V uniform nodes. Below U_MIN (x within 1.5e-8 of x*) the exact path is used.
 U_MIN = -18.0
 N_V = 384
-#: Table B: sigma = lambda t on N_S nodes over [0, SIGMA_MAX], uniform in
-#: zeta = ln(1 + sigma / SIGMA_SCALE) (the path bends most at its start); beyond SIGMA_MAX, u
-#: and L are continued linearly (slopes -1 and P*/lambda, the fixed point's own; error < 1e-8).
+#: Table B: sigma = lambda t on N_S nodes over [0, SIGMA_MAX], uniform in sqrt(sigma) (the
+#: path bends most at its start); beyond SIGMA_MAX the element is at the fixed point (within
+#: 1.5e-8 in x, checked when built): G/K = exp(x*) and L grows at P*/lambda per unit sigma.
 SIGMA_MAX = 28.0
-SIGMA_SCALE = 0.1
-N_S = 384
-#: Distance x* - x below which P - Q is taken as lambda (x* - x) while building the tables.
-LINEAR_ZONE = 1e-6
-
-# layout of the per-alpha scalars
-_XS, _LLAM, _RHO, _UMAX = range(4)
+N_S = 512
+#: Distance x* - x below which P - Q is taken as its Taylor polynomial while building.
+NEAR_ZONE = 1e-4
 
 
 def _pq_dry(x, geo):
@@ -76,16 +74,19 @@ def _pq_dry(x, geo):
     return _pq(0.0, 0.0, 3.0 * e / (3.0 + 4.0 * e), geo)
 
 
-def _rate_near(eu, xs, lam, geo):
-    """P and P - Q at x = x* - eu. Within LINEAR_ZONE of the fixed point P - Q = lambda eu to
-    O(eu^2) and the difference of the two large numbers P, Q would be rounding noise (which
-    stalls the step control of the integration), so the linear form is used there."""
+def _rate_near(eu, xs, lam, curv, geo):
+    """P and P - Q at x = x* - eu. Within NEAR_ZONE of the fixed point P - Q is taken as its
+    Taylor polynomial lambda eu + curv eu^2 / 2 (error O(eu^3)): there the difference of the
+    two large numbers P, Q is rounding noise (for thin cracks P ~ 0.4/alpha and the terms of
+    P carry relative rounding ~1e-16/alpha), which stalls the step control of the
+    integration."""
     p, q = _pq_dry(xs - eu, geo)
-    return p, np.where(eu < LINEAR_ZONE, lam * eu, p - q)
+    return p, np.where(eu < NEAR_ZONE, lam * eu + 0.5 * curv * eu * eu, p - q)
 
 
 def _fixed_point(geo, n):
-    """x* (P = Q) and lambda = -d(P - Q)/dx at x*, for each of ``n`` aspect ratios."""
+    """x* (P = Q), lambda = -d(P - Q)/dx and curv = d^2(P - Q)/dx^2 at x*, for each of ``n``
+    aspect ratios (central differences, step 1e-5 and 1e-3)."""
     lo = np.full(n, X_LO)
     hi = np.full(n, math.log(1.5) - 1e-12)  # G/K -> 1.5 is Poisson's ratio -1
     f_lo = np.subtract(*_pq_dry(lo, geo))
@@ -97,32 +98,39 @@ def _fixed_point(geo, n):
         lo = np.where(pos, mid, lo)
         hi = np.where(pos, hi, mid)
     xs = 0.5 * (lo + hi)
+
+    def f(x):
+        return np.subtract(*_pq_dry(x, geo))
+
     h = 1e-5
-    lam = -(np.subtract(*_pq_dry(xs + h, geo)) - np.subtract(*_pq_dry(xs - h, geo))) / (2 * h)
-    return xs, lam
+    lam = -(f(xs + h) - f(xs - h)) / (2 * h)
+    h = 1e-3
+    curv = (f(xs + h) - 2.0 * f(xs) + f(xs - h)) / (h * h)
+    return xs, lam, curv
 
 
 @functools.lru_cache(maxsize=1)
 def build(n_alpha=N_ALPHA, n_v=N_V, n_s=N_S, rtol=1e-9):
     """The tables of :func:`_dry_dem`: ``(tab_a, tab_b, scal, grid)``.
 
-    ``tab_a`` (n_alpha, n_v, 2): sigma and L at v; ``tab_b`` (n_alpha, n_s, 2): u and L at
-    sigma; ``scal`` (n_alpha, 4): x*, ln lambda, P*/lambda, u_max; ``grid``: ln alpha of the
-    first node and spacing, v spacing, sigma spacing, the node counts, U_MIN, X_LO. Built with
-    scipy's DOP853 at relative and absolute tolerance ``rtol`` (about 0.1 s; cached).
+    ``tab_a`` (n_alpha, n_v, 2): sigma and L at v; ``tab_b`` (n_alpha, n_s, 2): G/K = exp(x)
+    and L at sigma; ``scal`` (4, n_alpha): x*, lambda alpha, P*/lambda, u_max; ``grid``: ln
+    alpha of the first node and spacing, v spacing, sigma's nodes per sqrt(sigma), the node
+    counts, U_MIN, X_LO, the floor (relative to the matrix), SIGMA_MAX. Built with scipy's DOP853 at
+    relative and absolute tolerance ``rtol`` (about 0.2 s; cached).
     """
     from scipy.integrate import solve_ivp
 
     la = np.linspace(math.log(ALPHA_RANGE[0]), math.log(ALPHA_RANGE[1]), n_alpha)
     geo = tuple(_geometry(np.exp(la)))
-    xs, lam = _fixed_point(geo, n_alpha)
+    xs, lam, curv = _fixed_point(geo, n_alpha)
     p_star = _pq_dry(xs, geo)[0]
     u_max = np.log(xs - X_LO)
     span = u_max - U_MIN
 
     def rhs_a(v, y):  # d(sigma, L)/dv along the trajectory, x = x* - exp(u(v))
         eu = np.exp(U_MIN + v * span)
-        p, d = _rate_near(eu, xs, lam, geo)
+        p, d = _rate_near(eu, xs, lam, curv, geo)
         c = -span * eu / d
         return np.concatenate([lam * c, p * c])
 
@@ -136,22 +144,23 @@ def build(n_alpha=N_ALPHA, n_v=N_V, n_s=N_S, rtol=1e-9):
     def rhs_b(_s, y):  # d(u, L)/dsigma
         u = y[:n_alpha]
         eu = np.exp(u)
-        p, d = _rate_near(eu, xs, lam, geo)
+        p, d = _rate_near(eu, xs, lam, curv, geo)
         return np.concatenate([-d / (lam * eu), p / lam])
 
-    zeta = np.linspace(0.0, math.log1p(SIGMA_MAX / SIGMA_SCALE), n_s)
-    s = SIGMA_SCALE * np.expm1(zeta)
+    s = SIGMA_MAX * np.linspace(0.0, 1.0, n_s) ** 2
     s[-1] = SIGMA_MAX
     sol = solve_ivp(rhs_b, (0.0, SIGMA_MAX), np.concatenate([u_max, np.zeros(n_alpha)]),
                     method="DOP853", rtol=rtol, atol=rtol, t_eval=s)
     if not sol.success:  # pragma: no cover
         raise RuntimeError(f"dry DEM table B: {sol.message}")
-    tab_b = np.stack([sol.y[:n_alpha], sol.y[n_alpha:]], axis=-1)
-    if np.any(tab_b[:, -1, 0] > U_MIN):  # the linear continuation needs the fixed point
+    if np.any(sol.y[:n_alpha, -1] > U_MIN):  # the continuation needs the fixed point
         raise RuntimeError("dry DEM table B ends before the fixed point's neighbourhood")
-    scal = np.stack([xs, np.log(lam), p_star / lam, u_max], axis=-1)
-    grid = np.array([la[0], la[1] - la[0], v[1] - v[0], zeta[1] - zeta[0], n_alpha, n_v, n_s,
-                     U_MIN, X_LO, _TINY, SIGMA_SCALE, SIGMA_MAX])
+    ratio = np.exp(xs[:, None] - np.exp(sol.y[:n_alpha]))
+    tab_b = np.stack([ratio, sol.y[n_alpha:]], axis=-1)
+    # lambda ~ 1/alpha for thin cracks: lambda alpha varies slowly and interpolates closely
+    scal = np.stack([xs, lam * np.exp(la), p_star / lam, u_max])
+    grid = np.array([la[0], la[1] - la[0], v[1] - v[0], (n_s - 1) / math.sqrt(SIGMA_MAX),
+                     n_alpha, n_v, n_s, U_MIN, X_LO, _TINY, SIGMA_MAX])
     return tab_a, tab_b, scal, grid
 
 
@@ -165,24 +174,49 @@ def _lagrange4(z, n):
     d1 = d - 1.0
     d2 = d - 2.0
     d3 = d - 3.0
-    return i, (-d1 * d2 * d3 / 6.0, d * d2 * d3 / 2.0, -d * d1 * d3 / 2.0, d * d1 * d2 / 6.0)
+    return i, -d1 * d2 * d3 / 6.0, d * d2 * d3 / 2.0, -d * d1 * d3 / 2.0, d * d1 * d2 / 6.0
 
 
 @jitable
+def _cubic(row, j, w0, w1, w2, w3):
+    """sum_b w_b row[j + b] (written out: the compiled loop runs it ~10^6 times a second)."""
+    return w0 * row[j] + w1 * row[j + 1] + w2 * row[j + 2] + w3 * row[j + 3]
+
+
+@jitable
+def _cubic2(tab, i, j, w0, w1, w2, w3):
+    """Both columns of sum_b w_b tab[i, j + b, :] (a table of pairs)."""
+    r = tab[i]
+    return (w0 * r[j, 0] + w1 * r[j + 1, 0] + w2 * r[j + 2, 0] + w3 * r[j + 3, 0],
+            w0 * r[j, 1] + w1 * r[j + 1, 1] + w2 * r[j + 2, 1] + w3 * r[j + 3, 1])
+
+
+@jitable
+def _bicubic2(tab, i, a0, a1, a2, a3, j, b0, b1, b2, b3):
+    """Tensor-product 4 x 4 Lagrange interpolation of both columns of ``tab[i:i+4, j:j+4]``."""
+    p0, q0 = _cubic2(tab, i, j, b0, b1, b2, b3)
+    p1, q1 = _cubic2(tab, i + 1, j, b0, b1, b2, b3)
+    p2, q2 = _cubic2(tab, i + 2, j, b0, b1, b2, b3)
+    p3, q3 = _cubic2(tab, i + 3, j, b0, b1, b2, b3)
+    return a0 * p0 + a1 * p1 + a2 * p2 + a3 * p3, a0 * q0 + a1 * q1 + a2 * q2 + a3 * q3
+
+
+@jitable(inline=True)
 def _dry_dem(k0, g0, alpha, t, tab_a, tab_b, scal, grid):
     """K*, G* of a host (k0, g0) with empty spheroids of aspect ``alpha`` added to
     t = -ln(1 - phi), from the tables of :func:`build`, floored at 1e-12 of k0, g0. Returns
     (ok, K*, G*); ok False where the tables do not apply and the exact integration must be
     used."""
-    ok, dlk, dlg = _dry_dem_log(k0, g0, alpha, t, tab_a, tab_b, scal, grid)
+    ok, dlk, ratio = _dry_dem_path(k0, g0, alpha, t, tab_a, tab_b, scal, grid)
     if not ok:
         return False, 0.0, 0.0
-    return True, k0 * max(math.exp(dlk), grid[9]), g0 * max(math.exp(dlg), grid[9])
+    k = k0 * math.exp(dlk)
+    return True, max(k, grid[9] * k0), max(k * ratio, grid[9] * g0)
 
 
-@jitable
-def _dry_dem_log(k0, g0, alpha, t, tab_a, tab_b, scal, grid):
-    """ln(K*/k0), ln(G*/g0) of :func:`_dry_dem`, not floored: (ok, dlnK, dlnG)."""
+@jitable(inline=True)
+def _dry_dem_path(k0, g0, alpha, t, tab_a, tab_b, scal, grid):
+    """(ok, ln(K*/k0), G*/K*) of :func:`_dry_dem`, not floored."""
     n_a = int(grid[4])
     if n_a < 4:  # no table
         return False, 0.0, 0.0
@@ -190,49 +224,24 @@ def _dry_dem_log(k0, g0, alpha, t, tab_a, tab_b, scal, grid):
     if not (za >= 0.0 and za <= n_a - 1.0):
         return False, 0.0, 0.0
     x0 = math.log(g0 / k0)
-    ia, wa = _lagrange4(za, n_a)
-    xs = 0.0
-    llam = 0.0
-    rho = 0.0
-    umax = 0.0
-    for a in range(4):
-        xs += wa[a] * scal[ia + a, 0]
-        llam += wa[a] * scal[ia + a, 1]
-        rho += wa[a] * scal[ia + a, 2]
-        umax += wa[a] * scal[ia + a, 3]
+    ia, a0, a1, a2, a3 = _lagrange4(za, n_a)
+    xs = _cubic(scal[0], ia, a0, a1, a2, a3)
     if not (x0 >= grid[8] and x0 < xs):
         return False, 0.0, 0.0
+    umax = _cubic(scal[3], ia, a0, a1, a2, a3)
     u0 = math.log(xs - x0)
     zv = (u0 - grid[7]) / (umax - grid[7]) / grid[2]
-    n_v = int(grid[5])
     if not zv >= 0.0:  # within 1.5e-8 of the fixed point
         return False, 0.0, 0.0
-    zv = min(zv, n_v - 1.0)
-    iv, wv = _lagrange4(zv, n_v)
-    s0 = 0.0
-    l0 = 0.0
-    for a in range(4):
-        for b in range(4):
-            w = wa[a] * wv[b]
-            s0 += w * tab_a[ia + a, iv + b, 0]
-            l0 += w * tab_a[ia + a, iv + b, 1]
-    s1 = s0 + math.exp(llam) * t
+    n_v = int(grid[5])
+    iv, b0, b1, b2, b3 = _lagrange4(min(zv, n_v - 1.0), n_v)
+    s0, l0 = _bicubic2(tab_a, ia, a0, a1, a2, a3, iv, b0, b1, b2, b3)
+    s1 = s0 + _cubic(scal[1], ia, a0, a1, a2, a3) / alpha * t
     n_s = int(grid[6])
-    extra = 0.0
-    if s1 >= grid[11]:
-        extra = s1 - grid[11]
-        zs = n_s - 1.0
-    else:
-        zs = math.log1p(s1 / grid[10]) / grid[3]
-    is_, ws = _lagrange4(zs, n_s)
-    u1 = 0.0
-    l1 = 0.0
-    for a in range(4):
-        for b in range(4):
-            w = wa[a] * ws[b]
-            u1 += w * tab_b[ia + a, is_ + b, 0]
-            l1 += w * tab_b[ia + a, is_ + b, 1]
-    u1 -= extra
-    l1 += rho * extra
-    dlk = l0 - l1
-    return True, dlk, dlk + (xs - math.exp(u1)) - x0
+    if s1 < grid[10]:
+        js, b0, b1, b2, b3 = _lagrange4(math.sqrt(s1) * grid[3], n_s)
+        ratio, l1 = _bicubic2(tab_b, ia, a0, a1, a2, a3, js, b0, b1, b2, b3)
+    else:  # at the fixed point: G/K = exp(x*), L grows at P*/lambda per unit sigma
+        ratio, l1 = _bicubic2(tab_b, ia, a0, a1, a2, a3, n_s - 4, 0.0, 0.0, 0.0, 1.0)
+        l1 += _cubic(scal[2], ia, a0, a1, a2, a3) * (s1 - grid[10])
+    return True, l0 - l1, ratio
