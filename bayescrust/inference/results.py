@@ -243,9 +243,15 @@ def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool 
     For the exact reference (``mcmc=False``) r_hat is NaN and ess_bulk is ``ess_override``
     (the importance-sampling effective size).
     """
-    import arviz as az
     import pandas as pd
 
+    from ._arviz import numpy_diagnostics
+
+    with numpy_diagnostics() as az:
+        return _summary_rows(az, pd, posterior, ess_override, mcmc)
+
+
+def _summary_rows(az, pd, posterior, ess_override, mcmc):
     rows = []
     for name, arr in posterior.items():
         arr = np.asarray(arr, float)

@@ -129,3 +129,28 @@ def test_layer_log_prob_equals_quantities_path(case):
     pred = m.predict(theta[ok])
     for k in ("vp", "vs", "density", "vp_vs"):
         np.testing.assert_array_equal(pred[k], q[k])
+
+
+def test_numpy_diagnostics_match_arviz_numba_path_and_restore_the_switch():
+    """ESS and R-hat on arviz's numpy path equal its numba path to rounding; the switch is
+    restored after the block, also when the block raises."""
+    az = pytest.importorskip("arviz")
+    from bayescrust.inference._arviz import numpy_diagnostics
+
+    switch = getattr(az, "Numba", None)
+    if switch is None or not switch.numba_flag:
+        pytest.skip("arviz without a numba path (arviz 1.x, or numba not installed)")
+    rng = np.random.default_rng(0)
+    x = np.cumsum(rng.standard_normal((8, 300)), axis=1) * 0.1 + rng.standard_normal((8, 300))
+    ref = (float(az.ess(x, method="bulk")), float(az.ess(x[:1], method="mean")),
+           float(az.rhat(x)))
+    with numpy_diagnostics() as a:
+        assert not switch.numba_flag
+        new = (float(a.ess(x, method="bulk")), float(a.ess(x[:1], method="mean")),
+               float(a.rhat(x)))
+    assert switch.numba_flag
+    # the two paths differ only in the summation order of variances (a few ulp)
+    np.testing.assert_allclose(new, ref, rtol=1e-10)
+    with pytest.raises(RuntimeError), numpy_diagnostics():
+        raise RuntimeError("inside")
+    assert switch.numba_flag
