@@ -397,8 +397,9 @@ class LayerModel:
     @cached_property
     def _layout(self):
         """What the per-call kernels reuse (computed once per model; the model is frozen):
-        the Dirichlet normalisation, and per scalar parameter its column (``None`` when fixed)
-        and whether the column holds ln(value)."""
+        the Dirichlet normalisation and ``alpha - 1`` (None for a flat Dirichlet), per scalar
+        parameter its column (``None`` when fixed) and whether the column holds ln(value), and
+        the free parameters' (column, logpdf, log coordinate)."""
         a = self.alpha
         log_norm = special.gammaln(a.sum()) - special.gammaln(a).sum()
         k = self.n_fraction_dims
@@ -407,7 +408,7 @@ class LayerModel:
                 for p in SCALAR_PARAMETERS}
         priors = tuple((k + j, self.scalar_priors[p].logpdf, p in logc)
                        for j, p in enumerate(self.free))
-        return log_norm, a - 1.0, cols, priors
+        return log_norm, (None if np.all(a == 1.0) else a - 1.0), cols, priors
 
     def fractions(self, theta) -> np.ndarray:
         """Full rock fractions, shape (n, n_rocks), from sampled points (n, ndim)."""
@@ -441,9 +442,12 @@ class LayerModel:
             if self.fixed_fractions is None:
                 f = self.fractions(theta)
                 ok = np.all(f >= 0.0, axis=1)
-                fpos = np.where(ok[:, None], f, 1.0)
-                dens = log_norm + (special.xlogy(a1, fpos)).sum(axis=1)
-                lp = np.where(ok, dens, -np.inf)
+                if a1 is None:  # flat Dirichlet: the density is its normalisation
+                    lp = np.where(ok, log_norm, -np.inf)
+                else:
+                    fpos = np.where(ok[:, None], f, 1.0)
+                    dens = log_norm + (special.xlogy(a1, fpos)).sum(axis=1)
+                    lp = np.where(ok, dens, -np.inf)
             for col, logpdf, logc in priors:
                 x = theta[:, col]
                 if logc:  # density of u = ln x: p(e^u) e^u

@@ -154,3 +154,44 @@ def test_numpy_diagnostics_match_arviz_numba_path_and_restore_the_switch():
     with pytest.raises(RuntimeError), numpy_diagnostics():
         raise RuntimeError("inside")
     assert switch.numba_flag
+
+
+def test_summary_reuses_the_row_of_an_identical_quantity():
+    from bayescrust.inference.results import summarize
+
+    rng = np.random.default_rng(1)
+    x = rng.standard_normal((16, 120)).cumsum(axis=1) * 0.05 + rng.standard_normal((16, 120))
+    y = rng.standard_normal((16, 120))
+    both = summarize({"a": x, "b": x.copy(), "c": y})
+    alone = summarize({"b": x, "c": y})
+    for col in both.columns:
+        assert both.loc["b", col] == alone.loc["b", col]
+        assert both.loc["a", col] == alone.loc["b", col]
+        assert both.loc["c", col] == alone.loc["c", col]
+    assert list(both.index) == ["a", "b", "c"]
+
+
+@pytest.mark.parametrize("alpha", [(1.0, 1.0, 1.0), (2.0, 3.0, 5.0)])
+def test_layer_log_prior_against_scipy(alpha):
+    """The prior density of the sampled coordinates: scipy's Dirichlet of the three fractions
+    (the last one implied) times the uniform scalar priors; -inf off the simplex."""
+    from scipy import stats
+
+    import bayescrust as bc
+    from bayescrust.inference.model import LayerModel
+
+    layer = bc.Layer("l2", top_km=1.0, bottom_km=2.5, water_depth_km=2.5, vp=(5.5, 0.15))
+    m = LayerModel.build(layer, rocks=("basalt", "gabbro", "harzburgite"),
+                         priors={"fractions": bc.priors.Dirichlet(list(alpha)),
+                                 "porosity": 0.0, "melt_fraction": 0.0,
+                                 "serpentinization": 0.0})
+    assert m.parameter_names == ("basalt", "gabbro", "temperature_c")
+    rng = np.random.default_rng(3)
+    theta = m.sample_prior(rng, 200)
+    lo, hi = m.scalar_priors["temperature_c"].bounds
+    f = np.column_stack([theta[:, :2], 1.0 - theta[:, :2].sum(axis=1)])
+    ref = stats.dirichlet(alpha).logpdf(f.T) - np.log(hi - lo)
+    np.testing.assert_allclose(m.log_prior(theta), ref, rtol=1e-12)
+    off = theta[:5].copy()
+    off[:, 0] = 1.2  # the implied third fraction is negative
+    assert np.all(m.log_prior(off) == -np.inf)
