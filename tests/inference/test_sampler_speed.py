@@ -195,3 +195,18 @@ def test_layer_log_prior_against_scipy(alpha):
     off = theta[:5].copy()
     off[:, 0] = 1.2  # the implied third fraction is negative
     assert np.all(m.log_prior(off) == -np.inf)
+
+
+@pytest.mark.parametrize("shape", [(300, 24, 3), (1037, 64, 4), (50, 2, 1)])
+def test_batched_integrated_time_equals_emcee(shape):
+    from bayescrust.inference.sampler import _integrated_time
+
+    rng = np.random.default_rng(shape[0])
+    e = rng.standard_normal(shape)
+    x = np.empty(shape)
+    x[0] = e[0]
+    for t in range(1, shape[0]):  # AR(1) series with tau = (1 + 0.8) / (1 - 0.8) = 9
+        x[t] = 0.8 * x[t - 1] + e[t]
+    x += rng.standard_normal(shape[1:]) * 3.0  # walker offsets: the means must be removed
+    ref = emcee.autocorr.integrated_time(x, c=5, tol=0, quiet=True)
+    np.testing.assert_allclose(_integrated_time(x, c=5), ref, rtol=1e-9)
