@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from scipy import special
@@ -373,7 +374,7 @@ class LayerModel:
         """Names of the sampled coordinates, in order."""
         return tuple(self.rock_names[: self.n_fraction_dims]) + self.free
 
-    @property
+    @cached_property
     def log_coordinates(self) -> tuple[str, ...]:
         """Free scalar parameters whose sampled coordinate is ln(value): those with a log-scale
         prior (``LogUniform``), temperature excepted (profiles read it directly).
@@ -393,6 +394,22 @@ class LayerModel:
         """Number of sampled coordinates."""
         return self.n_fraction_dims + len(self.free)
 
+    @cached_property
+    def _layout(self):
+        """What the per-call kernels reuse (computed once per model; the model is frozen):
+        the Dirichlet normalisation and ``alpha - 1`` (None for a flat Dirichlet), per scalar
+        parameter its column (``None`` when fixed) and whether the column holds ln(value), and
+        the free parameters' (column, logpdf, log coordinate)."""
+        a = self.alpha
+        log_norm = special.gammaln(a.sum()) - special.gammaln(a).sum()
+        k = self.n_fraction_dims
+        logc = self.log_coordinates
+        cols = {p: (None if p in self.fixed else (k + self.free.index(p), p in logc))
+                for p in SCALAR_PARAMETERS}
+        priors = tuple((k + j, self.scalar_priors[p].logpdf, p in logc)
+                       for j, p in enumerate(self.free))
+        return log_norm, (None if np.all(a == 1.0) else a - 1.0), cols, priors
+
     def fractions(self, theta) -> np.ndarray:
         """Full rock fractions, shape (n, n_rocks), from sampled points (n, ndim)."""
         theta = np.atleast_2d(theta)
@@ -405,15 +422,13 @@ class LayerModel:
     def scalars(self, theta) -> dict[str, np.ndarray]:
         """Every scalar parameter (free and fixed) as arrays of shape (n,)."""
         theta = np.atleast_2d(theta)
-        k = self.n_fraction_dims
-        logc = self.log_coordinates
         out = {}
-        for p in SCALAR_PARAMETERS:
-            if p in self.fixed:
+        for p, c in self._layout[2].items():
+            if c is None:
                 out[p] = np.full(theta.shape[0], self.fixed[p])
             else:
-                col = theta[:, k + self.free.index(p)]
-                out[p] = np.exp(col) if p in logc else col
+                col = theta[:, c[0]]
+                out[p] = np.exp(col) if c[1] else col
         return out
 
     # ------------------------------------------------------------------ prior
@@ -422,23 +437,23 @@ class LayerModel:
         (ln x for :attr:`log_coordinates`); ``-inf`` outside support."""
         theta = np.atleast_2d(np.asarray(theta, float))
         lp = np.zeros(theta.shape[0])
+        log_norm, a1, _, priors = self._layout
         with np.errstate(all="ignore"):
             if self.fixed_fractions is None:
                 f = self.fractions(theta)
                 ok = np.all(f >= 0.0, axis=1)
-                a = self.alpha
-                log_norm = special.gammaln(a.sum()) - special.gammaln(a).sum()
-                fpos = np.where(ok[:, None], f, 1.0)
-                dens = log_norm + (special.xlogy(a - 1.0, fpos)).sum(axis=1)
-                lp = np.where(ok, dens, -np.inf)
-            k = self.n_fraction_dims
-            logc = self.log_coordinates
-            for j, p in enumerate(self.free):
-                x = theta[:, k + j]
-                if p in logc:  # density of u = ln x: p(e^u) e^u
-                    lp = lp + self.scalar_priors[p].logpdf(np.exp(x)) + x
+                if a1 is None:  # flat Dirichlet: the density is its normalisation
+                    lp = np.where(ok, log_norm, -np.inf)
                 else:
-                    lp = lp + self.scalar_priors[p].logpdf(x)
+                    fpos = np.where(ok[:, None], f, 1.0)
+                    dens = log_norm + (special.xlogy(a1, fpos)).sum(axis=1)
+                    lp = np.where(ok, dens, -np.inf)
+            for col, logpdf, logc in priors:
+                x = theta[:, col]
+                if logc:  # density of u = ln x: p(e^u) e^u
+                    lp = lp + logpdf(np.exp(x)) + x
+                else:
+                    lp = lp + logpdf(x)
         lp = np.where(np.isnan(lp), -np.inf, lp)
         return lp
 
@@ -483,13 +498,8 @@ class LayerModel:
         for fam, mask in self.families.items():
             if not fam.startswith("_"):
                 out[fam] = f @ mask
-        t = s["temperature_c"]
-        sol = f @ self.rock_solidus_c
-        out["solidus_c"] = sol
-        out["melt_fraction_effective"] = np.where(t > sol, s["melt_fraction"], 0.0)
-        out["serpentinization_effective"] = np.where(
-            t < self.serpentine_limit_c, s["serpentinization"], 0.0
-        )
+        out["solidus_c"], out["melt_fraction_effective"], out["serpentinization_effective"] = (
+            self._effective(f, s))
         out["serpentine_fraction"] = (
             out["serpentinization_effective"] * (f @ self.families["_peridotite"])
             + f @ self.families["_serpentinite"]
@@ -498,6 +508,26 @@ class LayerModel:
             vp, vs, rho = self._forward(f, out)
             out.update(vp=vp, vs=vs, density=rho, vp_vs=vp / vs)
         return out
+
+    def _effective(self, f, s):
+        """Solidus of the rock mix and the melt fraction and serpentinisation in effect: melt
+        only above the solidus, serpentine only below its stability limit."""
+        t = s["temperature_c"]
+        sol = f @ self.rock_solidus_c
+        melt = np.where(t > sol, s["melt_fraction"], 0.0)
+        serp = np.where(t < self.serpentine_limit_c, s["serpentinization"], 0.0)
+        return sol, melt, serp
+
+    def predict(self, theta) -> dict[str, np.ndarray]:
+        """The observables ``vp``, ``vs``, ``density``, ``vp_vs`` of sampled points (n, ndim);
+        the same values as :meth:`quantities` without the other derived quantities (the
+        log-probability's path)."""
+        theta = np.atleast_2d(np.asarray(theta, float))
+        f = self.fractions(theta)
+        s = self.scalars(theta)
+        _, s["melt_fraction_effective"], s["serpentinization_effective"] = self._effective(f, s)
+        vp, vs, rho = self._forward(f, s)
+        return {"vp": vp, "vs": vs, "density": rho, "vp_vs": vp / vs}
 
     def _forward(self, f, q):
         with np.errstate(all="ignore"):
@@ -589,9 +619,10 @@ class LayerModel:
         theta = np.atleast_2d(np.asarray(theta, float))
         lp = self.log_prior(theta)
         ok = np.isfinite(lp)
-        if np.any(ok):
-            q = self.quantities(theta[ok])
-            ll = sum(self.log_likelihood_terms(q).values())
-            lp[ok] = lp[ok] + ll
+        if ok.all():  # the usual case: no copies
+            lp = lp + sum(self.log_likelihood_terms(self.predict(theta)).values())
+        elif ok.any():
+            q = self.predict(theta[ok])
+            lp[ok] = lp[ok] + sum(self.log_likelihood_terms(q).values())
         lp[np.isnan(lp)] = -np.inf
         return lp

@@ -243,12 +243,25 @@ def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool 
     For the exact reference (``mcmc=False``) r_hat is NaN and ess_bulk is ``ess_override``
     (the importance-sampling effective size).
     """
-    import arviz as az
     import pandas as pd
 
-    rows = []
+    from ._arviz import numpy_diagnostics
+
+    with numpy_diagnostics() as az:
+        return _summary_rows(az, pd, posterior, ess_override, mcmc)
+
+
+def _summary_rows(az, pd, posterior, ess_override, mcmc):
+    rows, seen = [], []
     for name, arr in posterior.items():
         arr = np.asarray(arr, float)
+        # a quantity equal draw for draw to one already summarised (e.g. gabbroic_fraction and
+        # gabbro when gabbro is the only gabbroic rock) has the same row
+        same = next((r for a, r in seen if a.shape == arr.shape and np.array_equal(a, arr)),
+                    None)
+        if same is not None:
+            rows.append({**same, "quantity": name})
+            continue
         flat = arr.ravel()
         const = bool(np.ptp(flat) == 0)
         if const:
@@ -266,6 +279,7 @@ def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool 
         rows.append({"quantity": name, "mean": float(flat.mean()), "sd": float(flat.std()),
                      "median": float(np.median(flat)), "hdi_low": lo, "hdi_high": hi,
                      "r_hat": r_hat, "ess_bulk": ess})
+        seen.append((arr, rows[-1]))
     return pd.DataFrame(rows).set_index("quantity")
 
 

@@ -209,11 +209,12 @@ def ensemble_rhat(arr, n_groups: int = RHAT_GROUPS) -> float:
     the groups against each other, each chain being as long as the whole group. With fewer
     walkers than ``2 n_groups`` the walkers are used as chains.
     """
-    import arviz as az
+    from ._arviz import numpy_diagnostics
 
     a = np.asarray(arr, float)
     nw, nd = a.shape
     if nw >= 2 * n_groups:
         k = nw // n_groups
         a = a[: k * n_groups].reshape(k, n_groups, nd).transpose(1, 2, 0).reshape(n_groups, -1)
-    return float(az.rhat(a))
+    with numpy_diagnostics() as az:
+        return float(az.rhat(a))

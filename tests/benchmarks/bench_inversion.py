@@ -10,7 +10,11 @@ fraction, serpentinisation; porosity fixed 0). Prints, from one run:
   log-probability (what a hand-written script does), checking the ESS every 500 steps;
 - their ratio; and the exact reference's time;
 - the driver's time with the numpy reference kernels against the compiled (numba) kernels, when
-  numba is installed, in the same run (``--no-baseline`` skips the slow hand-written baseline).
+  numba is installed, in the same run (``--no-baseline`` skips the slow hand-written baseline);
+- emcee's own per-step cost for the driver's move mix (trivial log-probability), with emcee's
+  ``EnsembleSampler`` and with the driver's subclass.
+
+``bench_layer_cost.py`` splits one such run into sections and measures its memory.
 
 Run: ``python tests/benchmarks/bench_inversion.py [--forward dem|kuster_toksoz]``.
 """
@@ -78,22 +82,25 @@ def main(argv=None) -> int:
     # move mix on a trivial log-probability for the driver's number of steps
     model = LayerModel.build(layer, **kw)
     t_vec, steps_vec = _stretch_vectorised(emcee, model, d["n_walkers"], args.seed)
-    from bayescrust.inference.sampler import default_moves
+    from bayescrust.inference.sampler import _sampler, default_moves
 
     def trivial(x):
         return -0.5 * np.sum(x * x, axis=1)
 
-    floor = emcee.EnsembleSampler(d["n_walkers"], model.ndim, trivial, moves=default_moves(),
-                                  vectorize=True)
-    t0 = time.perf_counter()
-    floor.run_mcmc(np.random.default_rng(0).standard_normal((d["n_walkers"], model.ndim)),
-                   d["n_steps"], progress=False)
-    t_floor = time.perf_counter() - t0
+    t_floor = []
+    for floor in (emcee.EnsembleSampler(d["n_walkers"], model.ndim, trivial,
+                                        moves=default_moves(), vectorize=True),
+                  _sampler(d["n_walkers"], model.ndim, trivial, default_moves())):
+        t0 = time.perf_counter()
+        floor.run_mcmc(np.random.default_rng(0).standard_normal((d["n_walkers"], model.ndim)),
+                       d["n_steps"], progress=False)
+        t_floor.append(time.perf_counter() - t0)
     best = min(v[0] for v in kernels.values()) if kernels else t_driver
     print(f"emcee stretch, same vectorised log-prob: {t_vec:6.2f} s ({steps_vec} steps x "
           f"{d['n_walkers']} walkers); driver (best) is {t_vec / best:.1f}x faster")
     print(f"emcee's own cost of the driver's {d['n_steps']} steps (move mix, trivial "
-          f"log-prob): {t_floor:5.2f} s")
+          f"log-prob): {t_floor[0]:5.2f} s with emcee's EnsembleSampler, {t_floor[1]:5.2f} s "
+          "with the driver's (sampler._sampler)")
     if args.no_baseline:
         print(f"driver  : {t_driver:6.2f} s total, {d['n_steps']} steps, min ESS (tau) "
               f"{min(d['ess_stopping'].values()):.0f}, min ESS (arviz bulk) "
