@@ -15,7 +15,7 @@ import pytest
 
 from bayescrust.physics import dem_flow, inclusions
 
-#: Measured worst error of ln K*, ln G* on the grid below: 3.1e-6 (the issue asks 1e-4).
+#: Measured worst error of ln K*, ln G* on the grid below: 3.8e-6 (the issue asks 1e-4).
 TOL_LOG = 1e-5
 
 
