@@ -549,8 +549,8 @@ def _dem_reference(k_m, g_m, k_i, g_i, aspect_i, frac_i, rtol=1e-12, floor=_TINY
     mapped to tau in [0, 1] and the whole batch is one system for scipy's ``solve_ivp`` with the
     8th-order Dormand-Prince method (DOP853) at relative tolerance ``rtol`` and absolute
     tolerance ``rtol`` on the log-moduli. Slow; for tests and benchmarks, not the forward model.
-    ``floor=0`` integrates the theory without the floor (empty inclusions only: their rates
-    stay finite for any moduli).
+    ``floor=0`` integrates the theory without the floor (empty inclusions only, whose rates
+    stay finite for any moduli that do not underflow, ln K*/K0 > -700).
     """
     from scipy.integrate import solve_ivp
 
