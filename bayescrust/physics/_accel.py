@@ -447,11 +447,12 @@ def forward(model, f, sc, tabulate=True):
     settings ``model._fused``; ``f`` (n, r), ``sc`` (8, n) as there. The recipe table is built
     on a model's first call (~0.1 s), the dry-pore DEM tables of :mod:`.dem_flow` on the first
     call of the process (~0.2 s); ``tabulate=False`` evaluates the mineral formulas and
-    integrates the DEM for every element instead (the comparison in the tests)."""
-    from .dem_flow import build
+    integrates the DEM for every element instead (the comparison in the tests), and so does
+    ``dem_flow.use_tables(False)`` for the DEM alone."""
+    from .dem_flow import build, tables_on
 
     recipes, cols, tab, grid = _recipes(model, tabulate)
-    dry = build() if tabulate else _NO_DRY
+    dry = build() if tabulate and tables_on() else _NO_DRY
     return _forward_loop(f, sc, recipes, model._ultramafic, cols, model._fused, tab, grid,
                          dry)
 

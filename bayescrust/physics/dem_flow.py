@@ -40,6 +40,7 @@ velocity can resolve; the tables give the theory's G*.
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import math
 
@@ -245,3 +246,84 @@ def _dry_dem_path(k0, g0, alpha, t, tab_a, tab_b, scal, grid):
         ratio, l1 = _bicubic2(tab_b, ia, a0, a1, a2, a3, n_s - 4, 0.0, 0.0, 0.0, 1.0)
         l1 += _cubic(scal[2], ia, a0, a1, a2, a3) * (s1 - grid[10])
     return True, l0 - l1, ratio
+
+
+# --------------------------------------------------------------------------------------------
+# the same lookup on arrays (the numpy forward model), and the switch of both paths
+# --------------------------------------------------------------------------------------------
+_state = {"on": True}
+_FOUR = np.arange(4)
+
+
+def tables_on() -> bool:
+    """Whether the forward model reads the dry-pore DEM from the tables (default) or
+    integrates it (both paths; see :func:`use_tables`)."""
+    return _state["on"]
+
+
+@contextlib.contextmanager
+def use_tables(on: bool):
+    """Read the dry-pore DEM from the tables (``True``) or integrate it by RK4 (``False``) in
+    both the numpy and the compiled forward model, inside a ``with`` block (tests, benchmarks).
+    """
+    old = _state["on"]
+    _state["on"] = bool(on)
+    try:
+        yield
+    finally:
+        _state["on"] = old
+
+
+def _weights(z, n):
+    """:func:`_lagrange4` on an array of positions: start indices (m,) and weights (4, m)."""
+    i = np.clip(np.floor(z).astype(np.intp) - 1, 0, n - 4)
+    d = z - i
+    d1 = d - 1.0
+    d2 = d - 2.0
+    d3 = d - 3.0
+    return i, np.stack([-d1 * d2 * d3 / 6.0, d * d2 * d3 / 2.0, -d * d1 * d3 / 2.0,
+                        d * d1 * d2 / 6.0])
+
+
+def _bicubic2_arrays(tab, rows, wa, j, wb):
+    """:func:`_bicubic2` for arrays: ``rows`` (4, m) aspect nodes, ``wa`` (4, m) their weights,
+    ``j`` (m,) the first node and ``wb`` (4, m) the weights along the other axis."""
+    v = tab[rows[:, None, :], (j[None, :] + _FOUR[:, None])[None, :, :]]  # (4, 4, m, 2)
+    w = (wa[:, None, :] * wb[None, :, :])[..., None]
+    out = (w * v).sum(axis=(0, 1))
+    return out[:, 0], out[:, 1]
+
+
+def dry_dem_arrays(k0, g0, alpha, t, tables=None):
+    """:func:`_dry_dem` for arrays (shape (m,)): (ok, K*, G*). The same interpolation in the
+    same arithmetic, equal to the scalar lookup to rounding (tests/physics/test_dem_flow.py);
+    K*, G* are meaningless where ok is False (the caller integrates those)."""
+    tab_a, tab_b, scal, grid = build() if tables is None else tables
+    n_a, n_v, n_s = int(grid[4]), int(grid[5]), int(grid[6])
+    k0, g0, alpha, t = (np.asarray(x, dtype=float) for x in np.broadcast_arrays(k0, g0, alpha, t))
+    with np.errstate(all="ignore"):
+        za = (np.log(alpha) - grid[0]) / grid[1]
+        ok = (za >= 0.0) & (za <= n_a - 1.0)
+        ia, wa = _weights(np.where(ok, za, 0.0), n_a)
+        rows = ia[None, :] + _FOUR[:, None]
+
+        def cubic(k):
+            return (wa * scal[k][rows]).sum(axis=0)
+
+        x0 = np.log(g0 / k0)
+        xs = cubic(0)
+        ok &= (x0 >= grid[8]) & (x0 < xs)
+        u0 = np.log(np.where(ok, xs - x0, 1.0))
+        zv = (u0 - grid[7]) / (cubic(3) - grid[7]) / grid[2]
+        ok &= zv >= 0.0
+        iv, wv = _weights(np.clip(zv, 0.0, n_v - 1.0), n_v)
+        s0, l0 = _bicubic2_arrays(tab_a, rows, wa, iv, wv)
+        s1 = s0 + cubic(1) / alpha * t
+        beyond = ~(s1 < grid[10])
+        js, ws = _weights(np.sqrt(np.where(beyond, 0.0, s1)) * grid[3], n_s)
+        js = np.where(beyond, n_s - 4, js)
+        ws = np.where(beyond, np.array([[0.0], [0.0], [0.0], [1.0]]), ws)
+        ratio, l1 = _bicubic2_arrays(tab_b, rows, wa, js, ws)
+        l1 = l1 + np.where(beyond, cubic(2) * (s1 - grid[10]), 0.0)
+        k = k0 * np.exp(l0 - l1)
+        return ok, np.maximum(k, grid[9] * k0), np.maximum(k * ratio, grid[9] * g0)

@@ -22,7 +22,17 @@ from types import MappingProxyType
 
 import numpy as np
 
-from . import _jit, anelastic, fluids, inclusions, minerals, mixing, pores, serpentinization
+from . import (
+    _jit,
+    anelastic,
+    dem_flow,
+    fluids,
+    inclusions,
+    minerals,
+    mixing,
+    pores,
+    serpentinization,
+)
 from ._checks import as_float_array, check_range
 from ._data import CELSIUS_TO_KELVIN, load_table
 
@@ -467,8 +477,7 @@ class ForwardModel:
                 k_c, g_c = k_h.copy(), g_h.copy()
                 j = np.flatnonzero(phi_i > 0)
                 if j.size:
-                    zero = np.zeros((j.size, 1))
-                    k_d, g_d = scheme(k_h[j], g_h[j], zero, zero, ar_i[j, None], phi_i[j, None])
+                    k_d, g_d = _dry_frame(self, scheme, k_h[j], g_h[j], ar_i[j], phi_i[j])
                     k_c[j], g_c[j] = pores.gassmann(k_d, g_d, k_h[j], k_w[j], phi_i[j])
                 k_s[i], g_s[i] = k_c, g_c
             rho[i] = (1.0 - phi_i - melt[i]) * rho_s[i] + phi_i * rho_w + melt[i] * rho_l
@@ -481,6 +490,23 @@ class ForwardModel:
             vp = vp * fp
             vs = vs * fs
         return vp, vs, rho
+
+
+def _dry_frame(model, scheme, k_h, g_h, aspect, phi):
+    """Moduli of the host with empty pores (the dry frame): the DEM read from the tables of
+    :mod:`.dem_flow` where they apply (the theory to 4e-6, ~10-200x faster than integrating),
+    the scheme elsewhere (other schemes, or tables off: :func:`dem_flow.use_tables`)."""
+    todo = np.ones(phi.size, dtype=bool)
+    k_d = np.empty(phi.size)
+    g_d = np.empty(phi.size)
+    if model.inclusion_scheme == "dem" and dem_flow.tables_on():
+        ok, k_d, g_d = dem_flow.dry_dem_arrays(k_h, g_h, aspect, -np.log1p(-phi))
+        todo = ~ok
+    if np.any(todo):
+        zero = np.zeros((int(todo.sum()), 1))
+        k_d[todo], g_d[todo] = scheme(k_h[todo], g_h[todo], zero, zero, aspect[todo, None],
+                                      phi[todo, None])
+    return k_d, g_d
 
 
 def _choose(what: str, name: str, table: Mapping):
