@@ -112,10 +112,9 @@ def default_priors(layer: Layer, rock_names, ultramafic) -> dict:
       (Layer 2, extrusives and dikes), else ``Uniform(0, 0.03)``;
     - ``aspect_ratio``: fixed 0.1 (between penny cracks and spheres). A pore-shape spread,
       ``priors={"aspect_ratio": LogUniform(0.01, 1)}``, lets shallow layers reach Layer-2
-      Vp/Vs >= 1.9 (needs aspect ratios <= ~0.02) but makes a Layer-2B MCMC 1.0-1.6x
-      (compiled kernels, which tabulate the dry-pore DEM) to 3.1x (numpy) slower
-      (docs/physics.md), so it is opt-in; thin cracks at depth are shut by effective pressure
-      either way (Walsh 1965, ``physics/pores.py``);
+      Vp/Vs >= 1.9 (needs aspect ratios <= ~0.02) but makes a Layer-2B MCMC 1.4-2.2x slower
+      (1.5-2.2x the steps; docs/physics.md), so it is opt-in; thin cracks at depth are shut by
+      effective pressure either way (Walsh 1965, ``physics/pores.py``);
     - ``melt_fraction``: ``Uniform(0, 0.05)`` (effective only above the solidus);
     - ``melt_aspect_ratio``: fixed 0.05 (melt films/tubules);
     - ``serpentinization``: ``Uniform(0, 1)`` if an ultramafic rock is present (effective only
