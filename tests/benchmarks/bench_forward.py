@@ -92,7 +92,7 @@ def _dem_kernel(rng, seconds):
         line = "  ".join(f"{_NAME[on]} {r[on]:.3g} evals/s ({b / r[on] * 1e6:.0f} us/call)"
                          for on in r)
         ratio = f"  ratio {r[True] / r[False]:.1f}x" if True in r else ""
-        print(f"DEM kernel alone, batch {b:>5}: {line}{ratio}")
+        print(f"DEM kernel alone (RK4 integration), batch {b:>5}: {line}{ratio}")
     for on in _modes():
         with _jit.use_accel(on):
             fast = inclusions._dem(*args)
@@ -114,7 +114,8 @@ def main(argv=None) -> int:
     rng = np.random.default_rng(0)
     fm = ForwardModel(rocks=("gabbro", "harzburgite"), attenuation_law=args.attenuation_law)
     print(f"gabbro/harzburgite mixture, Voigt-Reuss-Hill, anelastic ({args.attenuation_law})")
-    print("cases: solid only; + melt above 1100 C (DEM); + seawater pores aspect 1e-3..1 (DEM)")
+    print("cases: solid only; + melt above 1100 C (DEM integrated); + seawater pores aspect "
+          "1e-3..1 (dry-pore DEM from the tables of physics/dem_flow.py)")
     modes = _modes()
     head = "".join(f" {_NAME[on] + ' evals/s':>17} {'us/eval':>8}" for on in modes)
     print(f"{'batch':>9} {'case':>11}{head}" + ("    ratio" if len(modes) > 1 else ""))
