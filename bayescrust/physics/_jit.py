@@ -45,6 +45,16 @@ def enabled() -> bool:
 
 
 @contextlib.contextmanager
+def switch(state: dict, on: bool):
+    """Set ``state["on"]`` inside a ``with`` block; the old value is restored after."""
+    old = state["on"]
+    state["on"] = bool(on)
+    try:
+        yield
+    finally:
+        state["on"] = old
+
+
 def use_accel(on: bool):
     """Switch the compiled kernels on or off inside a ``with`` block (off: numpy reference).
 
@@ -52,9 +62,4 @@ def use_accel(on: bool):
     """
     if on and not AVAILABLE:
         raise RuntimeError("compiled kernels need numba: pip install 'bayescrust[fast]'")
-    old = _state["on"]
-    _state["on"] = bool(on)
-    try:
-        yield
-    finally:
-        _state["on"] = old
+    return switch(_state, on)

@@ -40,13 +40,12 @@ velocity can resolve; the tables give the theory's G*.
 
 from __future__ import annotations
 
-import contextlib
 import functools
 import math
 
 import numpy as np
 
-from ._jit import jitable
+from ._jit import jitable, switch
 from .inclusions import _TINY, _geometry, _pq
 
 #: Aspect ratios tabulated: oblate pores and cracks (down to the 1e-6 that crack closure can
@@ -261,17 +260,11 @@ def tables_on() -> bool:
     return _state["on"]
 
 
-@contextlib.contextmanager
 def use_tables(on: bool):
     """Read the dry-pore DEM from the tables (``True``) or integrate it by RK4 (``False``) in
     both the numpy and the compiled forward model, inside a ``with`` block (tests, benchmarks).
     """
-    old = _state["on"]
-    _state["on"] = bool(on)
-    try:
-        yield
-    finally:
-        _state["on"] = old
+    return switch(_state, on)
 
 
 def _weights(z, n):
