@@ -87,21 +87,19 @@ def _rate_near(eu, xs, lam, curv, geo):
 def _fixed_point(geo, n):
     """x* (P = Q), lambda = -d(P - Q)/dx and curv = d^2(P - Q)/dx^2 at x*, for each of ``n``
     aspect ratios (central differences, step 1e-5 and 1e-3)."""
-    lo = np.full(n, X_LO)
-    hi = np.full(n, math.log(1.5) - 1e-12)  # G/K -> 1.5 is Poisson's ratio -1
-    f_lo = np.subtract(*_pq_dry(lo, geo))
-    if np.any(f_lo <= 0.0) or np.any(np.subtract(*_pq_dry(hi, geo)) >= 0.0):
-        raise RuntimeError("dry DEM flow: no fixed point inside (X_LO, ln 1.5)")
-    for _ in range(200):  # bisection to rounding
-        mid = 0.5 * (lo + hi)
-        pos = np.subtract(*_pq_dry(mid, geo)) > 0.0
-        lo = np.where(pos, mid, lo)
-        hi = np.where(pos, hi, mid)
-    xs = 0.5 * (lo + hi)
-
     def f(x):
         return np.subtract(*_pq_dry(x, geo))
 
+    lo = np.full(n, X_LO)
+    hi = np.full(n, math.log(1.5) - 1e-12)  # G/K -> 1.5 is Poisson's ratio -1
+    if np.any(f(lo) <= 0.0) or np.any(f(hi) >= 0.0):
+        raise RuntimeError("dry DEM flow: no fixed point inside (X_LO, ln 1.5)")
+    for _ in range(200):  # bisection to rounding
+        mid = 0.5 * (lo + hi)
+        pos = f(mid) > 0.0
+        lo = np.where(pos, mid, lo)
+        hi = np.where(pos, hi, mid)
+    xs = 0.5 * (lo + hi)
     h = 1e-5
     lam = -(f(xs + h) - f(xs - h)) / (2 * h)
     h = 1e-3
@@ -170,11 +168,18 @@ def _lagrange4(z, n):
     the stencil is shifted inward at the ends)."""
     i = int(math.floor(z)) - 1
     i = min(max(i, 0), n - 4)
-    d = z - i  # position inside the stencil: nodes at 0, 1, 2, 3
+    w0, w1, w2, w3 = _lagrange_weights(z - i)
+    return i, w0, w1, w2, w3
+
+
+@jitable
+def _lagrange_weights(d):
+    """The 4-point Lagrange weights at position ``d`` of a stencil with nodes 0, 1, 2, 3
+    (scalars or arrays)."""
     d1 = d - 1.0
     d2 = d - 2.0
     d3 = d - 3.0
-    return i, -d1 * d2 * d3 / 6.0, d * d2 * d3 / 2.0, -d * d1 * d3 / 2.0, d * d1 * d2 / 6.0
+    return -d1 * d2 * d3 / 6.0, d * d2 * d3 / 2.0, -d * d1 * d3 / 2.0, d * d1 * d2 / 6.0
 
 
 @jitable
@@ -270,12 +275,7 @@ def use_tables(on: bool):
 def _weights(z, n):
     """:func:`_lagrange4` on an array of positions: start indices (m,) and weights (4, m)."""
     i = np.clip(np.floor(z).astype(np.intp) - 1, 0, n - 4)
-    d = z - i
-    d1 = d - 1.0
-    d2 = d - 2.0
-    d3 = d - 3.0
-    return i, np.stack([-d1 * d2 * d3 / 6.0, d * d2 * d3 / 2.0, -d * d1 * d3 / 2.0,
-                        d * d1 * d2 / 6.0])
+    return i, np.stack(_lagrange_weights(z - i))
 
 
 def _bicubic2_arrays(tab, rows, wa, j, wb):
@@ -287,11 +287,11 @@ def _bicubic2_arrays(tab, rows, wa, j, wb):
     return out[:, 0], out[:, 1]
 
 
-def dry_dem_arrays(k0, g0, alpha, t, tables=None):
+def dry_dem_arrays(k0, g0, alpha, t):
     """:func:`_dry_dem` for arrays (shape (m,)): (ok, K*, G*). The same interpolation in the
     same arithmetic, equal to the scalar lookup to rounding (tests/physics/test_dem_flow.py);
     K*, G* are meaningless where ok is False (the caller integrates those)."""
-    tab_a, tab_b, scal, grid = build() if tables is None else tables
+    tab_a, tab_b, scal, grid = build()
     n_a, n_v, n_s = int(grid[4]), int(grid[5]), int(grid[6])
     k0, g0, alpha, t = (np.asarray(x, dtype=float) for x in np.broadcast_arrays(k0, g0, alpha, t))
     with np.errstate(all="ignore"):
