@@ -25,7 +25,7 @@ from scipy import special
 
 from ..physics.labdata import MODEL_ERROR as _LAB_MODEL_ERROR
 from .layer import OBSERVABLES, Layer
-from .priors import Dirichlet, Uniform, as_prior
+from .priors import Dirichlet, LogUniform, Uniform, as_prior
 from .thermal_priors import UniformTemperature, resolve_temperature_prior
 
 __all__ = [
@@ -414,17 +414,49 @@ class LayerModel:
     def _layout(self):
         """What the per-call kernels reuse (computed once per model; the model is frozen):
         the Dirichlet normalisation and ``alpha - 1`` (None for a flat Dirichlet), per scalar
-        parameter its column (``None`` when fixed) and whether the column holds ln(value), and
-        the free parameters' (column, logpdf, log coordinate)."""
+        parameter its column (``None`` when fixed) and whether the column holds ln(value), the
+        free parameters whose prior density is constant on an interval of their coordinate
+        (columns, lower and upper ends, summed log density), and the other free parameters'
+        (column, logpdf, log coordinate)."""
         a = self.alpha
         log_norm = special.gammaln(a.sum()) - special.gammaln(a).sum()
         k = self.n_fraction_dims
         logc = self.log_coordinates
         cols = {p: (None if p in self.fixed else (k + self.free.index(p), p in logc))
                 for p in SCALAR_PARAMETERS}
-        priors = tuple((k + j, self.scalar_priors[p].logpdf, p in logc)
-                       for j, p in enumerate(self.free))
-        return log_norm, (None if np.all(a == 1.0) else a - 1.0), cols, priors
+        box, priors = [], []
+        for j, p in enumerate(self.free):
+            pr = self.scalar_priors[p]
+            if type(pr) is Uniform and p not in logc:
+                box.append((k + j, pr.lo, pr.hi, -math.log(pr.hi - pr.lo)))
+            elif type(pr) is LogUniform and p in logc:  # uniform in ln x
+                lo, hi = math.log(pr.lo), math.log(pr.hi)
+                box.append((k + j, lo, hi, -math.log(hi - lo)))
+            else:
+                priors.append((k + j, pr.logpdf, p in logc))
+        if self.fixed_fractions is None and np.all(a == 1.0):
+            # flat Dirichlet: each sampled fraction in [0, 1] (their sum is checked apart) and
+            # the density its normalisation
+            box = [(i, 0.0, 1.0, 0.0) for i in range(k)] + box + [(None, 0, 0, log_norm)]
+        box = (np.array([b[0] for b in box if b[0] is not None], int),
+               np.array([b[1] for b in box if b[0] is not None]),
+               np.array([b[2] for b in box if b[0] is not None]), float(sum(b[3] for b in box)))
+        return log_norm, (None if np.all(a == 1.0) else a - 1.0), cols, tuple(priors), box
+
+    @cached_property
+    def _rows(self):
+        """The forward model's eight scalar rows (:meth:`ForwardModel.rows` order) per sampled
+        point: for each, a constant, or the sampled column and whether it holds ln(value)."""
+        cols = self._layout[2]
+        p = self.pressure_gpa
+        const = {"pressure": p,
+                 "pore": p if self.pore_pressure_gpa is None else self.pore_pressure_gpa}
+        out = []
+        for name in ("temperature_c", "pressure", "porosity", "aspect_ratio", "melt_fraction",
+                     "melt_aspect_ratio", "serpentinization", "pore"):
+            c = cols.get(name)
+            out.append((const[name] if name in const else self.fixed.get(name), c))
+        return tuple(out)
 
     def fractions(self, theta) -> np.ndarray:
         """Full rock fractions, shape (n, n_rocks), from sampled points (n, ndim)."""
@@ -452,26 +484,27 @@ class LayerModel:
         """Normalised log prior density of sampled points (n, ndim) in the sampled coordinates
         (ln x for :attr:`log_coordinates`); ``-inf`` outside support."""
         theta = np.atleast_2d(np.asarray(theta, float))
-        lp = np.zeros(theta.shape[0])
-        log_norm, a1, _, priors = self._layout
+        log_norm, a1, _, priors, (bcols, blo, bhi, bdens) = self._layout
+        k = self.n_fraction_dims
         with np.errstate(all="ignore"):
-            if self.fixed_fractions is None:
+            # priors uniform in their coordinate (and a flat Dirichlet's fractions): a range check
+            x = theta[:, bcols]
+            ok = ((x >= blo) & (x <= bhi)).all(axis=1)
+            if k and a1 is None:  # flat Dirichlet: the last fraction, 1 - sum, must be >= 0
+                ok &= theta[:, :k].sum(axis=1) <= 1.0
+            lp = np.full(theta.shape[0], bdens)
+            if a1 is not None:
                 f = self.fractions(theta)
-                ok = np.all(f >= 0.0, axis=1)
-                if a1 is None:  # flat Dirichlet: the density is its normalisation
-                    lp = np.where(ok, log_norm, -np.inf)
-                else:
-                    fpos = np.where(ok[:, None], f, 1.0)
-                    dens = log_norm + (special.xlogy(a1, fpos)).sum(axis=1)
-                    lp = np.where(ok, dens, -np.inf)
+                ok &= np.all(f >= 0.0, axis=1)
+                fpos = np.where(ok[:, None], f, 1.0)
+                lp += log_norm + (special.xlogy(a1, fpos)).sum(axis=1)
             for col, logpdf, logc in priors:
                 x = theta[:, col]
                 if logc:  # density of u = ln x: p(e^u) e^u
                     lp = lp + logpdf(np.exp(x)) + x
                 else:
                     lp = lp + logpdf(x)
-        lp = np.where(np.isnan(lp), -np.inf, lp)
-        return lp
+        return np.where(ok & ~np.isnan(lp), lp, -np.inf)
 
     def from_unit(self, u) -> np.ndarray:
         """Map points of the unit hypercube (n, ndim) to prior draws (inverse transform).
@@ -517,7 +550,7 @@ class LayerModel:
             if not fam.startswith("_"):
                 out[fam] = f @ mask
         out["solidus_c"], out["melt_fraction_effective"], out["serpentinization_effective"] = (
-            self._effective(f, s))
+            self._effective(f, s["temperature_c"], s["melt_fraction"], s["serpentinization"]))
         out["serpentine_fraction"] = (
             out["serpentinization_effective"] * (f @ self.families["_peridotite"])
             + f @ self.families["_serpentinite"]
@@ -527,24 +560,38 @@ class LayerModel:
             out.update(vp=vp, vs=vs, density=rho, vp_vs=vp / vs)
         return out
 
-    def _effective(self, f, s):
+    def _effective(self, f, t, melt, serp):
         """Solidus of the rock mix and the melt fraction and serpentinisation in effect: melt
         only above the solidus, serpentine only below its stability limit."""
-        t = s["temperature_c"]
         sol = f @ self.rock_solidus_c
-        melt = np.where(t > sol, s["melt_fraction"], 0.0)
-        serp = np.where(t < self.serpentine_limit_c, s["serpentinization"], 0.0)
-        return sol, melt, serp
+        return (sol, np.where(t > sol, melt, 0.0),
+                np.where(t < self.serpentine_limit_c, serp, 0.0))
 
     def predict(self, theta) -> dict[str, np.ndarray]:
         """The observables ``vp``, ``vs``, ``density``, ``vp_vs`` of sampled points (n, ndim);
         the same values as :meth:`quantities` without the other derived quantities (the
-        log-probability's path)."""
+        log-probability's path: the forward model's flat rows, :meth:`ForwardModel.rows`,
+        filled from the columns without per-parameter arrays)."""
         theta = np.atleast_2d(np.asarray(theta, float))
         f = self.fractions(theta)
-        s = self.scalars(theta)
-        _, s["melt_fraction_effective"], s["serpentinization_effective"] = self._effective(f, s)
-        vp, vs, rho = self._forward(f, s)
+        rows = getattr(self.forward, "rows", None)
+        if rows is None:  # a compatible forward callable without flat rows: keywords
+            s = self.scalars(theta)
+            _, s["melt_fraction_effective"], s["serpentinization_effective"] = self._effective(
+                f, s["temperature_c"], s["melt_fraction"], s["serpentinization"])
+            vp, vs, rho = self._forward(f, s)
+        else:
+            sc = np.empty((8, theta.shape[0]))
+            for k, (value, col) in enumerate(self._rows):
+                if col is None:
+                    sc[k] = value
+                elif col[1]:
+                    np.exp(theta[:, col[0]], out=sc[k])
+                else:
+                    sc[k] = theta[:, col[0]]
+            _, sc[4], sc[6] = self._effective(f, sc[0], sc[4], sc[6])
+            with np.errstate(all="ignore"):
+                vp, vs, rho = rows(np.clip(f, 0.0, 1.0), sc)
         return {"vp": vp, "vs": vs, "density": rho, "vp_vs": vp / vs}
 
     def _forward(self, f, q):

@@ -159,13 +159,13 @@ def kde_move(bandwidth_factor=None):
             yc = c @ inv.T  # kernel centres in whitened coordinates
             nc = np.sum(yc * yc, axis=1)
 
-            def log_density(x):  # up to a constant, which cancels in the ratio
-                y = x @ inv.T
-                e = -0.5 * np.maximum(np.sum(y * y, axis=1)[:, None] + nc[None, :]
-                                      - 2.0 * y @ yc.T, 0.0)
-                top = e.max(axis=1)
-                return top + np.log(np.exp(e - top[:, None]).sum(axis=1))
-
-            return q, log_density(s) - log_density(q)
+            # the kernel density (up to a constant, which cancels in the ratio) at the current
+            # and the proposed points together: one pass of array operations
+            y = np.concatenate([s, q]) @ inv.T
+            e = -0.5 * np.maximum(np.sum(y * y, axis=1)[:, None] + nc[None, :]
+                                  - 2.0 * y @ yc.T, 0.0)
+            top = e.max(axis=1)
+            log_q = top + np.log(np.exp(e - top[:, None]).sum(axis=1))
+            return q, log_q[:s.shape[0]] - log_q[s.shape[0]:]
 
     return KDEIndependenceMove()

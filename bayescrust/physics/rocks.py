@@ -372,51 +372,41 @@ class ForwardModel:
                    melt_aspect_ratio, serpentinization,
                    pressure_gpa if pore_pressure_gpa is None else pore_pressure_gpa)
         if f.ndim == 1 and all(np.ndim(a) == 0 for a in scalars):
-            # batch of one (CLI, users' scripts): one array instead of nine broadcasts; the
-            # same rows as the general path below (tested equal)
-            flat = np.array(scalars, dtype=float).reshape(-1, 1)
-            if self._fused is not None and _jit.enabled():
-                from bayescrust.physics import _accel
-
-                out = _accel.forward(self, np.array(f[None, :], dtype=float), flat)
-                return out[0, 0].reshape(()), out[1, 0].reshape(()), out[2, 0].reshape(())
-            solid = self._solid(f[None, :], flat[0], flat[1], flat[6])
-            vp, vs, rho = self._finish(*solid, *flat[[0, 1, 2, 3, 4, 5, 7]])
+            # batch of one (CLI, users' scripts): one array instead of eight broadcasts
+            vp, vs, rho = self.rows(np.array(f[None, :], dtype=float),
+                                    np.array(scalars, dtype=float).reshape(-1, 1))
             return vp.reshape(()), vs.reshape(()), rho.reshape(())
+        shape = np.broadcast_shapes(f.shape[:-1], *(np.shape(a) for a in scalars))
+        sc = np.empty((len(scalars),) + shape)
+        for k, a in enumerate(scalars):  # eight broadcasting copies, no temporaries
+            sc[k] = a
+        n = sc[0].size
+        f = np.ascontiguousarray(np.broadcast_to(f, shape + f.shape[-1:]).reshape(n, -1))
+        vp, vs, rho = self.rows(f, sc.reshape(len(scalars), n))
+        return vp.reshape(shape), vs.reshape(shape), rho.reshape(shape)
+
+    def rows(self, f, sc):
+        """Vp, Vs (km/s) and density (g/cm^3), each shape (n,), of flat rows: the kernel behind
+        :meth:`__call__`, without broadcasting or checks.
+
+        ``f`` (n, n_rocks) holds C-contiguous rock fractions, ``sc`` (8, n) the scalars in the
+        order temperature_c, pressure_gpa, porosity, aspect_ratio, melt_fraction,
+        melt_aspect_ratio, serpentinization, pore_pressure_gpa. Evaluated by the compiled
+        whole-model kernel when it is on, else by the numpy reference in cache-sized blocks.
+        """
         if self._fused is not None and _jit.enabled():  # the compiled whole model
             from bayescrust.physics import _accel
 
-            shape = np.broadcast_shapes(f.shape[:-1], *(np.shape(a) for a in scalars))
-            sc = np.empty((len(scalars),) + shape)
-            for k, a in enumerate(scalars):  # eight broadcasting copies, no temporaries
-                sc[k] = a
-            n = sc[0].size
-            f = np.ascontiguousarray(np.broadcast_to(f, shape + f.shape[-1:]).reshape(n, -1))
-            out = _accel.forward(self, f, sc.reshape(len(scalars), n))
-            return out[0].reshape(shape), out[1].reshape(shape), out[2].reshape(shape)
-        args = np.broadcast_arrays(
-            temperature_c,
-            pressure_gpa,
-            porosity,
-            aspect_ratio,
-            melt_fraction,
-            melt_aspect_ratio,
-            serpentinization,
-            pressure_gpa if pore_pressure_gpa is None else pore_pressure_gpa,
-            f[..., 0],
-        )
-        shape = args[0].shape
-        flat = [np.ascontiguousarray(a, dtype=float).ravel() for a in args[:-1]]
-        f = np.broadcast_to(f, shape + (f.shape[-1],)).reshape(-1, f.shape[-1])
+            out = _accel.forward(self, f, sc)
+            return out[0], out[1], out[2]
+        t_c, p, phi, ar, melt, mar, serp, p_pore = sc
         n = f.shape[0]
-        t_c, p, phi, ar, melt, mar, serp, p_pore = flat
         solid = np.empty((3, n))
         for start in range(0, n, _CHUNK):  # loop over cache-sized blocks, not over samples
             sl = slice(start, start + _CHUNK)
             solid[:, sl] = self._solid(f[sl], t_c[sl], p[sl], serp[sl])
         # the inclusion schemes block their own work internally: one call on every row
-        vp, vs, rho = self._finish(*solid, t_c, p, phi, ar, melt, mar, p_pore)
-        return vp.reshape(shape), vs.reshape(shape), rho.reshape(shape)
+        return self._finish(*solid, t_c, p, phi, ar, melt, mar, p_pore)
 
     def _solid(self, f, t_c, p, serp):
         """Moduli (GPa) and density of the pore- and melt-free aggregate of flat rows."""
