@@ -197,6 +197,42 @@ def test_layer_log_prior_against_scipy(alpha):
     assert np.all(m.log_prior(off) == -np.inf)
 
 
+def test_layer_log_prior_mixed_priors_against_scipy():
+    """Uniform priors are range-checked together, the others summed one by one; log-scaled
+    coordinates carry their Jacobian: scipy's densities of every parameter, times x for each
+    ln x coordinate (aspect ratio LogUniform, so porosity too), times a flat Dirichlet."""
+    from scipy import stats
+
+    import bayescrust as bc
+    from bayescrust.inference.model import LayerModel
+    from bayescrust.inference.priors import Beta, LogUniform, TruncatedNormal, Uniform
+
+    layer = bc.Layer("l2", top_km=1.0, bottom_km=2.5, water_depth_km=2.5, vp=(5.5, 0.15))
+    m = LayerModel.build(layer, rocks=("basalt", "gabbro"), priors={
+        "temperature_c": TruncatedNormal(300.0, 100.0, 0.0, 1000.0),
+        "porosity": Uniform(0.0, 0.2), "aspect_ratio": LogUniform(0.01, 1.0),
+        "melt_fraction": 0.0, "serpentinization": 0.0,
+        "melt_aspect_ratio": Beta(2.0, 5.0, 0.01, 0.5)})
+    assert m.parameter_names == ("basalt", "temperature_c", "porosity", "aspect_ratio",
+                                 "melt_aspect_ratio")
+    assert m.log_coordinates == ("porosity", "aspect_ratio")
+    rng = np.random.default_rng(4)
+    theta = m.sample_prior(rng, 300)
+    theta[:40] += rng.normal(0.0, 0.3, (40, m.ndim))  # some outside the support
+    b, t, lphi, lar, mar = theta.T
+    with np.errstate(divide="ignore"):
+        ref = (stats.uniform(0, 1).logpdf(b) + stats.uniform(0, 1).logpdf(1 - b)
+               + stats.truncnorm(-3.0, 7.0, loc=300.0, scale=100.0).logpdf(t)
+               + stats.uniform(0, 0.2).logpdf(np.exp(lphi)) + lphi
+               + stats.loguniform(0.01, 1.0).logpdf(np.exp(lar)) + lar
+               + stats.beta(2.0, 5.0, loc=0.01, scale=0.49).logpdf(mar))
+    lp = m.log_prior(theta)
+    assert np.isfinite(lp).sum() > 200 and (~np.isfinite(lp)).sum() > 10
+    np.testing.assert_array_equal(np.isfinite(lp), np.isfinite(ref))
+    ok = np.isfinite(ref)
+    np.testing.assert_allclose(lp[ok], ref[ok], rtol=1e-11, atol=1e-11)
+
+
 @pytest.mark.parametrize("shape", [(300, 24, 3), (1037, 64, 4), (50, 2, 1)])
 def test_batched_integrated_time_equals_emcee(shape):
     from bayescrust.inference.sampler import _integrated_time
