@@ -100,9 +100,16 @@ _BASALTIC = ("basalt", "diabase")
 _SERPENTINITES = ("serpentinite", "antigorite_serpentinite")
 _SERPENTINITE_KIND = {"serpentinite": "lizardite", "antigorite_serpentinite": "antigorite"}
 
-#: (amount, shape) pairs: the amount is sampled as ln(value) when its shape is
-#: (LayerModel.log_coordinates)
+#: (amount, shape) pairs: with a log-scaled shape the amount's coordinate is its pore
+#: compliance (LayerModel.paired_coordinates)
 _AMOUNT_SHAPE = (("porosity", "aspect_ratio"), ("melt_fraction", "melt_aspect_ratio"))
+
+#: Aspect ratio where a dry pore's dilute bulk compliance turns from the sphere value to the
+#: crack value in a host with Poisson's ratio 0.25: spheres add 3(1 - nu) / (2(1 - 2 nu)) = 2.25
+#: times the porosity to K/K* - 1 (Mackenzie 1950), penny cracks (16/9)(1 - nu^2) / (1 - 2 nu)
+#: times the crack density 3 phi / (4 pi alpha), i.e. 0.796 phi / alpha (Walsh 1965); 0.796 / 2.25
+#: [computed]. Sets a sampling coordinate only: any positive value gives the same posterior.
+_PORE_CROSSOVER = 0.354
 
 _TINY = np.finfo(float).tiny
 
@@ -382,28 +389,42 @@ class LayerModel:
     @cached_property
     def log_coordinates(self) -> tuple[str, ...]:
         """Free scalar parameters whose sampled coordinate is ln(value): those with a log-scale
-        prior (``LogUniform``), temperature excepted (profiles read it directly), and the amount
-        paired with a log-scaled shape (``porosity`` with ``aspect_ratio``, ``melt_fraction``
-        with ``melt_aspect_ratio``).
+        prior (``LogUniform``), temperature excepted (profiles read it directly) and the
+        amounts of :attr:`paired_coordinates` excepted.
 
         A pore aspect ratio spanning two decades under a 1/x prior piles up against its lower
         bound in linear coordinates, where the ensemble moves cannot follow the porosity-aspect
         trade-off: on a Layer-2B test layer (``priors={"aspect_ratio": LogUniform(0.01, 1)}``)
         MCMC had not converged after 8000 steps (ensemble-average tau up to 1800 steps); in
-        ln(aspect ratio) it converged in 3371 (every tau 29-49). Thin cracks act through the
-        crack density, porosity / aspect ratio (Walsh 1965; O'Connell & Budiansky 1974), so the
-        trade-off is the straight line ln(porosity) - ln(aspect) = const in log coordinates,
-        which the affine-invariant moves follow; in (porosity, ln aspect) it is an exponential
-        curve. On the same layer, seeds 1-4, ln(porosity) cut the steps to ESS 2000 from 13458
-        to 10455 in total (walker tau 25-30 against 28-35). The prior density, the unit-cube
-        map and the posterior are the same; only the coordinates differ.
+        ln(aspect ratio) it converged in 3371 (every tau 29-49). The prior density, the
+        unit-cube map and the posterior are the same; only the coordinates differ.
+        """
+        paired = self.paired_coordinates
+        return tuple(p for p in self.free if p != "temperature_c" and p not in paired
+                     and getattr(self.scalar_priors[p], "log_scale", False))
+
+    @cached_property
+    def paired_coordinates(self) -> dict[str, str]:
+        """Amounts sampled through their pore compliance, ``{amount: shape}``: when a shape
+        (``aspect_ratio``, ``melt_aspect_ratio``) is log-scaled and its amount (``porosity``,
+        ``melt_fraction``) is free, the amount's coordinate is
+        ``w = ln(amount) + ln(1 + A / shape)`` with A = :data:`_PORE_CROSSOVER`.
+
+        A dilute pore's compliance is about ``amount * (1 + A / shape)`` up to a constant:
+        the porosity for round pores, the crack density (porosity / aspect ratio; Walsh 1965,
+        O'Connell & Budiansky 1974) for thin cracks. Velocities then depend mostly on ``w``
+        and the porosity-aspect trade-off, a curve in (porosity, ln aspect), becomes nearly a
+        line of constant ``w``, which the ensemble moves follow. The map
+        ``(ln amount, ln shape) -> (w, ln shape)`` is a shear with unit Jacobian, so the prior
+        density of ``w`` is that of ln(amount): ``p(amount) * amount``. On the Layer-2B test
+        layer (Vp 5.0, Vs 2.6 km/s, basalt + diabase, ``aspect_ratio = LogUniform(0.01, 1)``,
+        80 walkers, 3000 steps, seeds 1-3) the walker tau fell from 25-30 (ln porosity) to
+        20-24 and the largest ensemble-average tau, which sets the run's length, from 45-54 to
+        26-34.
         """
         logs = {p for p in self.free if p != "temperature_c"
                 and getattr(self.scalar_priors[p], "log_scale", False)}
-        for amount, shape in _AMOUNT_SHAPE:
-            if shape in logs and amount in self.free:
-                logs.add(amount)
-        return tuple(p for p in self.free if p in logs)
+        return {a: sh for a, sh in _AMOUNT_SHAPE if sh in logs and a in self.free}
 
     @property
     def ndim(self) -> int:
@@ -421,19 +442,24 @@ class LayerModel:
         a = self.alpha
         log_norm = special.gammaln(a.sum()) - special.gammaln(a).sum()
         k = self.n_fraction_dims
-        logc = self.log_coordinates
-        cols = {p: (None if p in self.fixed else (k + self.free.index(p), p in logc))
+        logc, paired = self.log_coordinates, self.paired_coordinates
+        col = {p: k + j for j, p in enumerate(self.free)}
+        # per scalar parameter: None (fixed), or (column, 0 linear | 1 ln x | 2 paired, the
+        # paired shape's column)
+        cols = {p: (None if p in self.fixed else
+                    (col[p], 2, col[paired[p]]) if p in paired else
+                    (col[p], 1 if p in logc else 0, None))
                 for p in SCALAR_PARAMETERS}
         box, priors = [], []
-        for j, p in enumerate(self.free):
-            pr = self.scalar_priors[p]
-            if type(pr) is Uniform and p not in logc:
-                box.append((k + j, pr.lo, pr.hi, -math.log(pr.hi - pr.lo)))
-            elif type(pr) is LogUniform and p in logc:  # uniform in ln x
+        for p in self.free:
+            pr, c = self.scalar_priors[p], cols[p]
+            if type(pr) is Uniform and c[1] == 0:
+                box.append((c[0], pr.lo, pr.hi, -math.log(pr.hi - pr.lo)))
+            elif type(pr) is LogUniform and c[1] == 1:  # uniform in ln x
                 lo, hi = math.log(pr.lo), math.log(pr.hi)
-                box.append((k + j, lo, hi, -math.log(hi - lo)))
+                box.append((c[0], lo, hi, -math.log(hi - lo)))
             else:
-                priors.append((k + j, pr.logpdf, p in logc))
+                priors.append((c, pr.logpdf))
         if self.fixed_fractions is None and np.all(a == 1.0):
             # flat Dirichlet: each sampled fraction in [0, 1] (their sum is checked apart) and
             # the density its normalisation
@@ -470,19 +496,28 @@ class LayerModel:
     def scalars(self, theta) -> dict[str, np.ndarray]:
         """Every scalar parameter (free and fixed) as arrays of shape (n,)."""
         theta = np.atleast_2d(theta)
-        out = {}
-        for p, c in self._layout[2].items():
-            if c is None:
-                out[p] = np.full(theta.shape[0], self.fixed[p])
-            else:
-                col = theta[:, c[0]]
-                out[p] = np.exp(col) if c[1] else col
-        return out
+        return {p: (np.full(theta.shape[0], self.fixed[p]) if c is None
+                    else self._value(theta, c)) for p, c in self._layout[2].items()}
+
+    @staticmethod
+    def _ln_value(theta, c):
+        """ln(value) of a log (``c[1] == 1``) or paired (2) coordinate ``c`` of :attr:`_layout`:
+        a paired amount's coordinate is ln(amount) + ln(1 + A / shape)."""
+        x = theta[:, c[0]]
+        if c[1] == 2:
+            return x - np.log1p(_PORE_CROSSOVER * np.exp(-theta[:, c[2]]))
+        return x
+
+    @classmethod
+    def _value(cls, theta, c):
+        """The parameter value of sampled coordinate ``c`` (see :meth:`_ln_value`)."""
+        return theta[:, c[0]] if c[1] == 0 else np.exp(cls._ln_value(theta, c))
 
     # ------------------------------------------------------------------ prior
     def log_prior(self, theta) -> np.ndarray:
         """Normalised log prior density of sampled points (n, ndim) in the sampled coordinates
-        (ln x for :attr:`log_coordinates`); ``-inf`` outside support."""
+        (ln x for :attr:`log_coordinates`, the pore compliance for
+        :attr:`paired_coordinates`); ``-inf`` outside support."""
         theta = np.atleast_2d(np.asarray(theta, float))
         log_norm, a1, _, priors, (bcols, blo, bhi, bdens) = self._layout
         k = self.n_fraction_dims
@@ -498,12 +533,12 @@ class LayerModel:
                 ok &= np.all(f >= 0.0, axis=1)
                 fpos = np.where(ok[:, None], f, 1.0)
                 lp += log_norm + (special.xlogy(a1, fpos)).sum(axis=1)
-            for col, logpdf, logc in priors:
-                x = theta[:, col]
-                if logc:  # density of u = ln x: p(e^u) e^u
+            for c, logpdf in priors:
+                if c[1]:  # density of u = ln x: p(e^u) e^u (and of a paired w: unit Jacobian)
+                    x = self._ln_value(theta, c)
                     lp = lp + logpdf(np.exp(x)) + x
                 else:
-                    lp = lp + logpdf(x)
+                    lp = lp + logpdf(theta[:, c[0]])
         return np.where(ok & ~np.isnan(lp), lp, -np.inf)
 
     def from_unit(self, u) -> np.ndarray:
@@ -511,7 +546,7 @@ class LayerModel:
 
         Fractions use the stick-breaking construction of the Dirichlet distribution with Beta
         quantiles; scalars use each prior's ``ppf`` (its logarithm for
-        :attr:`log_coordinates`).
+        :attr:`log_coordinates`, the pore compliance for :attr:`paired_coordinates`).
         """
         u = np.atleast_2d(np.asarray(u, float))
         out = np.empty_like(u)
@@ -523,12 +558,17 @@ class LayerModel:
                 b = special.betaincinv(a[i], a[i + 1:].sum(), u[:, i])
                 out[:, i] = rest * b
                 rest = rest - out[:, i]
-        logc = self.log_coordinates
-        for j, p in enumerate(self.free):
-            x = self.scalar_priors[p].ppf(u[:, k + j])
-            # a prior whose support starts at 0 (Uniform porosity) maps u = 0 to x = 0: the
-            # smallest normal float instead, so the coordinate stays finite
-            out[:, k + j] = np.log(np.maximum(x, _TINY)) if p in logc else x
+        cols = self._layout[2]
+        values = {p: self.scalar_priors[p].ppf(u[:, k + j]) for j, p in enumerate(self.free)}
+        for p, x in values.items():
+            c = cols[p]
+            if c[1]:
+                # a prior whose support starts at 0 (Uniform porosity) maps u = 0 to x = 0: the
+                # smallest normal float instead, so the coordinate stays finite
+                x = np.log(np.maximum(x, _TINY))
+                if c[1] == 2:
+                    x = x + np.log1p(_PORE_CROSSOVER / values[self.paired_coordinates[p]])
+            out[:, c[0]] = x
         return out
 
     def sample_prior(self, rng: np.random.Generator, n: int) -> np.ndarray:
@@ -582,13 +622,8 @@ class LayerModel:
             vp, vs, rho = self._forward(f, s)
         else:
             sc = np.empty((8, theta.shape[0]))
-            for k, (value, col) in enumerate(self._rows):
-                if col is None:
-                    sc[k] = value
-                elif col[1]:
-                    np.exp(theta[:, col[0]], out=sc[k])
-                else:
-                    sc[k] = theta[:, col[0]]
+            for k, (value, c) in enumerate(self._rows):
+                sc[k] = value if c is None else self._value(theta, c)
             _, sc[4], sc[6] = self._effective(f, sc[0], sc[4], sc[6])
             with np.errstate(all="ignore"):
                 vp, vs, rho = rows(np.clip(f, 0.0, 1.0), sc)

@@ -63,38 +63,47 @@ SPREAD = {"aspect_ratio": LogUniform(0.01, 1.0), "porosity": Uniform(0.0, 0.3),
           "melt_fraction": 0.0}
 
 
-def test_amount_with_log_shape_is_sampled_in_log():
-    # a log-scaled pore (melt) shape puts its amount in ln coordinates too; the amount's prior
-    # stays Uniform(0, 0.3): the density of u = ln(porosity) is e^u / 0.3 on u <= ln 0.3
+def test_amount_with_log_shape_is_sampled_as_pore_compliance():
+    # a log-scaled pore (melt) shape makes its amount's coordinate w = ln(amount) +
+    # ln(1 + A / shape); the amount's prior stays Uniform(0, 0.3): at a fixed aspect ratio the
+    # density of w is e^(ln phi) / 0.3 with ln phi = w - ln(1 + A / alpha) <= ln 0.3
+    from bayescrust.inference.model import _PORE_CROSSOVER as A
+
     model = LayerModel.build(LAYER_2A, rocks=("basalt", "diabase"), priors=SPREAD)
-    assert model.log_coordinates == ("porosity", "aspect_ratio")
+    assert model.log_coordinates == ("aspect_ratio",)
+    assert model.paired_coordinates == {"porosity": "aspect_ratio"}
     melt = LayerModel.build(LAYER_2A, rocks=("basalt", "diabase"), priors={
         "melt_aspect_ratio": LogUniform(0.01, 0.5), "melt_fraction": Uniform(0, 0.05)})
-    assert melt.log_coordinates == ("melt_fraction", "melt_aspect_ratio")
-    j = model.parameter_names.index("porosity")
+    assert melt.paired_coordinates == {"melt_fraction": "melt_aspect_ratio"}
+    j, ja = model.parameter_names.index("porosity"), model.parameter_names.index("aspect_ratio")
     u = np.random.default_rng(1).random((4000, model.ndim))
     u[0, j] = 0.0  # the quantile of u = 0 is porosity 0: the coordinate must stay finite
     theta = model.from_unit(u)
     assert np.all(np.isfinite(theta))
     assert np.all(np.isfinite(model.log_prior(theta)))
+    phi, alpha = 0.3 * u[1:, j], 0.01 * 100.0 ** u[1:, ja]
+    np.testing.assert_allclose(theta[1:, j], np.log(phi) + np.log1p(A / alpha), rtol=1e-13)
+    np.testing.assert_allclose(model.scalars(theta)["porosity"][1:], phi, rtol=1e-12)
     # prior draws through the map: porosity ~ Uniform(0, 0.3) (scipy's KS test)
     from scipy import stats
 
     assert stats.kstest(model.scalars(theta)["porosity"], stats.uniform(0, 0.3).cdf).pvalue > 1e-3
-    grid = np.linspace(math.log(1e-6), math.log(0.3), 4001)
+    shift = math.log1p(A / alpha[0])
+    grid = np.linspace(math.log(1e-7) + shift, math.log(0.3 * (1 - 1e-12)) + shift, 4001)
     pts = np.repeat(theta[1:2], grid.size, axis=0)
     pts[:, j] = grid
-    base = model.log_prior(theta[1:2])[0] - (math.log(1 / 0.3) + theta[1, j])
-    np.testing.assert_allclose(np.exp(model.log_prior(pts) - base), np.exp(grid) / 0.3,
-                               rtol=1e-12)
+    dens = np.exp(model.log_prior(pts) - (model.log_prior(theta[1:2])[0]
+                                          - (math.log(1 / 0.3) + math.log(phi[0]))))
+    np.testing.assert_allclose(dens, np.exp(grid - shift) / 0.3, rtol=1e-11)
+    assert np.trapezoid(dens, grid) == pytest.approx(1.0, abs=1e-6)
     above = pts[:1].copy()
-    above[0, j] = math.log(0.31)
+    above[0, j] = math.log(0.31) + shift
     assert model.log_prior(above)[0] == -np.inf
 
 
 def test_mcmc_with_pore_shape_spread_matches_exact():
-    # ln(porosity) and ln(aspect ratio) sampled together (the crack-density trade-off is a line
-    # there); posterior means of both against the exact path, which never uses the coordinates
+    # porosity through its pore compliance and ln(aspect ratio) sampled together; posterior
+    # means of both against the exact path, which never uses the coordinates
     kw = dict(rocks=("basalt", "diabase"), priors=SPREAD)
     layer = bc.Layer("2A", top_km=0.0, bottom_km=0.5, water_depth_km=3.0, vp=(4.4, 0.15),
                      vs=(2.3, 0.1))

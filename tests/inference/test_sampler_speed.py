@@ -200,7 +200,8 @@ def test_layer_log_prior_against_scipy(alpha):
 def test_layer_log_prior_mixed_priors_against_scipy():
     """Uniform priors are range-checked together, the others summed one by one; log-scaled
     coordinates carry their Jacobian: scipy's densities of every parameter, times x for each
-    ln x coordinate (aspect ratio LogUniform, so porosity too), times a flat Dirichlet."""
+    ln x coordinate (aspect ratio LogUniform; porosity through its pore compliance), times a
+    flat Dirichlet."""
     from scipy import stats
 
     import bayescrust as bc
@@ -215,11 +216,17 @@ def test_layer_log_prior_mixed_priors_against_scipy():
         "melt_aspect_ratio": Beta(2.0, 5.0, 0.01, 0.5)})
     assert m.parameter_names == ("basalt", "temperature_c", "porosity", "aspect_ratio",
                                  "melt_aspect_ratio")
-    assert m.log_coordinates == ("porosity", "aspect_ratio")
+    assert m.log_coordinates == ("aspect_ratio",)
+    assert m.paired_coordinates == {"porosity": "aspect_ratio"}
     rng = np.random.default_rng(4)
     theta = m.sample_prior(rng, 300)
     theta[:40] += rng.normal(0.0, 0.3, (40, m.ndim))  # some outside the support
-    b, t, lphi, lar, mar = theta.T
+    b, t, w, lar, mar = theta.T
+    # porosity's coordinate w = ln phi + ln(1 + A / alpha), a shear of (ln phi, ln alpha) with
+    # unit Jacobian: the density is that of ln phi
+    from bayescrust.inference.model import _PORE_CROSSOVER
+
+    lphi = w - np.log1p(_PORE_CROSSOVER * np.exp(-lar))
     with np.errstate(divide="ignore"):
         ref = (stats.uniform(0, 1).logpdf(b) + stats.uniform(0, 1).logpdf(1 - b)
                + stats.truncnorm(-3.0, 7.0, loc=300.0, scale=100.0).logpdf(t)
