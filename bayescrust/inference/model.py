@@ -24,8 +24,9 @@ import numpy as np
 from scipy import special
 
 from ..physics.labdata import MODEL_ERROR as _LAB_MODEL_ERROR
+from .coordinates import Coordinates
 from .layer import OBSERVABLES, Layer
-from .priors import Dirichlet, LogUniform, Uniform, as_prior
+from .priors import Dirichlet, Uniform, as_prior
 from .thermal_priors import UniformTemperature, resolve_temperature_prior
 
 __all__ = [
@@ -99,19 +100,6 @@ _GABBROIC = ("gabbro", "altered_gabbro", "olivine_gabbro", "troctolite")
 _BASALTIC = ("basalt", "diabase")
 _SERPENTINITES = ("serpentinite", "antigorite_serpentinite")
 _SERPENTINITE_KIND = {"serpentinite": "lizardite", "antigorite_serpentinite": "antigorite"}
-
-#: (amount, shape) pairs: with a log-scaled shape the amount's coordinate is its pore
-#: compliance (LayerModel.paired_coordinates)
-_AMOUNT_SHAPE = (("porosity", "aspect_ratio"), ("melt_fraction", "melt_aspect_ratio"))
-
-#: Aspect ratio where a dry pore's dilute bulk compliance turns from the sphere value to the
-#: crack value in a host with Poisson's ratio 0.25: spheres add 3(1 - nu) / (2(1 - 2 nu)) = 2.25
-#: times the porosity to K/K* - 1 (Mackenzie 1950), penny cracks (16/9)(1 - nu^2) / (1 - 2 nu)
-#: times the crack density 3 phi / (4 pi alpha), i.e. 0.796 phi / alpha (Walsh 1965); 0.796 / 2.25
-#: [computed]. Sets a sampling coordinate only: any positive value gives the same posterior.
-_PORE_CROSSOVER = 0.354
-
-_TINY = np.finfo(float).tiny
 
 _DEPTH_POROUS_KM = 1.5  # mid-depth below which the default porosity prior is narrow (Layer 2/3)
 
@@ -387,44 +375,25 @@ class LayerModel:
         return tuple(self.rock_names[: self.n_fraction_dims]) + self.free
 
     @cached_property
+    def coordinates(self) -> Coordinates:
+        """The sampling coordinates of the free parameters (:mod:`.coordinates`): logit of
+        bounded priors, ln x of log-scale priors, the pore compliance of a porosity whose
+        aspect ratio is log-scaled, temperature as it is."""
+        return Coordinates(self.n_fraction_dims, self.alpha, self.free,
+                           {p: self.scalar_priors[p] for p in self.free})
+
+    @property
     def log_coordinates(self) -> tuple[str, ...]:
-        """Free scalar parameters whose sampled coordinate is ln(value): those with a log-scale
-        prior (``LogUniform``), temperature excepted (profiles read it directly) and the
-        amounts of :attr:`paired_coordinates` excepted.
+        """Free scalar parameters sampled through ln(value) (log-scale priors; for a bounded
+        one, the logit of ln x), the paired amounts excepted."""
+        c = self.coordinates
+        return tuple(p for p in self.free if p in c.names("log") + c.names("logit_log"))
 
-        A pore aspect ratio spanning two decades under a 1/x prior piles up against its lower
-        bound in linear coordinates, where the ensemble moves cannot follow the porosity-aspect
-        trade-off: on a Layer-2B test layer (``priors={"aspect_ratio": LogUniform(0.01, 1)}``)
-        MCMC had not converged after 8000 steps (ensemble-average tau up to 1800 steps); in
-        ln(aspect ratio) it converged in 3371 (every tau 29-49). The prior density, the
-        unit-cube map and the posterior are the same; only the coordinates differ.
-        """
-        paired = self.paired_coordinates
-        return tuple(p for p in self.free if p != "temperature_c" and p not in paired
-                     and getattr(self.scalar_priors[p], "log_scale", False))
-
-    @cached_property
+    @property
     def paired_coordinates(self) -> dict[str, str]:
-        """Amounts sampled through their pore compliance, ``{amount: shape}``: when a shape
-        (``aspect_ratio``, ``melt_aspect_ratio``) is log-scaled and its amount (``porosity``,
-        ``melt_fraction``) is free, the amount's coordinate is
-        ``w = ln(amount) + ln(1 + A / shape)`` with A = :data:`_PORE_CROSSOVER`.
-
-        A dilute pore's compliance is about ``amount * (1 + A / shape)`` up to a constant:
-        the porosity for round pores, the crack density (porosity / aspect ratio; Walsh 1965,
-        O'Connell & Budiansky 1974) for thin cracks. Velocities then depend mostly on ``w``
-        and the porosity-aspect trade-off, a curve in (porosity, ln aspect), becomes nearly a
-        line of constant ``w``, which the ensemble moves follow. The map
-        ``(ln amount, ln shape) -> (w, ln shape)`` is a shear with unit Jacobian, so the prior
-        density of ``w`` is that of ln(amount): ``p(amount) * amount``. On the Layer-2B test
-        layer (Vp 5.0, Vs 2.6 km/s, basalt + diabase, ``aspect_ratio = LogUniform(0.01, 1)``,
-        80 walkers, 3000 steps, seeds 1-3) the walker tau fell from 25-30 (ln porosity) to
-        20-24 and the largest ensemble-average tau, which sets the run's length, from 45-54 to
-        26-34.
-        """
-        logs = {p for p in self.free if p != "temperature_c"
-                and getattr(self.scalar_priors[p], "log_scale", False)}
-        return {a: sh for a, sh in _AMOUNT_SHAPE if sh in logs and a in self.free}
+        """Amounts sampled through their pore compliance, ``{amount: shape}``
+        (:data:`.coordinates.PORE_CROSSOVER`)."""
+        return dict(self.coordinates.paired)
 
     @property
     def ndim(self) -> int:
@@ -432,56 +401,21 @@ class LayerModel:
         return self.n_fraction_dims + len(self.free)
 
     @cached_property
-    def _layout(self):
-        """What the per-call kernels reuse (computed once per model; the model is frozen):
-        the Dirichlet normalisation and ``alpha - 1`` (None for a flat Dirichlet), per scalar
-        parameter its column (``None`` when fixed) and whether the column holds ln(value), the
-        free parameters whose prior density is constant on an interval of their coordinate
-        (columns, lower and upper ends, summed log density), and the other free parameters'
-        (column, logpdf, log coordinate)."""
-        a = self.alpha
-        log_norm = special.gammaln(a.sum()) - special.gammaln(a).sum()
-        k = self.n_fraction_dims
-        logc, paired = self.log_coordinates, self.paired_coordinates
-        col = {p: k + j for j, p in enumerate(self.free)}
-        # per scalar parameter: None (fixed), or (column, 0 linear | 1 ln x | 2 paired, the
-        # paired shape's column)
-        cols = {p: (None if p in self.fixed else
-                    (col[p], 2, col[paired[p]]) if p in paired else
-                    (col[p], 1 if p in logc else 0, None))
-                for p in SCALAR_PARAMETERS}
-        box, priors = [], []
-        for p in self.free:
-            pr, c = self.scalar_priors[p], cols[p]
-            if type(pr) is Uniform and c[1] == 0:
-                box.append((c[0], pr.lo, pr.hi, -math.log(pr.hi - pr.lo)))
-            elif type(pr) is LogUniform and c[1] == 1:  # uniform in ln x
-                lo, hi = math.log(pr.lo), math.log(pr.hi)
-                box.append((c[0], lo, hi, -math.log(hi - lo)))
-            else:
-                priors.append((c, pr.logpdf))
-        if self.fixed_fractions is None and np.all(a == 1.0):
-            # flat Dirichlet: each sampled fraction in [0, 1] (their sum is checked apart) and
-            # the density its normalisation
-            box = [(i, 0.0, 1.0, 0.0) for i in range(k)] + box + [(None, 0, 0, log_norm)]
-        box = (np.array([b[0] for b in box if b[0] is not None], int),
-               np.array([b[1] for b in box if b[0] is not None]),
-               np.array([b[2] for b in box if b[0] is not None]), float(sum(b[3] for b in box)))
-        return log_norm, (None if np.all(a == 1.0) else a - 1.0), cols, tuple(priors), box
-
-    @cached_property
     def _rows(self):
         """The forward model's eight scalar rows (:meth:`ForwardModel.rows` order) per sampled
-        point: for each, a constant, or the sampled column and whether it holds ln(value)."""
-        cols = self._layout[2]
+        point: for each, a constant (value, None) or a free parameter (None, name)."""
         p = self.pressure_gpa
         const = {"pressure": p,
                  "pore": p if self.pore_pressure_gpa is None else self.pore_pressure_gpa}
         out = []
         for name in ("temperature_c", "pressure", "porosity", "aspect_ratio", "melt_fraction",
                      "melt_aspect_ratio", "serpentinization", "pore"):
-            c = cols.get(name)
-            out.append((const[name] if name in const else self.fixed.get(name), c))
+            if name in const:
+                out.append((const[name], None))
+            elif name in self.fixed:
+                out.append((self.fixed[name], None))
+            else:
+                out.append((None, name))
         return tuple(out)
 
     def fractions(self, theta) -> np.ndarray:
@@ -489,87 +423,26 @@ class LayerModel:
         theta = np.atleast_2d(theta)
         if self.fixed_fractions is not None:
             return np.broadcast_to(self.fixed_fractions, (theta.shape[0], len(self.rock_names)))
-        k = self.n_fraction_dims
-        head = theta[:, :k]
-        return np.concatenate([head, 1.0 - head.sum(axis=1, keepdims=True)], axis=1)
+        return self.coordinates.fractions(theta, len(self.rock_names))
 
     def scalars(self, theta) -> dict[str, np.ndarray]:
         """Every scalar parameter (free and fixed) as arrays of shape (n,)."""
         theta = np.atleast_2d(theta)
-        return {p: (np.full(theta.shape[0], self.fixed[p]) if c is None
-                    else self._value(theta, c)) for p, c in self._layout[2].items()}
-
-    @staticmethod
-    def _ln_value(theta, c):
-        """ln(value) of a log (``c[1] == 1``) or paired (2) coordinate ``c`` of :attr:`_layout`:
-        a paired amount's coordinate is ln(amount) + ln(1 + A / shape)."""
-        x = theta[:, c[0]]
-        if c[1] == 2:
-            return x - np.log1p(_PORE_CROSSOVER * np.exp(-theta[:, c[2]]))
-        return x
-
-    @classmethod
-    def _value(cls, theta, c):
-        """The parameter value of sampled coordinate ``c`` (see :meth:`_ln_value`)."""
-        return theta[:, c[0]] if c[1] == 0 else np.exp(cls._ln_value(theta, c))
+        c = self.coordinates
+        return {p: (np.full(theta.shape[0], self.fixed[p]) if p in self.fixed
+                    else c.value(theta, p)) for p in SCALAR_PARAMETERS}
 
     # ------------------------------------------------------------------ prior
     def log_prior(self, theta) -> np.ndarray:
         """Normalised log prior density of sampled points (n, ndim) in the sampled coordinates
-        (ln x for :attr:`log_coordinates`, the pore compliance for
-        :attr:`paired_coordinates`); ``-inf`` outside support."""
-        theta = np.atleast_2d(np.asarray(theta, float))
-        log_norm, a1, _, priors, (bcols, blo, bhi, bdens) = self._layout
-        k = self.n_fraction_dims
-        with np.errstate(all="ignore"):
-            # priors uniform in their coordinate (and a flat Dirichlet's fractions): a range check
-            x = theta[:, bcols]
-            ok = ((x >= blo) & (x <= bhi)).all(axis=1)
-            if k and a1 is None:  # flat Dirichlet: the last fraction, 1 - sum, must be >= 0
-                ok &= theta[:, :k].sum(axis=1) <= 1.0
-            lp = np.full(theta.shape[0], bdens)
-            if a1 is not None:
-                f = self.fractions(theta)
-                ok &= np.all(f >= 0.0, axis=1)
-                fpos = np.where(ok[:, None], f, 1.0)
-                lp += log_norm + (special.xlogy(a1, fpos)).sum(axis=1)
-            for c, logpdf in priors:
-                if c[1]:  # density of u = ln x: p(e^u) e^u (and of a paired w: unit Jacobian)
-                    x = self._ln_value(theta, c)
-                    lp = lp + logpdf(np.exp(x)) + x
-                else:
-                    lp = lp + logpdf(theta[:, c[0]])
-        return np.where(ok & ~np.isnan(lp), lp, -np.inf)
+        (:attr:`coordinates`); ``-inf`` outside support."""
+        return self.coordinates.log_density(np.atleast_2d(np.asarray(theta, float)))
 
     def from_unit(self, u) -> np.ndarray:
-        """Map points of the unit hypercube (n, ndim) to prior draws (inverse transform).
-
-        Fractions use the stick-breaking construction of the Dirichlet distribution with Beta
-        quantiles; scalars use each prior's ``ppf`` (its logarithm for
-        :attr:`log_coordinates`, the pore compliance for :attr:`paired_coordinates`).
-        """
-        u = np.atleast_2d(np.asarray(u, float))
-        out = np.empty_like(u)
-        k = self.n_fraction_dims
-        if k:
-            a = self.alpha
-            rest = 1.0 - np.zeros(u.shape[0])
-            for i in range(k):  # loop over rocks (a handful), not samples
-                b = special.betaincinv(a[i], a[i + 1:].sum(), u[:, i])
-                out[:, i] = rest * b
-                rest = rest - out[:, i]
-        cols = self._layout[2]
-        values = {p: self.scalar_priors[p].ppf(u[:, k + j]) for j, p in enumerate(self.free)}
-        for p, x in values.items():
-            c = cols[p]
-            if c[1]:
-                # a prior whose support starts at 0 (Uniform porosity) maps u = 0 to x = 0: the
-                # smallest normal float instead, so the coordinate stays finite
-                x = np.log(np.maximum(x, _TINY))
-                if c[1] == 2:
-                    x = x + np.log1p(_PORE_CROSSOVER / values[self.paired_coordinates[p]])
-            out[:, c[0]] = x
-        return out
+        """Map points of the unit hypercube (n, ndim) to prior draws (inverse transform) in the
+        sampled coordinates: fractions by the stick-breaking construction of the Dirichlet
+        distribution with Beta quantiles, scalars through each prior's ``ppf``."""
+        return self.coordinates.from_unit(np.atleast_2d(np.asarray(u, float)))
 
     def sample_prior(self, rng: np.random.Generator, n: int) -> np.ndarray:
         """``n`` independent prior draws, shape (n, ndim)."""
@@ -622,8 +495,9 @@ class LayerModel:
             vp, vs, rho = self._forward(f, s)
         else:
             sc = np.empty((8, theta.shape[0]))
-            for k, (value, c) in enumerate(self._rows):
-                sc[k] = value if c is None else self._value(theta, c)
+            c = self.coordinates
+            for k, (value, name) in enumerate(self._rows):
+                sc[k] = value if name is None else c.value(theta, name)
             _, sc[4], sc[6] = self._effective(f, sc[0], sc[4], sc[6])
             with np.errstate(all="ignore"):
                 vp, vs, rho = rows(np.clip(f, 0.0, 1.0), sc)

@@ -62,13 +62,20 @@ def test_log_prob_vectorised_equals_looped_and_minus_inf_outside():
     model = LayerModel.build(bc.Layer("lc", vp=(7.1, 0.1), **LOWER), **FAST)
     rng = np.random.default_rng(0)
     th = model.sample_prior(rng, 16)
-    th[3, 0] = 1.5          # fraction outside the simplex
+    th[3, 0] = 40.0         # logit of the first of two fractions: 1 - 4e-18, inside
     th[5, 1] = -50.0        # temperature outside its prior
     lp = model.log_prob(th)
     looped = np.array([model.log_prob(t[None])[0] for t in th])
     np.testing.assert_allclose(lp, looped, rtol=1e-12)
-    assert lp[3] == -np.inf and lp[5] == -np.inf
-    assert np.all(np.isfinite(np.delete(lp, [3, 5])))
+    assert lp[5] == -np.inf
+    assert np.all(np.isfinite(np.delete(lp, [5])))
+    # with three rocks the fractions are sampled as they are: outside the simplex is -inf
+    three = LayerModel.build(bc.Layer("lc", vp=(7.1, 0.1), **LOWER),
+                             **{**FAST, "rocks": ("gabbro", "harzburgite", "dunite")})
+    th = three.sample_prior(rng, 8)
+    th[3, 0] = 1.5
+    lp = three.log_prob(th)
+    assert lp[3] == -np.inf and np.all(np.isfinite(np.delete(lp, [3])))
 
 
 def test_bit_identical_exact():

@@ -1,15 +1,18 @@
-"""Log-scale priors are sampled in ln(x): the same prior and posterior in other coordinates.
+"""Sampling coordinates (bayescrust.inference.coordinates): the same prior and posterior in
+other coordinates.
 
-A ``LogUniform`` parameter's sampled coordinate is u = ln x (``LayerModel.log_coordinates``),
-whose prior density is p(e^u) e^u (change of variables). The exact path draws from the prior
-through ``from_unit`` and never uses that density; MCMC uses it: a missing Jacobian would make
-the two disagree, which the second test checks.
+A bounded log-scale prior's coordinate is the logit of its position in ln x, a porosity paired
+with a log-scaled aspect ratio is sampled through its pore compliance, and the prior density
+of a coordinate is the parameter's density times the Jacobian. The exact path draws from the
+prior through ``from_unit`` and never uses that density; MCMC uses it: a wrong Jacobian makes
+the two disagree, which the MCMC tests check.
 """
 
 import math
 
 import numpy as np
 import pytest
+from scipy import special, stats
 
 import bayescrust as bc
 from bayescrust.inference.model import LayerModel
@@ -24,23 +27,26 @@ def test_log_coordinate_density_and_map():
     model = LayerModel.build(LAYER_2A, rocks=("basalt", "diabase"),
                              priors={**PRIORS, "aspect_ratio": Uniform(0.05, 1.0)})
     assert model.log_coordinates == ("porosity",)
+    assert model.coordinates.names("logit_log") == ("porosity",)
+    assert model.coordinates.names("linear") == ("temperature_c",)
     j = model.parameter_names.index("porosity")
     u = np.random.default_rng(0).random((500, model.ndim))
     theta = model.from_unit(u)
-    # the map: ln of the prior's quantile; scalars() gives the value back
-    np.testing.assert_allclose(theta[:, j], np.log(PRIORS["porosity"].ppf(u[:, j])), rtol=1e-13)
+    # the map: the quantile's position in [ln 0.01, ln 0.3] is u itself; its logit, and back
+    np.testing.assert_allclose(theta[:, j], special.logit(u[:, j]), rtol=1e-9, atol=1e-9)
     np.testing.assert_allclose(model.scalars(theta)["porosity"], PRIORS["porosity"].ppf(u[:, j]),
-                               rtol=1e-13)
-    # the density of u = ln x under LogUniform(a, b) is uniform, 1 / ln(b / a), on [ln a, ln b]
-    grid = np.linspace(math.log(0.01), math.log(0.3), 2001)
+                               rtol=1e-12)
+    # the density of z = logit((ln x - ln a) / ln(b / a)) under LogUniform(a, b) is the
+    # standard logistic density (scipy)
+    grid = np.linspace(-40.0, 40.0, 4001)
     pts = np.repeat(theta[:1], grid.size, axis=0)
     pts[:, j] = grid
-    lp = model.log_prior(pts) - model.log_prior(theta[:1])[0] + model.scalar_priors[
-        "porosity"].logpdf(model.scalars(theta[:1])["porosity"])[0] + theta[0, j]
-    np.testing.assert_allclose(np.exp(lp), 1.0 / math.log(30.0), rtol=1e-12)
-    assert np.trapezoid(np.exp(lp), grid) == pytest.approx(1.0, rel=1e-12)
+    lp = (model.log_prior(pts) - model.log_prior(theta[:1])[0]
+          + stats.logistic.logpdf(theta[0, j]))
+    np.testing.assert_allclose(lp, stats.logistic.logpdf(grid), rtol=1e-10, atol=1e-10)
+    assert np.trapezoid(np.exp(lp), grid) == pytest.approx(1.0, rel=1e-9)
     outside = pts[:2].copy()
-    outside[:, j] = [math.log(0.009), math.log(0.31)]
+    outside[:, model.parameter_names.index("temperature_c")] = [-10.0, 1500.0]
     assert np.all(model.log_prior(outside) == -np.inf)
 
 
@@ -67,11 +73,12 @@ def test_amount_with_log_shape_is_sampled_as_pore_compliance():
     # a log-scaled pore (melt) shape makes its amount's coordinate w = ln(amount) +
     # ln(1 + A / shape); the amount's prior stays Uniform(0, 0.3): at a fixed aspect ratio the
     # density of w is e^(ln phi) / 0.3 with ln phi = w - ln(1 + A / alpha) <= ln 0.3
-    from bayescrust.inference.model import _PORE_CROSSOVER as A
+    from bayescrust.inference.coordinates import PORE_CROSSOVER as A
 
     model = LayerModel.build(LAYER_2A, rocks=("basalt", "diabase"), priors=SPREAD)
     assert model.log_coordinates == ("aspect_ratio",)
     assert model.paired_coordinates == {"porosity": "aspect_ratio"}
+    assert model.coordinates.names("paired") == ("porosity",)
     melt = LayerModel.build(LAYER_2A, rocks=("basalt", "diabase"), priors={
         "melt_aspect_ratio": LogUniform(0.01, 0.5), "melt_fraction": Uniform(0, 0.05)})
     assert melt.paired_coordinates == {"melt_fraction": "melt_aspect_ratio"}
@@ -85,8 +92,6 @@ def test_amount_with_log_shape_is_sampled_as_pore_compliance():
     np.testing.assert_allclose(theta[1:, j], np.log(phi) + np.log1p(A / alpha), rtol=1e-13)
     np.testing.assert_allclose(model.scalars(theta)["porosity"][1:], phi, rtol=1e-12)
     # prior draws through the map: porosity ~ Uniform(0, 0.3) (scipy's KS test)
-    from scipy import stats
-
     assert stats.kstest(model.scalars(theta)["porosity"], stats.uniform(0, 0.3).cdf).pvalue > 1e-3
     shift = math.log1p(A / alpha[0])
     grid = np.linspace(math.log(1e-7) + shift, math.log(0.3 * (1 - 1e-12)) + shift, 4001)

@@ -117,7 +117,9 @@ def test_layer_log_prob_equals_quantities_path(case):
     m = LayerModel.build(layer, **kw)
     rng = np.random.default_rng(2)
     theta = m.sample_prior(rng, 400)
-    theta[:60] += rng.normal(0.0, 0.5, (60, m.ndim))  # some outside the prior's support
+    theta[:60] += rng.normal(0.0, 0.5, (60, m.ndim))
+    # some outside the prior's support (logit coordinates have none: temperature's)
+    theta[:20, m.parameter_names.index("temperature_c")] = -10.0
     lp = m.log_prob(theta)
     ref = m.log_prior(theta)
     ok = np.isfinite(ref)
@@ -198,10 +200,8 @@ def test_layer_log_prior_against_scipy(alpha):
 
 
 def test_layer_log_prior_mixed_priors_against_scipy():
-    """Uniform priors are range-checked together, the others summed one by one; log-scaled
-    coordinates carry their Jacobian: scipy's densities of every parameter, times x for each
-    ln x coordinate (aspect ratio LogUniform; porosity through its pore compliance), times a
-    flat Dirichlet."""
+    """The prior density in the sampled coordinates: scipy's density of every parameter times
+    the Jacobian of its coordinate (logit, logit of ln x, pore compliance, linear)."""
     from scipy import stats
 
     import bayescrust as bc
@@ -218,23 +218,35 @@ def test_layer_log_prior_mixed_priors_against_scipy():
                                  "melt_aspect_ratio")
     assert m.log_coordinates == ("aspect_ratio",)
     assert m.paired_coordinates == {"porosity": "aspect_ratio"}
+    assert m.coordinates.names("logit") == ("melt_aspect_ratio",)
     rng = np.random.default_rng(4)
     theta = m.sample_prior(rng, 300)
-    theta[:40] += rng.normal(0.0, 0.3, (40, m.ndim))  # some outside the support
+    theta[:40] += rng.normal(0.0, 0.3, (40, m.ndim))  # perturbed
+    theta[:20, 1] = -10.0  # temperature outside its support
     b, t, w, lar, mar = theta.T
-    # porosity's coordinate w = ln phi + ln(1 + A / alpha), a shear of (ln phi, ln alpha) with
-    # unit Jacobian: the density is that of ln phi
-    from bayescrust.inference.model import _PORE_CROSSOVER
+    # the coordinates (bayescrust.inference.coordinates): the first of two fractions and the
+    # Beta-distributed melt aspect ratio as logits, the aspect ratio as the logit of ln alpha,
+    # porosity as w = ln phi + ln(1 + A / alpha) (a unit-Jacobian shear of ln phi); each term
+    # is scipy's density of the value times |dx/dz|
+    from scipy.special import expit
 
-    lphi = w - np.log1p(_PORE_CROSSOVER * np.exp(-lar))
+    from bayescrust.inference.coordinates import PORE_CROSSOVER
+
+    def log_jac(z, width):  # ln |d/dz (lo + width * expit(z))|
+        return np.log(width) + np.log(expit(z)) + np.log(expit(-z))
+
+    lna = np.log(0.01) + np.log(100.0) * expit(lar)
+    lphi = w - np.log1p(PORE_CROSSOVER * np.exp(-lna))
+    x_mar = 0.01 + 0.49 * expit(mar)
     with np.errstate(divide="ignore"):
-        ref = (stats.uniform(0, 1).logpdf(b) + stats.uniform(0, 1).logpdf(1 - b)
+        ref = (stats.beta(1, 1).logpdf(expit(b)) + log_jac(b, 1.0)
                + stats.truncnorm(-3.0, 7.0, loc=300.0, scale=100.0).logpdf(t)
                + stats.uniform(0, 0.2).logpdf(np.exp(lphi)) + lphi
-               + stats.loguniform(0.01, 1.0).logpdf(np.exp(lar)) + lar
-               + stats.beta(2.0, 5.0, loc=0.01, scale=0.49).logpdf(mar))
+               + stats.loguniform(0.01, 1.0).logpdf(np.exp(lna)) + lna
+               + log_jac(lar, np.log(100.0))
+               + stats.beta(2.0, 5.0, loc=0.01, scale=0.49).logpdf(x_mar) + log_jac(mar, 0.49))
     lp = m.log_prior(theta)
-    assert np.isfinite(lp).sum() > 200 and (~np.isfinite(lp)).sum() > 10
+    assert np.isfinite(lp).sum() > 200 and (~np.isfinite(lp)).sum() >= 20
     np.testing.assert_array_equal(np.isfinite(lp), np.isfinite(ref))
     ok = np.isfinite(ref)
     np.testing.assert_allclose(lp[ok], ref[ok], rtol=1e-11, atol=1e-11)
