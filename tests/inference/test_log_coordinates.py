@@ -80,7 +80,8 @@ def test_amount_with_log_shape_is_sampled_as_pore_compliance():
     assert model.paired_coordinates == {"porosity": "aspect_ratio"}
     assert model.coordinates.names("paired") == ("porosity",)
     melt = LayerModel.build(LAYER_2A, rocks=("basalt", "diabase"), priors={
-        "melt_aspect_ratio": LogUniform(0.01, 0.5), "melt_fraction": Uniform(0, 0.05)})
+        "melt_aspect_ratio": LogUniform(0.01, 0.5), "melt_fraction": Uniform(0, 0.05),
+        "aspect_ratio": 0.1})
     assert melt.paired_coordinates == {"melt_fraction": "melt_aspect_ratio"}
     j, ja = model.parameter_names.index("porosity"), model.parameter_names.index("aspect_ratio")
     u = np.random.default_rng(1).random((4000, model.ndim))
