@@ -26,7 +26,7 @@ from scipy import special
 from ..physics.labdata import MODEL_ERROR as _LAB_MODEL_ERROR
 from .coordinates import Coordinates
 from .layer import OBSERVABLES, Layer
-from .priors import Dirichlet, Uniform, as_prior
+from .priors import Dirichlet, LogUniform, Uniform, as_prior
 from .thermal_priors import UniformTemperature, resolve_temperature_prior
 
 __all__ = [
@@ -101,7 +101,7 @@ _BASALTIC = ("basalt", "diabase")
 _SERPENTINITES = ("serpentinite", "antigorite_serpentinite")
 _SERPENTINITE_KIND = {"serpentinite": "lizardite", "antigorite_serpentinite": "antigorite"}
 
-_DEPTH_POROUS_KM = 1.5  # mid-depth below which the default porosity prior is narrow (Layer 2/3)
+_DEPTH_POROUS_KM = 1.5  # mid-depth below which the default pore priors are narrow (Layer 2/3)
 
 
 def default_priors(layer: Layer, rock_names, ultramafic) -> dict:
@@ -111,22 +111,23 @@ def default_priors(layer: Layer, rock_names, ultramafic) -> dict:
     - ``temperature_c``: ``UniformTemperature(0, 1400)``;
     - ``porosity``: ``Uniform(0, 0.3)`` if the layer's mid-depth is < 1.5 km below the seafloor
       (Layer 2, extrusives and dikes), else ``Uniform(0, 0.03)``;
-    - ``aspect_ratio``: fixed 0.1 (between penny cracks and spheres). A pore-shape spread,
-      ``priors={"aspect_ratio": LogUniform(0.01, 1)}``, lets shallow layers reach Layer-2
-      Vp/Vs >= 1.9 (needs aspect ratios <= ~0.02) but makes a Layer-2B MCMC 1.4-2.2x slower
-      (1.5-2.2x the steps; docs/physics.md), so it is opt-in; thin cracks at depth are shut by
-      effective pressure either way (Walsh 1965, ``physics/pores.py``);
+    - ``aspect_ratio``: a pore-shape spread, ``LogUniform(0.01, 1)`` (thin cracks to round
+      pores), if the layer's mid-depth is < 1.5 km below the seafloor, so Layer-2 Vp/Vs >= 1.9
+      (needs aspect ratios <= ~0.02) can be fitted by water-filled cracks; else fixed 0.1
+      (between penny cracks and spheres). Thin cracks at depth are shut by effective pressure
+      either way (Walsh 1965, ``physics/pores.py``). Cost: docs/physics.md, "Pore-shape
+      spread";
     - ``melt_fraction``: ``Uniform(0, 0.05)`` (effective only above the solidus);
     - ``melt_aspect_ratio``: fixed 0.05 (melt films/tubules);
     - ``serpentinization``: ``Uniform(0, 1)`` if an ultramafic rock is present (effective only
       below the serpentine stability limit), else fixed 0.
     """
+    shallow = layer.mid_depth_km < _DEPTH_POROUS_KM
     return {
         "fractions": Dirichlet(1.0),
         "temperature_c": UniformTemperature(0.0, 1400.0),
-        "porosity": Uniform(0.0, 0.3) if layer.mid_depth_km < _DEPTH_POROUS_KM
-        else Uniform(0.0, 0.03),
-        "aspect_ratio": 0.1,
+        "porosity": Uniform(0.0, 0.3) if shallow else Uniform(0.0, 0.03),
+        "aspect_ratio": LogUniform(0.01, 1.0) if shallow else 0.1,
         "melt_fraction": Uniform(0.0, 0.05),
         "melt_aspect_ratio": 0.05,
         "serpentinization": Uniform(0.0, 1.0) if np.any(ultramafic) else 0.0,
