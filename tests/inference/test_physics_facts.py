@@ -98,3 +98,24 @@ def test_cold_plate_and_hot_axis_priors_push_opposite_ways():
     assert cmp.bayes_factors.loc["uniform", "uniform"] == pytest.approx(0.0)
     # the exact path resolves each evidence to a few hundredths in log units
     assert (cmp.evidence["log_evidence_error"] < 0.05).all()
+
+
+def test_high_layer_2a_vp_vs_is_fitted_by_the_default_pore_shape_spread():
+    # Layer 2A Poisson's ratios of 0.33-0.44 (Vp/Vs 2.0-2.9) are reported from seafloor
+    # compliance (from memory; tests/physics/test_pores.py): Vp 4.0, Vs 1.7 km/s (Vp/Vs 2.35)
+    # needs thin water-filled cracks. The default shallow-layer prior samples the aspect ratio
+    # and fits it with cracks (alpha <= 0.02 at 94 % HDI); with alpha fixed at 0.1 the
+    # predictive check flags a misfit.
+    import warnings
+
+    layer = bc.Layer("2A", top_km=0.0, bottom_km=0.5, water_depth_km=3.0, vp=(4.0, 0.1),
+                     vs=(1.7, 0.05))
+    res = bc.exact_layer(layer, rocks=("basalt",), seed=1)
+    assert not res.misfit
+    assert res.summary.loc["aspect_ratio", "hdi_high"] <= 0.025
+    assert res.summary.loc["vp_vs", "mean"] > 2.1
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", bc.MisfitWarning)
+        fixed = bc.exact_layer(layer, rocks=("basalt",), seed=1, priors={"aspect_ratio": 0.1})
+    assert fixed.misfit
+    assert fixed.summary.loc["vp_vs", "mean"] < 1.9
