@@ -164,8 +164,8 @@ class Coordinates:
             return c.lo + (c.hi - c.lo) * special.expit(theta[:, c.col])
         return np.exp(self.ln_value(theta, c))
 
-    def fractions(self, theta, n_rocks: int) -> np.ndarray:
-        """Rock fractions (n, n_rocks) of sampled points (fractions sampled)."""
+    def fractions(self, theta) -> np.ndarray:
+        """Rock fractions (n, n_fractions + 1) of sampled points (fractions sampled)."""
         k = self.n_fractions
         if k == 1:
             f0 = special.expit(theta[:, 0])
@@ -191,7 +191,7 @@ class Coordinates:
                 if self._dirichlet_a1 is None:
                     ok &= theta[:, :k].sum(axis=1) <= 1.0
                 else:
-                    f = self.fractions(theta, k + 1)
+                    f = self.fractions(theta)
                     ok &= np.all(f >= 0.0, axis=1)
                     fpos = np.where(ok[:, None], f, 1.0)
                     lp += self._log_norm + special.xlogy(self._dirichlet_a1, fpos).sum(axis=1)

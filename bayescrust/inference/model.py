@@ -10,8 +10,8 @@ leading batch axis of sampled points ``theta`` of shape ``(n, ndim)``:
 - :meth:`LayerModel.quantities` - every parameter and derived quantity by name;
 - :meth:`LayerModel.from_unit` / :meth:`LayerModel.sample_prior` - points from the prior.
 
-Sampled coordinates are the fractions of the first ``n - 1`` rocks (the last is one minus their
-sum) followed by the free scalar parameters in the order of :data:`SCALAR_PARAMETERS`.
+Sampled coordinates (:mod:`.coordinates`) are those of the first ``n - 1`` rock fractions
+followed by those of the free scalar parameters in the order of :data:`SCALAR_PARAMETERS`.
 """
 
 from __future__ import annotations
@@ -424,7 +424,7 @@ class LayerModel:
         theta = np.atleast_2d(theta)
         if self.fixed_fractions is not None:
             return np.broadcast_to(self.fixed_fractions, (theta.shape[0], len(self.rock_names)))
-        return self.coordinates.fractions(theta, len(self.rock_names))
+        return self.coordinates.fractions(theta)
 
     def scalars(self, theta) -> dict[str, np.ndarray]:
         """Every scalar parameter (free and fixed) as arrays of shape (n,)."""
