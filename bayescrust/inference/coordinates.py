@@ -9,11 +9,14 @@ parameter is sampled in its own coordinate:
 - ``"linear"``: the value (temperature, always: profiles read and set it directly; and
   parameters with an unbounded prior);
 - ``"logit"``: ``z = logit((x - lo) / (hi - lo))`` for a prior with a bounded support ``[lo,
-  hi]``; the first of two rock fractions (a Dirichlet of two rocks is a Beta distribution);
+  hi]``;
 - ``"logit_log"``: the same on ln x for a bounded log-scale prior (``LogUniform``);
 - ``"paired"``: the pore compliance ``w = ln(amount) + ln(1 + A / shape)`` of a porosity or
   melt fraction whose shape (aspect ratio) is log-scaled (:data:`PORE_CROSSOVER`);
-- with three or more rocks the fractions are sampled as they are (the first ``n - 1``).
+- rock fractions by stick-breaking: ``z_i = logit(v_i)`` with ``v_i = f_i / (1 - f_0 - ... -
+  f_{i-1})``; under ``Dirichlet(a)`` the ``v_i`` are independent ``Beta(a_i, a_{i+1} + ... +
+  a_{n-1})`` (the construction of the Dirichlet distribution by stick-breaking), so each
+  ``z_i`` has the density of a logit-Beta and the simplex has no edge the moves can cross.
 
 Each map is one-to-one on the support, so the prior, the unit-cube map (used by the exact
 path) and the posterior are the same; the density of a coordinate is the prior density times
@@ -21,7 +24,8 @@ the Jacobian ``|dx/dz|`` (tested against scipy's densities and against the exact
 on a Layer-2B test layer (basalt + diabase, Vp 5.0, Vs 2.6 km/s; 4000 steps, seeds 1-3), the
 walker autocorrelation time with ``aspect_ratio`` fixed went from 13-15 steps (linear
 coordinates) to 9-11, with ``aspect_ratio = LogUniform(0.01, 1)`` from 21-25 to 12-17, and on
-the 7.1 km/s gabbro/harzburgite benchmark layer from 11-13 to 7.5-10.
+the 7.1 km/s gabbro/harzburgite benchmark layer from 11-13 to 7.5-10; with altered gabbro as a
+third rock (3000 steps) from 11-16 (fractions on the simplex) to 8-10.
 """
 
 from __future__ import annotations
@@ -111,20 +115,16 @@ class Coordinates:
         object.__setattr__(self, "paired", paired)
         object.__setattr__(self, "coords", coords)
         a = np.asarray(self.alpha, float)
-        object.__setattr__(self, "_log_beta", float(special.betaln(a[0], a[1])) if k == 1
-                           else None)
-        object.__setattr__(self, "_log_norm",
-                           float(special.gammaln(a.sum()) - special.gammaln(a).sum()))
-        # range checks: linear Uniform priors, the fractions of >= 3 rocks (flat Dirichlet)
+        # stick-breaking Beta parameters (a_i, a_{i+1} + ... + a_{n-1}) and their ln B
+        tail = np.cumsum(a[::-1])[::-1]
+        object.__setattr__(self, "_stick", (a[:k], tail[1:k + 1],
+                                            special.betaln(a[:k], tail[1:k + 1]).sum()))
+        # range checks: linear Uniform priors
         box = [(c.col, pr[p].lo, pr[p].hi, -math.log(pr[p].hi - pr[p].lo))
                for p, c in coords.items() if c.kind == "linear" and type(pr[p]) is Uniform]
-        flat = bool(np.all(a == 1.0))
-        if k >= 2 and flat:
-            box = [(i, 0.0, 1.0, 0.0) for i in range(k)] + box
         object.__setattr__(self, "_box", (
             np.array([b[0] for b in box], int), np.array([b[1] for b in box]),
-            np.array([b[2] for b in box]),
-            sum(b[3] for b in box) + (self._log_norm if k >= 2 and flat else 0.0)))
+            np.array([b[2] for b in box]), float(sum(b[3] for b in box))))
         # logit coordinates of uniform priors (in x or ln x): density sigma(z) (1 - sigma(z))
         uni = [c.col for p, c in coords.items()
                if (c.kind == "logit" and type(pr[p]) is Uniform)
@@ -134,7 +134,6 @@ class Coordinates:
             (coords[p], pr[p].logpdf) for p in self.free
             if coords[p].col not in uni and not (coords[p].kind == "linear"
                                                  and type(pr[p]) is Uniform)))
-        object.__setattr__(self, "_dirichlet_a1", None if flat else a - 1.0)
 
     # ------------------------------------------------------------------ names
     def names(self, kind: str) -> tuple[str, ...]:
@@ -165,13 +164,16 @@ class Coordinates:
         return np.exp(self.ln_value(theta, c))
 
     def fractions(self, theta) -> np.ndarray:
-        """Rock fractions (n, n_fractions + 1) of sampled points (fractions sampled)."""
+        """Rock fractions (n, n_fractions + 1) of sampled points (fractions sampled): stick
+        ``i`` takes the share ``sigma(z_i)`` of what the earlier sticks left."""
         k = self.n_fractions
-        if k == 1:
-            f0 = special.expit(theta[:, 0])
-            return np.column_stack([f0, special.expit(-theta[:, 0])])
-        head = theta[:, :k]
-        return np.concatenate([head, 1.0 - head.sum(axis=1, keepdims=True)], axis=1)
+        out = np.empty((theta.shape[0], k + 1))
+        rest = np.ones(theta.shape[0])
+        for i in range(k):  # loop over rocks (a handful), not samples
+            out[:, i] = rest * special.expit(theta[:, i])
+            rest = rest * special.expit(-theta[:, i])
+        out[:, k] = rest
+        return out
 
     # ------------------------------------------------------------------ prior density
     def log_density(self, theta) -> np.ndarray:
@@ -183,18 +185,10 @@ class Coordinates:
             x = theta[:, bcols]
             ok = ((x >= blo) & (x <= bhi)).all(axis=1)
             lp = np.full(theta.shape[0], bdens)
-            if k == 1:  # Beta(a0, a1) of sigma(z), times the Jacobian sigma(z) sigma(-z)
-                z = theta[:, 0]
-                a = self.alpha
-                lp += a[0] * _log_sigmoid(z) + a[1] * _log_sigmoid(-z) - self._log_beta
-            elif k >= 2:
-                if self._dirichlet_a1 is None:
-                    ok &= theta[:, :k].sum(axis=1) <= 1.0
-                else:
-                    f = self.fractions(theta)
-                    ok &= np.all(f >= 0.0, axis=1)
-                    fpos = np.where(ok[:, None], f, 1.0)
-                    lp += self._log_norm + special.xlogy(self._dirichlet_a1, fpos).sum(axis=1)
+            if k:  # per stick: Beta(a, b) of sigma(z) times the Jacobian sigma(z) sigma(-z)
+                z = theta[:, :k]
+                a, b, log_beta = self._stick
+                lp += (a * _log_sigmoid(z) + b * _log_sigmoid(-z)).sum(axis=1) - log_beta
             if self._uniform_logit.size:
                 z = theta[:, self._uniform_logit]
                 lp += (_log_sigmoid(z) + _log_sigmoid(-z)).sum(axis=1)
@@ -216,20 +210,14 @@ class Coordinates:
     def from_unit(self, u) -> np.ndarray:
         """Points of the unit hypercube (n, ndim) to prior draws in these coordinates.
 
-        Fractions by the stick-breaking construction of the Dirichlet distribution with Beta
-        quantiles; scalars through each prior's ``ppf``.
+        Fractions by the stick-breaking construction of the Dirichlet distribution (each stick's
+        Beta quantile); scalars through each prior's ``ppf``.
         """
         out = np.empty_like(u)
         k = self.n_fractions
         a = np.asarray(self.alpha, float)
-        if k == 1:
-            out[:, 0] = _logit(special.betaincinv(a[0], a[1], u[:, 0]))
-        elif k:
-            rest = 1.0 - np.zeros(u.shape[0])
-            for i in range(k):  # loop over rocks (a handful), not samples
-                b = special.betaincinv(a[i], a[i + 1:].sum(), u[:, i])
-                out[:, i] = rest * b
-                rest = rest - out[:, i]
+        for i in range(k):  # loop over rocks (a handful), not samples
+            out[:, i] = _logit(special.betaincinv(a[i], a[i + 1:].sum(), u[:, i]))
         values = {p: self.priors[p].ppf(u[:, c.col]) for p, c in self.coords.items()}
         for p, c in self.coords.items():
             x = values[p]

@@ -69,13 +69,14 @@ def test_log_prob_vectorised_equals_looped_and_minus_inf_outside():
     np.testing.assert_allclose(lp, looped, rtol=1e-12)
     assert lp[5] == -np.inf
     assert np.all(np.isfinite(np.delete(lp, [5])))
-    # with three rocks the fractions are sampled as they are: outside the simplex is -inf
+    # three rocks: stick-breaking logits cover the simplex, every coordinate is inside
     three = LayerModel.build(bc.Layer("lc", vp=(7.1, 0.1), **LOWER),
                              **{**FAST, "rocks": ("gabbro", "harzburgite", "dunite")})
     th = three.sample_prior(rng, 8)
-    th[3, 0] = 1.5
-    lp = three.log_prob(th)
-    assert lp[3] == -np.inf and np.all(np.isfinite(np.delete(lp, [3])))
+    th[3, :2] = [40.0, -40.0]
+    f = three.fractions(th)
+    assert np.all(f >= 0) and np.allclose(f.sum(axis=1), 1.0, rtol=0, atol=1e-15)
+    assert np.all(np.isfinite(three.log_prob(th)))
 
 
 def test_bit_identical_exact():

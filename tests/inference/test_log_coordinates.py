@@ -124,3 +124,21 @@ def test_mcmc_with_pore_shape_spread_matches_exact():
     # not vacuous: the data (Vp/Vs 1.91) moved the aspect ratio well away from its prior mean,
     # 0.99 / ln 100 = 0.215, towards cracks (se is the aspect ratio's, the last in the loop)
     assert abs(ex.summary.loc["aspect_ratio", "mean"] - 0.99 / math.log(100.0)) > 10 * se
+
+
+def test_mcmc_with_three_rock_stick_breaking_matches_exact():
+    # three rock fractions sampled as stick-breaking logits: posterior means of every fraction
+    # against the exact path (which draws through from_unit and never uses the density)
+    layer = bc.Layer("lc", top_km=4.0, bottom_km=6.0, water_depth_km=3.0, vp=(7.0, 0.1))
+    kw = dict(rocks=("gabbro", "harzburgite", "altered_gabbro"),
+              priors={"porosity": 0.0, "melt_fraction": 0.0, "serpentinization": 0.0})
+    ex = bc.exact_layer(layer, seed=3, **kw)
+    mc = bc.invert_layer(layer, seed=4, min_ess=1000, evidence=False, **kw)
+    assert mc.diagnostics["converged"]
+    for name in kw["rocks"]:
+        s_mc, s_ex = mc.summary.loc[name], ex.summary.loc[name]
+        _, se_mc, _ = ensemble_mcse(mc.idata.posterior[name].values)
+        se = np.hypot(se_mc, s_ex["sd"] / np.sqrt(s_ex["ess_bulk"]))
+        assert abs(s_mc["mean"] - s_ex["mean"]) <= 4 * se, (name, s_mc["mean"], s_ex["mean"], se)
+    # not vacuous: the data moved the harzburgite fraction away from its prior mean, 1/3
+    assert abs(ex.summary.loc["harzburgite", "mean"] - 1 / 3) > 10 * se

@@ -175,8 +175,9 @@ def test_summary_reuses_the_row_of_an_identical_quantity():
 
 @pytest.mark.parametrize("alpha", [(1.0, 1.0, 1.0), (2.0, 3.0, 5.0)])
 def test_layer_log_prior_against_scipy(alpha):
-    """The prior density of the sampled coordinates: scipy's Dirichlet of the three fractions
-    (the last one implied) times the uniform scalar priors; -inf off the simplex."""
+    """The prior density of the sampled coordinates of three rock fractions (stick-breaking
+    logits, inference/coordinates.py): scipy's Dirichlet of the fractions times the Jacobian
+    of the map, here by central differences, times the uniform temperature prior."""
     from scipy import stats
 
     import bayescrust as bc
@@ -186,16 +187,34 @@ def test_layer_log_prior_against_scipy(alpha):
     m = LayerModel.build(layer, rocks=("basalt", "gabbro", "harzburgite"),
                          priors={"fractions": bc.priors.Dirichlet(list(alpha)),
                                  "porosity": 0.0, "melt_fraction": 0.0,
-                                 "serpentinization": 0.0})
+                                 "serpentinization": 0.0, "aspect_ratio": 0.1})
     assert m.parameter_names == ("basalt", "gabbro", "temperature_c")
     rng = np.random.default_rng(3)
     theta = m.sample_prior(rng, 200)
     lo, hi = m.scalar_priors["temperature_c"].bounds
-    f = np.column_stack([theta[:, :2], 1.0 - theta[:, :2].sum(axis=1)])
-    ref = stats.dirichlet(alpha).logpdf(f.T) - np.log(hi - lo)
-    np.testing.assert_allclose(m.log_prior(theta), ref, rtol=1e-12)
+
+    def head(z):  # the first two fractions, by stick-breaking written out
+        v0, v1 = 1 / (1 + np.exp(-z[:, 0])), 1 / (1 + np.exp(-z[:, 1]))
+        return np.column_stack([v0, (1 - v0) * v1])
+
+    h = 1e-6
+    jac = np.empty((theta.shape[0], 2, 2))
+    for j in range(2):
+        up, dn = theta.copy(), theta.copy()
+        up[:, j] += h
+        dn[:, j] -= h
+        jac[:, :, j] = (head(up) - head(dn)) / (2 * h)
+    f2 = head(theta)
+    f = np.column_stack([f2, 1.0 - f2.sum(axis=1)])
+    np.testing.assert_allclose(m.fractions(theta), f, rtol=1e-12, atol=1e-15)
+    ref = (stats.dirichlet(alpha).logpdf(f.T) + np.log(np.abs(np.linalg.det(jac)))
+           - np.log(hi - lo))
+    np.testing.assert_allclose(m.log_prior(theta), ref, rtol=1e-7)
+    # prior draws through the map: the fractions' means are scipy's Dirichlet means
+    draws = m.fractions(m.sample_prior(rng, 20000))
+    np.testing.assert_allclose(draws.mean(axis=0), stats.dirichlet(alpha).mean(), atol=0.01)
     off = theta[:5].copy()
-    off[:, 0] = 1.2  # the implied third fraction is negative
+    off[:, 2] = hi + 1.0  # temperature outside its prior
     assert np.all(m.log_prior(off) == -np.inf)
 
 
