@@ -148,8 +148,11 @@ def kde_move(bandwidth_factor=None):
             # argument handling (a tenth of the move's cost)
             x = c.copy().T
             x -= x.mean(axis=1)[:, None]
-            cov = np.dot(x, x.T)
+            with np.errstate(over="ignore", invalid="ignore"):
+                cov = np.dot(x, x.T)
             cov *= np.true_divide(1, m - 1)
+            if not np.all(np.isfinite(cov)):  # walkers beyond the float range (an improper
+                return s.copy(), np.full(s.shape[0], -np.inf)  # posterior): propose nothing
             try:
                 chol = np.linalg.cholesky(cov * h * h)
             except np.linalg.LinAlgError:

@@ -130,3 +130,18 @@ def test_kde_move_density_ratio_equals_scipy_gaussian_kde():
     # proposals from x with the complementary set c: factor = log q(x) - log q(x')
     q, factor = move.get_proposal(x, [c], np.random.RandomState(1))
     np.testing.assert_allclose(factor, kde.logpdf(x.T) - kde.logpdf(q.T), rtol=1e-9, atol=1e-9)
+
+
+def test_kde_move_proposes_nothing_when_walkers_overflow():
+    # walkers that ran off to ~1e200 (an improper posterior) make the covariance overflow: the
+    # move rejects (factor -inf, walkers unchanged) without a floating-point warning (the test
+    # suite turns warnings into errors) and without NaN proposals
+    from bayescrust.inference.moves import kde_move
+
+    rng = np.random.default_rng(5)
+    c = rng.normal(size=(32, 3))
+    c[:4, 0] = 1e200
+    x = rng.normal(size=(6, 3))
+    q, factor = kde_move().get_proposal(x, [c], np.random.RandomState(1))
+    assert np.all(factor == -np.inf)
+    np.testing.assert_array_equal(q, x)
