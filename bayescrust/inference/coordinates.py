@@ -94,21 +94,20 @@ class Coordinates:
 
     def __post_init__(self):
         k, pr = self.n_fractions, self.priors
-        logs = {p for p in self.free if p != "temperature_c"
-                and getattr(pr[p], "log_scale", False)}
+        bounded = {p for p in self.free if p != "temperature_c"
+                   and math.isfinite(pr[p].bounds[0]) and math.isfinite(pr[p].bounds[1])}
+        # log-scale priors on a bounded positive support (LogUniform)
+        logs = {p for p in bounded if getattr(pr[p], "log_scale", False) and pr[p].bounds[0] > 0}
         paired = {a: s for a, s in AMOUNT_SHAPE if s in logs and a in self.free}
         col = {p: k + j for j, p in enumerate(self.free)}
         coords = {}
         for p in self.free:
             lo, hi = pr[p].bounds
-            bounded = p != "temperature_c" and math.isfinite(lo) and math.isfinite(hi)
             if p in paired:
                 coords[p] = _Coord(col[p], "paired", shape_col=col[paired[p]])
-            elif p in logs and bounded and lo > 0:
-                coords[p] = _Coord(col[p], "logit_log", math.log(lo), math.log(hi))
             elif p in logs:
-                coords[p] = _Coord(col[p], "log")
-            elif bounded:
+                coords[p] = _Coord(col[p], "logit_log", math.log(lo), math.log(hi))
+            elif p in bounded:
                 coords[p] = _Coord(col[p], "logit", lo, hi)
             else:
                 coords[p] = _Coord(col[p], "linear")
@@ -142,14 +141,12 @@ class Coordinates:
 
     # ------------------------------------------------------------------ decoding
     def ln_value(self, theta, c: _Coord):
-        """ln(value) of a ``log``, ``logit_log`` or ``paired`` coordinate."""
+        """ln(value) of a ``logit_log`` or ``paired`` coordinate."""
         z = theta[:, c.col]
         if c.kind == "paired":
             return z - np.log1p(PORE_CROSSOVER * np.exp(-self.ln_value(
                 theta, self._shape(c))))
-        if c.kind == "logit_log":
-            return c.lo + (c.hi - c.lo) * special.expit(z)
-        return z
+        return c.lo + (c.hi - c.lo) * special.expit(z)
 
     def _shape(self, c: _Coord) -> _Coord:
         return next(s for s in self.coords.values() if s.col == c.shape_col)

@@ -385,10 +385,9 @@ class LayerModel:
 
     @property
     def log_coordinates(self) -> tuple[str, ...]:
-        """Free scalar parameters sampled through ln(value) (log-scale priors; for a bounded
-        one, the logit of ln x), the paired amounts excepted."""
-        c = self.coordinates
-        return tuple(p for p in self.free if p in c.names("log") + c.names("logit_log"))
+        """Free scalar parameters sampled through ln(value): log-scale priors on a bounded
+        positive support, as the logit of ln x (the paired amounts excepted)."""
+        return self.coordinates.names("logit_log")
 
     @property
     def paired_coordinates(self) -> dict[str, str]:
