@@ -4,7 +4,8 @@ Prints, from one run:
 
 - the resident memory (VmHWM) of importing each dependency alone, each in a fresh process;
 - the peak memory and wall time of one fresh-process ``invert_layer`` (imports included), and of
-  the same call once the process is warm;
+  the same call once the process is warm; the resident memory split into mapped library files
+  and anonymous pages, and a warm call's own peak allocation (``tracemalloc``);
 - a warm call split into sections (model set-up, start, sampling: log-probability / emcee and
   moves / convergence checks; summaries, idata, predictive check), by wrapping the functions;
 - emcee's own per-step cost on a trivial log-probability with the driver's moves.
@@ -28,9 +29,11 @@ IMPORTS = ("numpy", "scipy.stats", "pandas", "emcee", "xarray", "matplotlib.pypl
            "arviz", "bayescrust", "bayescrust.physics._accel")
 
 _HWM = """
-def _hwm():
+def _status(key):
     with open('/proc/self/status') as fh:
-        return next(int(x.split()[1]) / 1024 for x in fh if x.startswith('VmHWM'))
+        return next(int(x.split()[1]) / 1024 for x in fh if x.startswith(key + ':'))
+def _hwm():
+    return _status('VmHWM')
 """
 
 _RUN = _HWM + """
@@ -44,7 +47,12 @@ r = bc.invert_layer(layer, seed=SEED, min_ess=2000, **kw)
 t1 = time.perf_counter()
 r = bc.invert_layer(layer, seed=SEED, min_ess=2000, **kw)
 t2 = time.perf_counter()
-print(t1 - t0, t2 - t1, r.diagnostics["n_steps"], _hwm())
+code, data = _status('RssFile'), _status('RssAnon')
+import tracemalloc  # a third, traced run (tracing slows it): its own peak allocation
+tracemalloc.start()
+bc.invert_layer(layer, seed=SEED, min_ess=2000, **kw)
+run_peak = tracemalloc.get_traced_memory()[1] / 2**20
+print(t1 - t0, t2 - t1, r.diagnostics["n_steps"], _hwm(), code, data, run_peak)
 """
 
 
@@ -71,9 +79,13 @@ def main(argv=None) -> int:
               else f"  {mod:28s} not importable")
     out = subprocess.run([sys.executable, "-c", _RUN.replace("SEED", str(args.seed))],
                          capture_output=True, text=True, check=True)
-    cold, warm, steps, hwm = (float(x) for x in out.stdout.split())
+    cold, warm, steps, hwm, code, data, run_peak = (float(x) for x in out.stdout.split())
     print(f"fresh process: first invert_layer {cold:.2f} s (imports included), second "
           f"{warm:.2f} s ({steps:.0f} steps); peak RSS {hwm:.0f} MiB")
+    # where the resident memory is: mapped library files, the process's own pages, and what
+    # one warm run itself allocated at its peak (tracemalloc sees numpy's arrays)
+    print(f"  after two runs: RSS of mapped files {code:.0f} MiB, anonymous {data:.0f} MiB;"
+          f" a warm run's own allocations peak at {run_peak:.0f} MiB")
 
     import bayescrust as bc
     from bayescrust.inference import api, sampler
