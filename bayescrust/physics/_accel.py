@@ -3,7 +3,7 @@ settings, the whole forward model in one loop (:func:`forward`).
 
 Imported only when numba is installed and :func:`bayescrust.physics._jit.enabled` is true. The
 physics is not restated here: the kernels call the same functions as the numpy reference
-(:func:`bayescrust.physics.inclusions._pq`, the mineral-state formulas of
+(:func:`bayescrust.physics.spheroids._pq`, the mineral-state formulas of
 :mod:`bayescrust.physics.minerals`), which :func:`~bayescrust.physics._jit.jitable` lets numba
 compile. What is here is the loop over elements that numpy does with whole-array operations:
 the same equations, step rule, limits and order of floating-point operations, so that the
@@ -32,10 +32,10 @@ from ._jit import JITABLE
 from .anelastic import _band_factors, _j02_q_inv
 from .dem_flow import _dry_dem
 from .fluids import _brine, _melt
-from .inclusions import _geometry_terms, _pq, _theta_f1
 from .minerals import _state_formula, _table_columns
 from .pores import _close, _gassmann_k
 from .serpentinization import _hs_upper
+from .spheroids import _geometry_terms, _pq, _theta_f1
 
 # the shared physics functions become callable from compiled code (they stay the same objects)
 for _fn in JITABLE:
@@ -49,7 +49,7 @@ _FASTMATH = {"nsz", "arcp", "contract", "afn", "reassoc"}
 
 # Few arguments per compiled call: numba's dispatcher types every argument on every call
 # (microseconds each), which is most of a batch-1 call. Inputs are packed into one array each.
-_N_GEO = 15  # aspect-only terms of inclusions._geometry
+_N_GEO = 15  # aspect-only terms of spheroids._geometry
 _K, _G, _W, _GEO = 0, 1, 2, 3  # rows of the packed inclusion array
 
 
@@ -138,7 +138,7 @@ def dem(km, gm, k_i, g_i, w, t_end, geo, n_steps, log_change, max_steps, solid_f
     """The DEM integration of :func:`inclusions._dem` by the compiled loop over elements.
 
     ``km, gm, t_end`` shape (n,); ``k_i, g_i, w`` shape (m, n) (inclusion axis first, weights
-    w_i = x_i / phi); ``geo`` shape (15, m, n) from :func:`inclusions._geometry`. ``n_steps``
+    w_i = x_i / phi); ``geo`` shape (15, m, n) from :func:`spheroids._geometry`. ``n_steps``
     None chooses the step count per element from its stiffness (the rule of
     :func:`inclusions._dem`, with ``log_change`` = DEM_LOG_CHANGE_PER_STEP, ``max_steps`` =
     DEM_MAX_STEPS, ``solid_factor`` = DEM_SOLID_INCLUSION_FACTOR); an integer forces that many
@@ -472,7 +472,7 @@ def _drop_stale_cache(kernels=(_dem_loop, _mineral_state_loop, _dem_rate1,
     """Delete numba's cached machine code of this module when a shared physics function changed.
 
     numba's on-disk cache is keyed on this file only: an edit of a :func:`~._jit.jitable`
-    function in another module (e.g. :func:`inclusions._pq`) would otherwise leave the old
+    function in another module (e.g. :func:`spheroids._pq`) would otherwise leave the old
     physics compiled in, and so would an edit of a data table whose numbers are module-level
     constants of those functions (e.g. the Batzle & Wang coefficients). A hash of the source of
     every module holding a jitable function and of ``data/*.toml`` is kept beside the cache; a

@@ -46,7 +46,8 @@ import math
 import numpy as np
 
 from ._jit import jitable, switch
-from .inclusions import _TINY, _geometry, _pq
+from .inclusions import _TINY
+from .spheroids import _geometry, _pq
 
 #: Aspect ratios tabulated: oblate pores and cracks (down to the 1e-6 that crack closure can
 #: leave, see pores.close_cracks) and spheres.
@@ -69,7 +70,7 @@ NEAR_ZONE = 1e-4
 
 
 def _pq_dry(x, geo):
-    """P, Q of empty inclusions in a host with ln(G/K) = x (``geo`` from inclusions._geometry)."""
+    """P, Q of empty inclusions in a host with ln(G/K) = x (``geo`` from spheroids._geometry)."""
     e = np.exp(x)
     return _pq(0.0, 0.0, 3.0 * e / (3.0 + 4.0 * e), geo)
 

@@ -15,7 +15,7 @@ import functools
 import numpy as np
 import pytest
 
-from bayescrust.physics import _jit, dem_flow, inclusions, minerals
+from bayescrust.physics import _jit, dem_flow, inclusions, minerals, spheroids
 
 pytest.importorskip("numba")
 
@@ -284,14 +284,14 @@ def test_other_settings_take_the_numpy_path(settings):
 
 
 def test_scalar_spheroid_geometry_equals_the_array_form():
-    # inclusions._theta_f1 (one aspect ratio, branches) against _theta_f (masks): oblate,
+    # spheroids._theta_f1 (one aspect ratio, branches) against _theta_f (masks): oblate,
     # the series about the sphere, and prolate
     from numba import njit
 
     alpha = np.r_[np.logspace(-4, 4, 161), 0.95, 0.999, 1.0, 1.001, 1.05]
-    theta1 = njit(lambda a: inclusions._theta_f1(a))
+    theta1 = njit(lambda a: spheroids._theta_f1(a))
     got = np.array([theta1(a) for a in alpha])
-    ref = np.stack(inclusions._theta_f(alpha), axis=-1)
+    ref = np.stack(spheroids._theta_f(alpha), axis=-1)
     np.testing.assert_allclose(got, ref, rtol=1e-13, atol=1e-15)
 
 
