@@ -1,4 +1,5 @@
-"""Rock recipes and the forward model: rock, P, T, pores, melt, serpentine -> Vp, Vs, density.
+"""The forward model: rock, P, T, pores, melt, serpentine -> Vp, Vs, density (the rock
+recipes are in :mod:`~.recipes`).
 
 The forward model chains the physics modules in a fixed order:
 
@@ -15,10 +16,8 @@ Serpentinisation replaces, by volume, a fraction of each ultramafic rock by serp
 
 from __future__ import annotations
 
-import difflib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
-from types import MappingProxyType
 
 import numpy as np
 
@@ -34,7 +33,8 @@ from . import (
     serpentinization,
 )
 from ._checks import as_float_array, check_range
-from ._data import CELSIUS_TO_KELVIN, load_table
+from ._data import CELSIUS_TO_KELVIN
+from .recipes import ROCKS, Rock, _custom_rock, _resolve_rock, list_rocks
 
 __all__ = [
     "ROCKS",
@@ -46,134 +46,9 @@ __all__ = [
     "rock_properties",
 ]
 
-_ROCK_DATA = load_table("rocks")
-#: Mafic minerals, and the fraction of them at or above which a custom mineral mix counts as
-#: ultramafic (``[classification]`` of ``data/rocks.toml``: IUGS, Le Maitre et al. 2002).
-_ULTRAMAFIC_MINERALS = tuple(str(m) for m in _ROCK_DATA["classification"]["ultramafic_minerals"])
-_ULTRAMAFIC_THRESHOLD = float(_ROCK_DATA["classification"]["ultramafic_threshold"])
 _SERPENTINITE_OF = {"lizardite": "serpentinite", "antigorite": "antigorite_serpentinite"}
 _CHUNK = 4096  # elements per block: cache-sized temporaries; at batch 1e5 this ran 1.5-1.7x
 # faster than one whole-batch pass (solid rock 1.1e6 vs 0.66e6 evals/s, with pores 3.1e5 vs 2.3e5)
-
-
-@dataclass(frozen=True)
-class Rock:
-    """A rock recipe: modal mineralogy by volume.
-
-    Attributes
-    ----------
-    name : str
-        Identifier.
-    modes : mapping of str to float
-        Mineral name -> volume fraction (sums to 1); a read-only mapping, so a recipe cannot be
-        changed after construction (a plain dict passed in is copied).
-    ultramafic : bool
-        Whether ``serpentinization`` applies to this rock.
-    description, source, tag : str
-        Provenance of the recipe.
-    """
-
-    name: str
-    modes: Mapping[str, float]
-    ultramafic: bool
-    description: str = ""
-    source: str = ""
-    tag: str = ""
-
-    def __post_init__(self):
-        object.__setattr__(self, "modes", MappingProxyType(dict(self.modes)))
-
-    def __reduce__(self):
-        # a mappingproxy does not pickle: rebuild from a plain copy (forward models are pickled
-        # to worker processes)
-        return (
-            type(self),
-            (self.name, dict(self.modes), self.ultramafic, self.description, self.source,
-             self.tag),
-        )
-
-
-def _load_rocks() -> dict[str, Rock]:
-    table = _ROCK_DATA["rocks"]
-    out = {}
-    for name, row in table.items():
-        modes = {str(k): float(v) for k, v in row["modes"].items()}
-        unknown = set(modes) - set(minerals.MINERALS)
-        if unknown or abs(sum(modes.values()) - 1.0) > 1e-9:
-            raise ValueError(
-                f"rocks.toml: rocks.{name}.modes: unknown minerals {sorted(unknown)} or "
-                f"fractions summing to {sum(modes.values())}, expected 1"
-            )
-        out[name] = Rock(
-            name=name,
-            modes=modes,
-            ultramafic=bool(row["ultramafic"]),
-            description=row.get("description", ""),
-            source=row.get("source", ""),
-            tag=row.get("tag", ""),
-        )
-    return out
-
-
-#: Built-in rock recipes, by name.
-ROCKS: dict[str, Rock] = _load_rocks()
-
-
-def list_rocks() -> list[dict]:
-    """List the built-in rocks with their modal mineralogy and sources.
-
-    Returns
-    -------
-    list of dict
-        One entry per rock: ``name``, ``description``, ``modes``, ``ultramafic``, ``source``,
-        ``tag``.
-
-    Examples
-    --------
-    >>> names = [r["name"] for r in list_rocks()]
-    >>> "gabbro" in names and "harzburgite" in names
-    True
-    """
-    return [
-        {
-            "name": r.name,
-            "description": r.description,
-            "modes": dict(r.modes),
-            "ultramafic": r.ultramafic,
-            "source": r.source,
-            "tag": r.tag,
-        }
-        for r in ROCKS.values()
-    ]
-
-
-def _resolve_rock(item) -> Rock:
-    if isinstance(item, Rock):
-        return item
-    if isinstance(item, str):
-        if item not in ROCKS:
-            near = difflib.get_close_matches(item, list(ROCKS), n=1)
-            hint = f" (did you mean {near[0]!r}?)" if near else ""
-            raise ValueError(f"unknown rock {item!r}{hint}; known rocks: {', '.join(ROCKS)}")
-        return ROCKS[item]
-    raise ValueError(f"rock must be a rock name or a Rock; got {item!r}")
-
-
-def _custom_rock(modes: Mapping[str, float]) -> Rock:
-    """A rock from a mapping of mineral name -> constant volume fraction."""
-    for name in modes:
-        if name not in minerals.MINERALS:
-            near = difflib.get_close_matches(name, list(minerals.MINERALS), n=1)
-            hint = f" (did you mean {near[0]!r}?)" if near else ""
-            raise ValueError(
-                f"unknown mineral {name!r}{hint}; known minerals: {', '.join(minerals.MINERALS)}"
-            )
-    fr = {k: float(check_range(f"fraction of {k}", v, 0.0, 1.0)) for k, v in modes.items()}
-    total = sum(fr.values())
-    if abs(total - 1.0) > 1e-6:
-        raise ValueError(f"mineral fractions must sum to 1; got {total:.6g}")
-    um = sum(fr.get(m, 0.0) for m in _ULTRAMAFIC_MINERALS) >= _ULTRAMAFIC_THRESHOLD
-    return Rock(name="custom", modes=fr, ultramafic=um, description="user mineral mix")
 
 
 @dataclass(frozen=True)
