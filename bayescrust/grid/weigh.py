@@ -98,7 +98,7 @@ def node_loglik(model, q, values, sigmas, dtype=np.float64):
     """
     from scipy import special
 
-    from ..inference.model import MODEL_ERROR_CORRELATION
+    from ..inference.likelihood import MODEL_ERROR_CORRELATION
 
     total = None
     ens = False

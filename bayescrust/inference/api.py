@@ -225,7 +225,8 @@ def invert_layer(
     model_error : float or dict, optional
         Forward-model error as a fraction of the predicted value (one number, or per quantity),
         added in quadrature to each sigma. Default
-        :data:`bayescrust.inference.model.DEFAULT_MODEL_ERROR` (1 % velocities, 0.5 % density).
+        :data:`bayescrust.inference.likelihood.DEFAULT_MODEL_ERROR`, the misfit measured
+        against published laboratory velocities (docs/physics.md).
     likelihood : {"gaussian", "student_t"}
         ``student_t`` uses a t distribution with ``nu`` degrees of freedom and the total sigma
         as scale.

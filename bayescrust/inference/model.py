@@ -1,4 +1,5 @@
-"""The layer model: parameters, priors with physical constraints, likelihood, log-probability.
+"""The layer model: parameters, priors with physical constraints, log-probability (the
+likelihood's error model is in :mod:`.likelihood`).
 
 :class:`LayerModel` resolves a user's configuration once (forward model, solidus and serpentine
 stability at the layer's pressure, thermal prior table) and exposes vectorised kernels over a
@@ -21,11 +22,15 @@ from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
-from scipy import special
 
-from ..physics.labdata import MODEL_ERROR as _LAB_MODEL_ERROR
 from .coordinates import Coordinates
-from .layer import OBSERVABLES, Layer
+from .layer import Layer
+from .likelihood import (  # noqa: F401 - DEFAULT_MODEL_ERROR, MODEL_ERROR_CORRELATION re-exported
+    DEFAULT_MODEL_ERROR,
+    MODEL_ERROR_CORRELATION,
+    ObservationErrors,
+    _resolve_model_error,
+)
 from .priors import Dirichlet, LogUniform, Uniform, as_prior
 from .thermal_priors import UniformTemperature, resolve_temperature_prior
 
@@ -72,29 +77,6 @@ DERIVED_QUANTITIES = (
     "serpentine_fraction",
 )
 
-#: Forward-model error as a fraction of the predicted value, per observable.
-#: Measured, not chosen: the RMS misfit of the forward model against the published laboratory
-#: table (``physics/data/lab_rocks.toml``; :data:`bayescrust.physics.labdata.MODEL_ERROR`,
-#: docs/physics.md). It replaces the former 1 % (Vp, Vs, Vp/Vs) / 0.5 % (density) guess.
-DEFAULT_MODEL_ERROR = dict(_LAB_MODEL_ERROR)
-
-
-def _error_correlation(me: dict) -> float:
-    """Correlation of the forward model's fractional Vp and Vs errors.
-
-    The laboratory calibration measures the model's fractional error in Vp (a), Vs (b) and
-    Vp/Vs (c) separately; since ln(Vp/Vs) = ln Vp - ln Vs, c^2 = a^2 + b^2 - 2 rho a b, so
-    rho = (a^2 + b^2 - c^2) / (2 a b) [computed]. Treating the Vp and Vs errors as independent
-    would give Vp/Vs an error of sqrt(a^2 + b^2), wider than measured, and let the model "fit" Vp/Vs
-    pairs no rock produces.
-    """
-    a, b, c = me["vp"], me["vs"], me["vp_vs"]
-    return float(np.clip((a * a + b * b - c * c) / (2 * a * b), 0.0, 0.95))
-
-
-#: Correlation of the default (calibrated) Vp and Vs model errors.
-MODEL_ERROR_CORRELATION = _error_correlation(DEFAULT_MODEL_ERROR)
-
 # Rock families used by derived quantities, default hypotheses and the solidus mix.
 _GABBROIC = ("gabbro", "altered_gabbro", "olivine_gabbro", "troctolite")
 _BASALTIC = ("basalt", "diabase")
@@ -134,35 +116,8 @@ def default_priors(layer: Layer, rock_names, ultramafic) -> dict:
     }
 
 
-def _resolve_model_error(model_error, observed) -> dict[str, float]:
-    if model_error is None:
-        return {k: DEFAULT_MODEL_ERROR[k] for k in observed}
-    if isinstance(model_error, dict):
-        unknown = set(model_error) - set(OBSERVABLES)
-        if unknown:
-            raise ValueError(
-                f"model_error: unknown quantity {sorted(unknown)}; allowed {list(OBSERVABLES)}"
-            )
-        vals = {k: model_error.get(k, DEFAULT_MODEL_ERROR[k]) for k in observed}
-    else:
-        vals = {k: model_error for k in observed}
-    out = {}
-    for k, v in vals.items():
-        try:
-            v = float(v)
-        except (TypeError, ValueError) as exc:
-            raise ValueError(f"model_error[{k!r}] must be a number; got {v!r}") from exc
-        if not math.isfinite(v) or not 0.0 <= v <= 0.5:
-            raise ValueError(
-                f"model_error[{k!r}] must be in [0, 0.5] (fraction of the predicted value); "
-                f"got {v!r}"
-            )
-        out[k] = v
-    return out
-
-
 @dataclass(frozen=True, eq=False)
-class LayerModel:
+class LayerModel(ObservationErrors):
     """Resolved posterior model of one layer (see module docstring).
 
     Build with :meth:`LayerModel.build`; the constructor only stores values.
@@ -514,75 +469,6 @@ class LayerModel:
                 **({} if self.pore_pressure_gpa is None
                    else {"pore_pressure_gpa": self.pore_pressure_gpa}),
             )
-
-    def total_sigma(self, name: str, predicted) -> np.ndarray:
-        """Likelihood scale of observable ``name``: measurement and forward-model error in
-        quadrature, ``sqrt(sigma_obs^2 + (model_error * predicted)^2)``.
-
-        The model error is a fraction of the *predicted* value, so the likelihood is a proper
-        density in the observation (evidences and charts over observed values compare).
-        """
-        s = self.observed[name][1]
-        return np.sqrt(s * s + (self.model_error[name] * np.asarray(predicted)) ** 2)
-
-    def log_likelihood_terms(self, pred: dict, observed: dict | None = None) -> dict:
-        """Per-datum log-likelihood of predictions (arrays broadcasting together).
-
-        ``observed`` (``{name: value}``) defaults to the layer's observed values; arrays of
-        values broadcast against the predictions (used by the batched exact path).
-        """
-        obs = {k: v for k, (v, _) in self.observed.items()} if observed is None else observed
-        out = {}
-        for k, y in obs.items():
-            sig = self.total_sigma(k, pred[k])
-            mean = pred[k]
-            if k == "vs" and self._correlated(obs):
-                # Gaussian model errors of Vp and Vs correlated (MODEL_ERROR_CORRELATION): the
-                # joint density factorises as p(vp) p(vs | vp), so the Vs term is conditional
-                c = (MODEL_ERROR_CORRELATION * self.model_error["vp"] * self.model_error["vs"]
-                     * np.asarray(pred["vp"]) * np.asarray(pred["vs"]))
-                sig_p = self.total_sigma("vp", pred["vp"])
-                mean = pred["vs"] + c / sig_p**2 * (np.asarray(obs["vp"]) - pred["vp"])
-                sig = np.sqrt(np.maximum(sig * sig - (c / sig_p) ** 2, 1e-300))
-            z = (np.asarray(y) - mean) / sig
-            if self.likelihood == "gaussian":
-                ll = -0.5 * z * z - np.log(sig) - 0.5 * math.log(2 * math.pi)
-            else:
-                nu = self.nu
-                c = (special.gammaln(0.5 * (nu + 1)) - special.gammaln(0.5 * nu)
-                     - 0.5 * math.log(nu * math.pi) - np.log(sig))
-                ll = c - 0.5 * (nu + 1) * np.log1p(z * z / nu)
-            out[k] = np.where(np.isfinite(ll), ll, -np.inf)
-        return out
-
-    def simulate_observations(self, pred: dict, rng: np.random.Generator) -> dict:
-        """Observations drawn from the likelihood at predictions ``pred`` (one per element).
-
-        The same law as :meth:`log_likelihood_terms`: measurement and model error in
-        quadrature, the Vp and Vs model errors correlated (Vs drawn given the simulated Vp),
-        Gaussian or Student-t noise. Used for simulation-based calibration.
-        """
-        obs = self.observed
-        out = {}
-        for k in sorted(obs, key=lambda name: name != "vp"):
-            mean = np.asarray(pred[k], float)
-            sig = self.total_sigma(k, mean)
-            if k == "vs" and self._correlated(obs):
-                c = (MODEL_ERROR_CORRELATION * self.model_error["vp"] * self.model_error["vs"]
-                     * np.asarray(pred["vp"]) * mean)
-                sig_p = self.total_sigma("vp", pred["vp"])
-                mean = mean + c / sig_p**2 * (out["vp"] - pred["vp"])
-                sig = np.sqrt(np.maximum(sig * sig - (c / sig_p) ** 2, 1e-300))
-            noise = (rng.standard_normal(mean.shape) if self.likelihood == "gaussian"
-                     else rng.standard_t(self.nu, size=mean.shape))
-            out[k] = mean + sig * noise
-        return out
-
-    def _correlated(self, obs) -> bool:
-        """Whether the Vs term is conditional on Vp (Gaussian likelihood, both observed, no
-        separate Vp/Vs datum); Student-t errors are treated as independent."""
-        return (self.likelihood == "gaussian" and "vp" in obs and "vs" in obs
-                and "vp_vs" not in obs and MODEL_ERROR_CORRELATION > 0.0)
 
     def log_prob(self, theta) -> np.ndarray:
         """Log posterior density (unnormalised) of sampled points (n, ndim), vectorised.

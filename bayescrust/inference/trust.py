@@ -100,7 +100,7 @@ def _pair_ratio_check(model, q: dict) -> dict:
     the covariance of the correlated model errors (first-order propagation; Gaussian
     replicates, also used for the Student-t as an approximation).
     """
-    from .model import MODEL_ERROR_CORRELATION
+    from .likelihood import MODEL_ERROR_CORRELATION
 
     (yp, _), (ys, _) = model.observed["vp"], model.observed["vs"]
     mp = np.asarray(q["vp"], float).ravel()

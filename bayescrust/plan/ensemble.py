@@ -174,7 +174,7 @@ def ensemble_from_design(model, hypotheses, rng, n_points=2**14, *, model_error=
 
 def _model_errors(model, user):
     from ..inference.layer import OBSERVABLES
-    from ..inference.model import _resolve_model_error
+    from ..inference.likelihood import _resolve_model_error
 
     out = dict(_resolve_model_error(user, dict.fromkeys(OBSERVABLES)))
     out.update(model.model_error)
@@ -213,7 +213,7 @@ def ensemble_from_result(result, hypotheses=None, *, model=None, model_error=Non
     me = _model_errors(model, model_error) if model is not None else dict(
         result.settings.get("model_error", {}))
     if model is None:
-        from ..inference.model import DEFAULT_MODEL_ERROR
+        from ..inference.likelihood import DEFAULT_MODEL_ERROR
 
         me = {**DEFAULT_MODEL_ERROR, **me}
     return Ensemble(

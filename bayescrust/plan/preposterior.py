@@ -258,7 +258,7 @@ def _loc_scale(ens, cand, q):
     if (existing is None and other in ens.existing and other in q
             and "vp_vs" not in ens.existing and ens.likelihood == "gaussian"):
         # Vp and Vs model errors are correlated, as in the layer's own likelihood
-        from ..inference.model import MODEL_ERROR_CORRELATION
+        from ..inference.likelihood import MODEL_ERROR_CORRELATION
 
         y_o, s_o = ens.existing[other]
         partner = (q[other], y_o, s_o, ens.model_error.get(other, 0.0), MODEL_ERROR_CORRELATION)
