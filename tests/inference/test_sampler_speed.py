@@ -61,6 +61,29 @@ def test_vectorised_accept_gives_emcee_loop_chain(which):
     assert 0.05 < np.mean(new[2]) < 0.95  # the test exercised both accepts and rejects
 
 
+def test_vectorised_accept_keeps_blobs_like_emcee():
+    """With blobs (a plain emcee sampler whose log-probability returns them) the moves take
+    emcee's own ``update``; chain, log-probability and blobs equal emcee's walker loop."""
+    from bayescrust.inference.sampler import default_moves
+
+    def with_blobs(x):  # emcee's vectorised form: one row (log-prob, blob) per walker
+        return np.column_stack([_toy(x), x[:, 0] ** 2])
+
+    def run(moves):
+        s = emcee.EnsembleSampler(24, 3, with_blobs, moves=moves, vectorize=True)
+        s.random_state = np.random.RandomState(4).get_state()
+        x0 = np.random.default_rng(4).standard_normal((24, 3)) * 0.5
+        s.run_mcmc(x0, 120, progress=False)
+        return s.get_chain(), s.get_log_prob(), s.get_blobs()
+
+    ref = run(_loop_accept(default_moves()))
+    new = run(default_moves())
+    for a, b in zip(ref, new, strict=True):
+        np.testing.assert_array_equal(a, b)
+    # the blobs follow the accepted states
+    np.testing.assert_array_equal(new[2].reshape(new[0].shape[:2]), new[0][..., 0] ** 2)
+
+
 def test_driver_sampler_gives_emcee_chain():
     from bayescrust.inference.sampler import _sampler, default_moves
 
