@@ -339,18 +339,6 @@ class LayerModel(ObservationErrors):
                            {p: self.scalar_priors[p] for p in self.free})
 
     @property
-    def log_coordinates(self) -> tuple[str, ...]:
-        """Free scalar parameters sampled through ln(value): log-scale priors on a bounded
-        positive support, as the logit of ln x (the paired amounts excepted)."""
-        return self.coordinates.names("logit_log")
-
-    @property
-    def paired_coordinates(self) -> dict[str, str]:
-        """Amounts sampled through their pore compliance, ``{amount: shape}``
-        (:data:`.coordinates.PORE_CROSSOVER`)."""
-        return dict(self.coordinates.paired)
-
-    @property
     def ndim(self) -> int:
         """Number of sampled coordinates."""
         return self.n_fraction_dims + len(self.free)

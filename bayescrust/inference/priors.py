@@ -62,7 +62,7 @@ class Prior:
 
     fixed = False
     #: Whether samplers work on ln(x) for this prior (a positive scale spanning decades; see
-    #: ``LayerModel.log_coordinates``).
+    #: ``bayescrust.inference.coordinates``).
     log_scale = False
 
     def logpdf(self, x):  # pragma: no cover - interface

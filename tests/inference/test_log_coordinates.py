@@ -26,7 +26,6 @@ PRIORS = {"porosity": LogUniform(0.01, 0.3), "melt_fraction": 0.0}
 def test_log_coordinate_density_and_map():
     model = LayerModel.build(LAYER_2A, rocks=("basalt", "diabase"),
                              priors={**PRIORS, "aspect_ratio": Uniform(0.05, 1.0)})
-    assert model.log_coordinates == ("porosity",)
     assert model.coordinates.names("logit_log") == ("porosity",)
     assert model.coordinates.names("linear") == ("temperature_c",)
     j = model.parameter_names.index("porosity")
@@ -76,13 +75,13 @@ def test_amount_with_log_shape_is_sampled_as_pore_compliance():
     from bayescrust.inference.coordinates import PORE_CROSSOVER as A
 
     model = LayerModel.build(LAYER_2A, rocks=("basalt", "diabase"), priors=SPREAD)
-    assert model.log_coordinates == ("aspect_ratio",)
-    assert model.paired_coordinates == {"porosity": "aspect_ratio"}
+    assert model.coordinates.names("logit_log") == ("aspect_ratio",)
+    assert model.coordinates.paired == {"porosity": "aspect_ratio"}
     assert model.coordinates.names("paired") == ("porosity",)
     melt = LayerModel.build(LAYER_2A, rocks=("basalt", "diabase"), priors={
         "melt_aspect_ratio": LogUniform(0.01, 0.5), "melt_fraction": Uniform(0, 0.05),
         "aspect_ratio": 0.1})
-    assert melt.paired_coordinates == {"melt_fraction": "melt_aspect_ratio"}
+    assert melt.coordinates.paired == {"melt_fraction": "melt_aspect_ratio"}
     j, ja = model.parameter_names.index("porosity"), model.parameter_names.index("aspect_ratio")
     u = np.random.default_rng(1).random((4000, model.ndim))
     u[0, j] = 0.0  # the quantile of u = 0 is porosity 0: the coordinate must stay finite

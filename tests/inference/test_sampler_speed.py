@@ -259,8 +259,8 @@ def test_layer_log_prior_mixed_priors_against_scipy():
         "melt_aspect_ratio": Beta(2.0, 5.0, 0.01, 0.5)})
     assert m.parameter_names == ("basalt", "temperature_c", "porosity", "aspect_ratio",
                                  "melt_aspect_ratio")
-    assert m.log_coordinates == ("aspect_ratio",)
-    assert m.paired_coordinates == {"porosity": "aspect_ratio"}
+    assert m.coordinates.names("logit_log") == ("aspect_ratio",)
+    assert m.coordinates.paired == {"porosity": "aspect_ratio"}
     assert m.coordinates.names("logit") == ("melt_aspect_ratio",)
     rng = np.random.default_rng(4)
     theta = m.sample_prior(rng, 300)

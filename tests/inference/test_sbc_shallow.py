@@ -37,7 +37,7 @@ def test_sbc_mcmc_shallow_layer_with_pore_shape_spread():
     m = 120
     rng = np.random.default_rng(7)
     sim = LayerModel.build(_layer(), rocks=ROCKS)
-    assert sim.paired_coordinates == {"porosity": "aspect_ratio"}  # the default spread
+    assert sim.coordinates.paired == {"porosity": "aspect_ratio"}  # the default spread
     q_true = sim.quantities(sim.sample_prior(rng, m))
     y_all = sim.simulate_observations(q_true, rng)
     ranks = np.empty((m, len(RANKED)), int)
