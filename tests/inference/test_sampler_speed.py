@@ -156,6 +156,38 @@ def test_layer_log_prob_equals_quantities_path(case):
         np.testing.assert_array_equal(pred[k], q[k])
 
 
+def test_forward_callable_without_rows_takes_the_keyword_path():
+    """A ready forward model without flat rows (a user's compatible callable) is called with
+    keywords; its predictions equal the flat-row path's to the bit."""
+    import bayescrust as bc
+    from bayescrust.inference.model import LayerModel
+    from bayescrust.physics.rocks import ForwardModel
+
+    class NoRows:  # ForwardModel's interface without ``rows``
+        def __init__(self, fm):
+            self._fm = fm
+
+        def __getattr__(self, name):
+            if name == "rows":
+                raise AttributeError(name)
+            return getattr(self._fm, name)
+
+        def __call__(self, *args, **kwargs):
+            return self._fm(*args, **kwargs)
+
+    layer = bc.Layer("l2", top_km=1.0, bottom_km=2.5, water_depth_km=2.5, vp=(5.5, 0.15),
+                     vs=(3.0, 0.1))
+    fm = ForwardModel(rocks=("basalt", "gabbro"))
+    a = LayerModel.build(layer, forward=fm)
+    b = LayerModel.build(layer, forward=NoRows(fm))
+    assert getattr(b.forward, "rows", None) is None
+    theta = a.sample_prior(np.random.default_rng(3), 200)
+    pa, pb = a.predict(theta), b.predict(theta)
+    for k in ("vp", "vs", "density", "vp_vs"):
+        np.testing.assert_array_equal(pa[k], pb[k])
+    np.testing.assert_array_equal(a.log_prob(theta), b.log_prob(theta))
+
+
 def test_numpy_diagnostics_match_arviz_numba_path_and_restore_the_switch():
     """ESS and R-hat on arviz's numpy path equal its numba path to rounding; the switch is
     restored after the block, also when the block raises."""
