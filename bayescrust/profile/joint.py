@@ -82,13 +82,18 @@ class JointModel:
         vs, rho = vp.copy(), vp.copy()
         if np.any(ok):
             f = np.clip(m.fractions(theta[ok]), 0.0, 1.0)
+            pres_ok = np.broadcast_to(pres, ok.shape)[ok]
+            # hydrostatic pore pressure, as LayerModel.predict: cracks close with the effective
+            # pressure (Walsh 1965); without it every crack stayed open (pore = confining)
+            pore = ({} if m.pore_pressure_gpa is None
+                    else {"pore_pressure_gpa": np.minimum(pres_ok, m.pore_pressure_gpa)})
             with np.errstate(all="ignore"):
                 a, b, c = m.forward(
-                    f, q["temperature_c"][ok], np.broadcast_to(pres, ok.shape)[ok],
+                    f, q["temperature_c"][ok], pres_ok,
                     porosity=q["porosity"][ok], aspect_ratio=q["aspect_ratio"][ok],
                     melt_fraction=q["melt_fraction_effective"][ok],
                     melt_aspect_ratio=q["melt_aspect_ratio"][ok],
-                    serpentinization=q["serpentinization_effective"][ok])
+                    serpentinization=q["serpentinization_effective"][ok], **pore)
             vp[ok], vs[ok], rho[ok] = a, b, c
         q.update(vp=vp, vs=vs, density=rho, vp_vs=vp / vs)
         with np.errstate(all="ignore"):
