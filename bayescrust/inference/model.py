@@ -402,15 +402,16 @@ class LayerModel(ObservationErrors):
         s = self.scalars(theta)
         out = {r: f[:, i] for i, r in enumerate(self.rock_names)}
         out.update(s)
+        # sums of fractions are clipped to [0, 1]: fractions from the logit coordinates can
+        # add up to 1 + ulp, which fell out of a class ending at 1 (1.8 % of basalt + diabase)
         for fam, mask in self.families.items():
             if not fam.startswith("_"):
-                out[fam] = f @ mask
+                out[fam] = np.clip(f @ mask, 0.0, 1.0)
         out["solidus_c"], out["melt_fraction_effective"], out["serpentinization_effective"] = (
             self._effective(f, s["temperature_c"], s["melt_fraction"], s["serpentinization"]))
-        out["serpentine_fraction"] = (
+        out["serpentine_fraction"] = np.clip(
             out["serpentinization_effective"] * (f @ self.families["_peridotite"])
-            + f @ self.families["_serpentinite"]
-        )
+            + f @ self.families["_serpentinite"], 0.0, 1.0)
         if predict:
             vp, vs, rho = self._forward(f, out)
             out.update(vp=vp, vs=vs, density=rho, vp_vs=vp / vs)
