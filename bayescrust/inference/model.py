@@ -161,6 +161,7 @@ class LayerModel(ObservationErrors):
         Parameters are those of :func:`bayescrust.invert_layer`.
         """
         from ..physics import thermal
+        from ..physics.inclusions import KT_MAX_POROSITY_OVER_ASPECT
         from ..physics.rocks import ForwardModel
 
         if not isinstance(layer, Layer):
@@ -255,6 +256,20 @@ class LayerModel(ObservationErrors):
             layer.water_depth_km + layer.mid_depth_km)))
         per_sol = float(thermal.peridotite_solidus_c(pressure))
         gab_sol = float(thermal.gabbro_solidus_c(pressure))
+        if getattr(fm, "inclusion_scheme", None) == "kuster_toksoz":
+            # a dilute theory (physics.inclusions.KT_MAX_POROSITY_OVER_ASPECT): a prior reaching
+            # beyond it would be cut silently where the forward model returns NaN
+            b = {p: scalar_priors[p].bounds for p in scalar_priors}
+            worst = (b["porosity"][1] / b["aspect_ratio"][0]
+                     + b["melt_fraction"][1] / b["melt_aspect_ratio"][0])
+            if worst > KT_MAX_POROSITY_OVER_ASPECT:
+                raise ValueError(
+                    "inclusion_scheme 'kuster_toksoz' is a dilute theory: the priors must keep "
+                    "porosity / aspect_ratio + melt_fraction / melt_aspect_ratio <= "
+                    f"{KT_MAX_POROSITY_OVER_ASPECT:g}, but they reach {worst:.3g} (porosity <= "
+                    f"{b['porosity'][1]:g}, aspect_ratio >= {b['aspect_ratio'][0]:g}, "
+                    f"melt_fraction <= {b['melt_fraction'][1]:g}, melt_aspect_ratio >= "
+                    f"{b['melt_aspect_ratio'][0]:g}); narrow them or use 'dem'")
         serp_kind = getattr(fm, "serpentine", "lizardite")
         serp_lim = float(thermal.serpentine_stability_c(pressure, kind=serp_kind))
         # A serpentinite end member exists only below its own stability limit: its fraction

@@ -281,7 +281,13 @@ class ForwardModel:
             sl = slice(start, start + _CHUNK)
             solid[:, sl] = self._solid(f[sl], t_c[sl], p[sl], serp[sl])
         # the inclusion schemes block their own work internally: one call on every row
-        return self._finish(*solid, t_c, p, phi, ar, melt, mar, p_pore)
+        vp, vs, rho = self._finish(*solid, t_c, p, phi, ar, melt, mar, p_pore)
+        if self.inclusion_scheme == "kuster_toksoz":
+            # a dilute theory: rows beyond its limit are not a model result (NaN, which the
+            # inference treats as outside the model); rock_properties refuses them
+            beyond = phi / ar + melt / mar > inclusions.KT_MAX_POROSITY_OVER_ASPECT
+            vp[beyond] = vs[beyond] = rho[beyond] = np.nan
+        return vp, vs, rho
 
     def _solid(self, f, t_c, p, serp):
         """Moduli (GPa) and density of the pore- and melt-free aggregate of flat rows."""
@@ -503,6 +509,13 @@ def rock_properties(
     if np.any(phi + melt > 0.5):
         raise ValueError(
             f"porosity + melt_fraction must be <= 0.5; got {float(np.max(phi + melt)):g}"
+        )
+    dilute = inclusions.KT_MAX_POROSITY_OVER_ASPECT
+    if inclusion_scheme == "kuster_toksoz" and np.any(phi / ar + melt / mar > dilute):
+        raise ValueError(
+            "inclusion_scheme='kuster_toksoz' is a dilute theory: porosity / aspect_ratio + "
+            f"melt_fraction / melt_aspect_ratio must be <= {dilute:g}; got "
+            f"{float(np.max(phi / ar + melt / mar)):g} (use 'dem' or 'self_consistent')"
         )
     fm = ForwardModel(
         rocks=rocks,

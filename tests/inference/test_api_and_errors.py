@@ -117,6 +117,20 @@ def test_bad_priors(priors, match):
         bc.exact_layer(layer, rocks=("gabbro", "harzburgite"), priors=priors)
 
 
+def test_kuster_toksoz_needs_priors_inside_its_dilute_limit():
+    # the default shallow priors (porosity to 0.3, aspect ratio from 0.01) reach 31 times the
+    # dilute limit; they used to be cut silently where the forward model gave NaN
+    from bayescrust.physics.rocks import ForwardModel
+
+    layer = bc.Layer("2A", top_km=0.0, bottom_km=0.5, water_depth_km=3.0, vp=(4.0, 0.1))
+    fm = ForwardModel(rocks=("basalt",), inclusion_scheme="kuster_toksoz")
+    with pytest.raises(ValueError, match="dilute theory.*reach 31"):
+        LayerModel.build(layer, rocks=("basalt",), forward=fm)
+    m = LayerModel.build(layer, rocks=("basalt",), forward=fm, priors={
+        "porosity": bc.priors.Uniform(0.0, 0.05), "aspect_ratio": 0.1, "melt_fraction": 0.0})
+    assert np.all(np.isfinite(m.log_prob(m.sample_prior(np.random.default_rng(0), 200))))
+
+
 def test_bad_prior_constructors_and_hypotheses():
     with pytest.raises(ValueError, match="lower < upper"):
         bc.priors.Uniform(5, 1)
@@ -166,7 +180,8 @@ def test_tabulated_ppf_inverts_cdf_and_dirichlet_transform():
     np.testing.assert_allclose(cdf, [0.1, 0.5, 0.97], atol=1e-8)
     model = LayerModel.build(bc.Layer("lc", vp=(7.1, 0.1), **LOWER),
                              rocks=("gabbro", "harzburgite", "basalt"),
-                             priors={"fractions": bc.priors.Dirichlet([2.0, 3.0, 5.0])},
+                             priors={"fractions": bc.priors.Dirichlet([2.0, 3.0, 5.0]),
+                                     "melt_fraction": 0.0},  # inside KT's dilute limit
                              forward={"inclusion_scheme": "kuster_toksoz"})
     f = model.fractions(model.sample_prior(np.random.default_rng(1), 40000))
     # Dirichlet means alpha / sum(alpha) = (0.2, 0.3, 0.5); 40000 draws: sd of mean < 0.002
