@@ -576,11 +576,12 @@ def apply_stability(rock, *, temperature_c, pressure_gpa, melt_fraction=0.0,
     t = np.asarray(temperature_c, float)
     p = np.asarray(pressure_gpa, float)
     if isinstance(rock, Mapping) and any(k in minerals.MINERALS for k in rock):
-        mantle = _custom_rock(rock).ultramafic  # a mineral mix
+        mantle = peridotite = _custom_rock(rock).ultramafic  # a mineral mix
     else:
         names = list(rock) if isinstance(rock, Mapping) else [rock]
         resolved = [_resolve_rock(r) for r in names]
         mantle = any(r.ultramafic or r.name in _SERPENTINITE_ROCKS for r in resolved)
+        peridotite = any(r.ultramafic for r in resolved)
     solidus = thermal.peridotite_solidus_c(p) if mantle else thermal.gabbro_solidus_c(p)
     messages = []
     melt = np.asarray(melt_fraction, float)
@@ -601,6 +602,10 @@ def apply_stability(rock, *, temperature_c, pressure_gpa, melt_fraction=0.0,
             f"stability limit ({float(np.min(limit)):.0f} deg C); serpentine is effective only "
             "below it, as in the inversion")
         serp = np.where(above, 0.0, serp)
+    if not peridotite and np.any(serp > 0):
+        messages.append(
+            "serpentinization has no effect: it is the serpentinised fraction of the ultramafic "
+            "(peridotite) rocks, and the mix has none")
     serp_rocks = [] if isinstance(rock, Mapping) and any(k in minerals.MINERALS for k in rock) \
         else [r for r in (list(rock) if isinstance(rock, Mapping) else [rock])
               if _resolve_rock(r).name in _SERPENTINITE_ROCKS]

@@ -83,6 +83,14 @@ def test_melt_below_solidus_and_serpentine_above_stability_are_switched_off():
     kw, notes = apply_stability("harzburgite", temperature_c=1300.0, pressure_gpa=0.2,
                                 melt_fraction=0.02)
     assert notes == [] and kw["melt_fraction"] == 0.02
+    # serpentinization is a fraction of the ultramafic rocks: on gabbro it does nothing, and
+    # the forward command says so instead of printing unchanged velocities without a word
+    _, notes = apply_stability("gabbro", temperature_c=100.0, pressure_gpa=0.2,
+                               serpentinization=0.3)
+    assert len(notes) == 1 and "no effect" in notes[0]
+    _, notes = apply_stability("harzburgite", temperature_c=100.0, pressure_gpa=0.2,
+                               serpentinization=0.3)
+    assert notes == []
 
 
 def test_forward_cli_warns(capsys):

@@ -49,6 +49,18 @@ def test_full_serpentinization_gives_serpentinite():
     np.testing.assert_allclose([c.vp, c.vs, c.density], [d.vp, d.vs, d.density], rtol=1e-12)
 
 
+@pytest.mark.parametrize("modes", [{"olivine": 0.7, "augite": 0.3},
+                                   {"olivine_fo75": 0.95, "clinopyroxene": 0.05}])
+def test_olivine_pyroxene_mixes_are_ultramafic(modes):
+    # > 90 % olivine + pyroxene is ultramafic (IUGS: Le Maitre et al. 2002), whichever olivine
+    # and pyroxene entries are used; such mixes ignored serpentinization (Vp unchanged at 0.5)
+    kw = dict(temperature_c=100.0, pressure_gpa=0.2)
+    fresh = rock_properties(modes, **kw)
+    serp = rock_properties(modes, serpentinization=0.5, **kw)
+    # Carlson & Miller (2003): Vp / Vp0 = 1 - s / 2.4, ~0.79 at s = 0.5 (+- 0.05 here)
+    assert abs(serp.vp / fresh.vp - (1 - 0.5 / 2.4)) < 0.05
+
+
 def test_serpentinization_leaves_crustal_rocks_alone():
     kw = dict(temperature_c=150.0, pressure_gpa=0.2)
     a = rock_properties("gabbro", serpentinization=0.7, **kw)
