@@ -233,7 +233,7 @@ def resample_centres(rng, u, weights, n_centres=256):
     return centres
 
 
-def adaptive_design(model, rng, u_centres, n_points, *, uniform_weight=0.2):
+def adaptive_design(model, rng, u_centres, n_points, *, uniform_weight=0.2, quantities=True):
     """Second-stage importance sampling in the prior's unit hypercube.
 
     The proposal is the defensive mixture of :func:`unit_mixture`: ``uniform_weight`` of the
@@ -245,8 +245,8 @@ def adaptive_design(model, rng, u_centres, n_points, *, uniform_weight=0.2):
     -------
     (theta, quantities, log_q, inside)
         ``log_q`` (n,) is the proposal log density; ``theta`` and ``quantities`` cover the
-        ``inside`` points only.
+        ``inside`` points only (``quantities`` is ``None`` with ``quantities=False``).
     """
     u, log_q, inside = unit_mixture(rng, u_centres, n_points, uniform_weight=uniform_weight)
     theta = model.from_unit(np.clip(u[inside], 1e-12, 1 - 1e-12))
-    return theta, model.quantities(theta), log_q, inside
+    return theta, (model.quantities(theta) if quantities else None), log_q, inside
