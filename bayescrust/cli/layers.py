@@ -142,6 +142,7 @@ def study_command(args, run) -> int:
     """Shared shell of ``invert`` and ``compare``: read the study, run into an atomic folder."""
     study = load_study(args.study)
     method = args.method or study.sampler.method
+    defaults_used(study, method)  # every layer's model builds (bad input: exit 2, no folder)
     return folder_command(args, lambda tmp: run(args, study, tmp, method=method,
                                                 figures=not args.no_figures,
                                                 layer_names=args.layer))

@@ -54,6 +54,8 @@ CASES = [
      ["hypotheses.x.temprature_c", "temperature_c"]),
     ("layer names sharing a folder", GOOD + GOOD[GOOD.index("[[layers]]"):].replace(
         'name = "deep"', 'name = "Deep!"'), ["layers[1].name", "folder 'deep'"]),
+    ("dilute scheme beyond its limit", GOOD.replace("[sampler]", '[forward]\ninclusion_scheme = '
+     '"kuster_toksoz"\n[sampler]'), ["layer 'deep'", "dilute theory", "reach 1.3"]),
     ("water deeper than any ocean", GOOD.replace("water_depth_km = 3.0", "water_depth_km = 11.2"),
      ["water_depth_km", "got 11.2"]),
 ]
