@@ -86,7 +86,7 @@ def plan_study_layer(study, layer, *, method="exact", seed=0, candidates=None,
                           n_simulations=simulations or spec.simulations,
                           decisive_probability=spec.decisive_probability,
                           decisive_bayes_factor=spec.decisive_bayes_factor,
-                          rank_by=spec.rank_by, **kw)
+                          rank_by=spec.rank_by or "information_gain_bits", **kw)
     except ValueError as exc:
         raise InputError(f"{study.source}: layer {layer.name!r}: {exc}") from None
 
@@ -188,6 +188,8 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
           "decisive_bayes_factor": spec.decisive_bayes_factor}
     if spec.rank_question:
         kw["rank_question"] = spec.rank_question
+    if spec.rank_by:
+        kw["rank_by"] = spec.rank_by
     if getattr(args, "simulations", None):
         kw["n_simulations"] = args.simulations
     kw.update(options or {})

@@ -71,7 +71,9 @@ class PlanSpec:
     design_points: int = 2**14
     decisive_probability: float = 0.9
     decisive_bayes_factor: float = 10.0
-    rank_by: str = "information_gain_bits"
+    #: ``None``: ``information_gain_bits`` (``interval_narrowing`` for a profile's thermal
+    #: ``rank_question``)
+    rank_by: str | None = None
     candidates: tuple[CandidateSpec, ...] | None = None
     rank_question: str | None = None
 
