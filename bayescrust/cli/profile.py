@@ -33,14 +33,18 @@ def load_profile_study(path):
 
 
 def profile_figure_curves(result, n=60):
-    """Geotherm band, peridotite solidus and serpentine limit against depth (for the figure)."""
+    """Geotherm band, peridotite solidus and serpentine limit against depth (for the figure).
+
+    The serpentine limit is that of the serpentine the layers' forward model used
+    (``result.settings["serpentine"]``; the forward model's default, lizardite, if unknown)."""
     from ..physics import thermal as th
 
     prof = result.profile
     z = np.linspace(0.0, float(prof.bottoms_km[-1]), n)
     p = th.lithostatic_pressure_gpa(z, water_depth_km=prof.water_depth_km)
+    kind = result.settings.get("serpentine") or "lizardite"
     curves = {"solidus": (z, th.peridotite_solidus_c(p)),
-              "serpentine": (z, th.serpentine_stability_c(p, kind="antigorite"))}
+              "serpentine": (z, th.serpentine_stability_c(p, kind=kind))}
     state = prof.thermal
     d = result.draws["thermal"]
     if state.coupled and d:
