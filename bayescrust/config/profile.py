@@ -28,7 +28,9 @@
 
 An optional ``[plan]`` section (:mod:`bayescrust.config.plan`) sets ``bayescrust plan``'s
 candidates for the profile. Errors name the file, the key and the allowed range
-(:class:`StudyError`).
+(:class:`StudyError`): values out of range (layer priors: the layer study's ranges; thermal
+parameters: :data:`THERMAL_RANGES`), and every layer model and thermal state is built once
+while reading, so a setting the run would refuse is refused here.
 """
 
 from __future__ import annotations
@@ -38,9 +40,10 @@ import tomllib
 from dataclasses import dataclass
 
 from .errors import StudyError
+from .limits import PARAMETER_RANGES
 from .reader import Reader
 
-__all__ = ["ProfileStudy", "parse_profile_study", "PROFILE_KEYS"]
+__all__ = ["ProfileStudy", "parse_profile_study", "PROFILE_KEYS", "THERMAL_RANGES"]
 
 PROFILE_KEYS = ("name", "water_depth_km", "pressure", "basement_km", "temperature_range_c",
                 "thermal", "heat_flow", "layers", "compare")
@@ -54,6 +57,22 @@ _THERMAL_PARAMS = {
     "axial": ("lens_depth_km", "mush_offset_c", "conductivity_w_mk", "scatter_c"),
     "uncoupled": ("lo", "hi"),
 }
+#: Allowed values of the thermal parameters: (lo, hi, lo_open, unit). Input sanity limits, not
+#: literature values: the age and mantle temperature as in a layer study's ``[thermal]``
+#: tables, the plate thickness the range of ``physics.thermal.plate_temperature_c``, a positive
+#: conductivity, a mush at or below the solidus (``mush_offset_c <= 0``).
+THERMAL_RANGES = {
+    "age_myr": (0.0, 200.0, True, "Myr"),
+    "mantle_temperature_c": (800.0, 2000.0, False, "deg C"),
+    "plate_thickness_km": (10.0, 300.0, False, "km"),
+    "conductivity_w_mk": (0.0, 10.0, True, "W/m/K"),
+    "lens_depth_km": (0.0, 100.0, True, "km"),
+    "mush_offset_c": (-500.0, 0.0, False, "deg C"),
+    "scatter_c": (0.0, 500.0, True, "deg C"),
+    "lo": (-5.0, 2000.0, False, "deg C"),
+    "hi": (-5.0, 2000.0, False, "deg C"),
+}
+_NUMBER_ONLY = ("scatter_c", "lo", "hi")
 
 
 @dataclass(frozen=True)
@@ -67,17 +86,39 @@ class ProfileStudy:
     plan: object = None
 
 
-def _prior(r: Reader, key, value):
+def _prior(r: Reader, key, value, allowed=None):
+    """A number (fixed) or ``[lo, hi]`` (uniform); ``allowed``: (lo, hi, lo_open, unit)."""
     from ..inference.priors import Uniform
 
+    lim = {} if allowed is None else dict(zip(("lo", "hi", "lo_open", "unit"), allowed,
+                                              strict=True))
     if isinstance(value, list):
         if len(value) != 2:
             r.got(key, value, "a number (fixed) or [lo, hi] (uniform)")
-        lo, hi = (r.number(f"{key}[{i}]", v) for i, v in enumerate(value))
+        lo, hi = (r.number(f"{key}[{i}]", v, **lim) for i, v in enumerate(value))
         if not lo < hi:
             r.fail(key, f"needs lo < hi; got [{lo:g}, {hi:g}]")
         return Uniform(lo, hi)
-    return r.number(key, value)
+    return r.number(key, value, **lim)
+
+
+def _layer_range(q):
+    lo, hi, unit = PARAMETER_RANGES[q]
+    return lo, hi, False, unit
+
+
+def _layer_fail(r: Reader, key, table, profile, i, msg):
+    """Report a layer model's refusal under the key it concerns."""
+    name = profile.names[i]
+    q = next((q for q in _PRIOR_KEYS if msg.startswith(f"priors[{q!r}]")), None)
+    if q is not None and q in table:
+        r.fail(f"{key}.{q}", f"layer {name!r}: {msg}")
+    if msg.startswith("rocks:"):
+        lo, hi = profile.temperature_range_c
+        r.fail(f"{key}.rocks" if "rocks" in table else key,
+               f"layer {name!r}: {msg} (in a profile the temperature prior of every layer is "
+               f"profile.temperature_range_c = [{lo:g}, {hi:g}] deg C)")
+    r.fail(key, f"layer {name!r}: {msg}")
 
 
 def _thermal(r: Reader, key, table, water_depth_km, state_name=None):
@@ -95,8 +136,9 @@ def _thermal(r: Reader, key, table, water_depth_km, state_name=None):
             if state_name is not None:
                 continue  # parameters of the main state that this compared state lacks
             r.keys(key, {k: v}, ("state",) + allowed)
-        kw[k] = (r.number(f"{key}.{k}", v, 0.0, lo_open=True) if k == "scatter_c"
-                 else _prior(r, f"{key}.{k}", v))
+        lo, hi, lo_open, unit = THERMAL_RANGES[k]
+        kw[k] = (r.number(f"{key}.{k}", v, lo, hi, lo_open=lo_open, unit=unit)
+                 if k in _NUMBER_ONLY else _prior(r, f"{key}.{k}", v, THERMAL_RANGES[k]))
     if name == "axial":
         kw["water_depth_km"] = water_depth_km
     try:
@@ -146,7 +188,8 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
         except ValueError as exc:
             r.fail(k, str(exc))
         rocks.append(r.rock_list(f"{k}.rocks", lt["rocks"]) if "rocks" in lt else None)
-        priors.append({q: _prior(r, f"{k}.{q}", lt[q]) for q in _PRIOR_KEYS if q in lt})
+        priors.append({q: _prior(r, f"{k}.{q}", lt[q], _layer_range(q))
+                       for q in _PRIOR_KEYS if q in lt})
     thermal = _thermal(r, "profile.thermal", p.get("thermal", {}), hw)
     hf = None
     if "heat_flow" in p:
@@ -164,6 +207,10 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
     tr = p.get("temperature_range_c", [0.0, 1600.0])
     if not (isinstance(tr, list) and len(tr) == 2):
         r.got("profile.temperature_range_c", tr, "[lo, hi] deg C")
+    t_lo, t_hi = (r.number(f"profile.temperature_range_c[{i}]", tr[i], -5.0, 2000.0,
+                           unit="deg C") for i in (0, 1))
+    if not t_lo < t_hi:
+        r.got("profile.temperature_range_c", tr, "[lo, hi] deg C with lo < hi")
     kw = {}
     if "basement_km" in p:
         kw["basement_km"] = r.number("profile.basement_km", p["basement_km"], 0.0, 100.0)
@@ -172,11 +219,15 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
             layers, thermal, water_depth_km=hw, rocks=rocks, priors=priors, heat_flow=hf,
             pressure=r.string("profile.pressure", p.get("pressure", "overburden"),
                               list(PRESSURE_MODES)),
-            temperature_range_c=(r.number("profile.temperature_range_c[0]", tr[0], -5.0, 2000.0),
-                                 r.number("profile.temperature_range_c[1]", tr[1], -5.0, 2000.0)),
+            temperature_range_c=(t_lo, t_hi),
             name=r.string("profile.name", p.get("name", "profile")), **kw)
     except ValueError as exc:
         r.fail("profile", str(exc))
+    for i, lt in enumerate(raw_layers):  # what the run builds: refuse here what it would refuse
+        try:
+            profile.layer_model(i)
+        except ValueError as exc:
+            _layer_fail(r, f"profile.layers[{i}]", lt, profile, i, str(exc))
     compare = {}
     names = p.get("compare", [])
     if not isinstance(names, list):

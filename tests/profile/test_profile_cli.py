@@ -76,3 +76,31 @@ def test_profile_command_bad_file_exit_code(tmp_path):
     study.write_text(SMALL.replace("sigma = 20.0", "sigma = -1.0"), encoding="utf-8")
     assert main(["profile", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
     assert not (tmp_path / "o").exists()
+
+
+@pytest.mark.parametrize("old, new, key, allowed", [
+    ("porosity = 0.0", "porosity = [0.0, 2.0]", "profile.layers[1].porosity[1]", "[0, 0.5]"),
+    ('vp = [5.5, 0.2]', 'vp = [5.5, 0.2]\nmelt_fraction = 0.9', "profile.layers[0].melt_fraction",
+     "[0, 0.3]"),
+    ('state = "half_space"', 'state = "plate"\nplate_thickness_km = 5.0',
+     "profile.thermal.plate_thickness_km", "[10, 300] km"),
+    ("age_myr = [1.0, 20.0]", "age_myr = [1.0, 20.0]\nmantle_temperature_c = 100.0",
+     "profile.thermal.mantle_temperature_c", "[800, 2000] deg C"),
+    ("age_myr = [1.0, 20.0]", "age_myr = 5000.0", "profile.thermal.age_myr", "(0, 200] Myr"),
+    ("age_myr = [1.0, 20.0]", "age_myr = [1.0, 20.0]\nconductivity_w_mk = -3.0",
+     "profile.thermal.conductivity_w_mk", "(0, 10] W/m/K"),
+    ('vp = [5.5, 0.2]', 'vp = [5.5, 0.2]\nrocks = ["gabbro", "serpentinite"]',
+     "profile.layers[0].rocks", "temperature_range_c = [0, 1600]"),
+    ('compare = ["half_space", "uncoupled"]', "temperature_range_c = [500.0, 400.0]",
+     "profile.temperature_range_c", "lo < hi"),
+])
+def test_profile_values_a_run_would_refuse_are_refused_when_read(tmp_path, capsys, old, new, key,
+                                                                 allowed):
+    assert old in SMALL
+    study = tmp_path / "p.toml"
+    study.write_text(SMALL.replace(old, new), encoding="utf-8")
+    assert main(["profile", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("error") == 1 and "run failed" not in err
+    assert f"{study}: {key}:" in err and allowed in err
+    assert not (tmp_path / "o").exists()
