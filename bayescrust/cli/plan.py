@@ -251,19 +251,10 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
     return pp
 
 
-def _is_profile_study(path) -> bool:
-    import tomllib
-
-    try:
-        return "profile" in tomllib.loads(Path(path).read_text(encoding="utf-8"))
-    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError):
-        return False  # the layer-study reader reports the problem
-
-
 def cmd_plan(args) -> int:
-    if _is_profile_study(args.study):
-        from .profile import load_profile_study
+    from .profile import is_profile_study, load_profile_study
 
+    if is_profile_study(args.study):
         pstudy = load_profile_study(args.study)
         if args.layer or args.method == "mcmc":
             raise InputError(f"{args.study}: --layer and --method mcmc are for layer studies; "

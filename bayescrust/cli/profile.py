@@ -18,7 +18,18 @@ from .shell import (
     write_text,
 )
 
-__all__ = ["add_parser", "cmd_profile", "do_profile", "profile_figure_curves"]
+__all__ = ["add_parser", "cmd_profile", "do_profile", "profile_figure_curves",
+           "is_profile_study", "load_profile_study"]
+
+
+def is_profile_study(path) -> bool:
+    """Whether ``path`` is a readable TOML file with a ``[profile]`` table."""
+    import tomllib
+
+    try:
+        return "profile" in tomllib.loads(Path(path).read_text(encoding="utf-8"))
+    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError):
+        return False  # the layer-study reader reports the problem
 
 
 def load_profile_study(path):

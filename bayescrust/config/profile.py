@@ -43,7 +43,8 @@ from .errors import StudyError
 from .limits import PARAMETER_RANGES
 from .reader import Reader
 
-__all__ = ["ProfileStudy", "parse_profile_study", "PROFILE_KEYS", "THERMAL_RANGES"]
+__all__ = ["ProfileStudy", "parse_profile_study", "profile_study_to_dict", "PROFILE_KEYS",
+           "THERMAL_RANGES"]
 
 PROFILE_KEYS = ("name", "water_depth_km", "pressure", "basement_km", "temperature_range_c",
                 "thermal", "heat_flow", "layers", "compare")
@@ -253,3 +254,68 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
             if isinstance(c, dict) and c.get("layer", names[0]) not in names:
                 r.got(f"plan.candidates[{i}].layer", c["layer"], f"one of {names}")
     return ProfileStudy(profile=profile, compare=compare, seed=seed, source=source, plan=plan)
+
+
+def _prior_value(p):
+    """A prior as the study file writes it: a number (fixed), ``[lo, hi]`` (uniform), else
+    ``None`` (a package default the file format cannot state, e.g. a normal prior)."""
+    from ..inference.priors import Uniform
+
+    if isinstance(p, (int, float)):
+        return float(p)
+    if getattr(p, "fixed", False):
+        return float(p.value)
+    if type(p) is Uniform:
+        return [float(p.lo), float(p.hi)]
+    return None
+
+
+def _thermal_dict(state) -> dict:
+    from ..profile.thermal import THERMAL_STATES
+
+    name = next(k for k, cls in THERMAL_STATES.items() if type(state) is cls)
+    d = {"state": name}
+    if not state.coupled:
+        return {**d, "lo": float(state.lo), "hi": float(state.hi)}
+    default = type(state)()
+    for k in _THERMAL_PARAMS[name]:
+        v, v0 = (_prior_value(s.scatter_c if k == "scatter_c" else s.params[k])
+                 for s in (state, default))
+        if v is not None and v != v0:  # a default stays unwritten: compared states share the
+            d[k] = v                    # table and keep their own defaults
+    return d
+
+
+def profile_study_to_dict(study: ProfileStudy) -> dict:
+    """The profile study as read, with the defaults it resolved (rocks of every layer, the
+    temperature range, the pressure mode, ...), as plain data in the study-file layout.
+
+    Thermal parameters at their defaults are left out (the compared states share the
+    ``[profile.thermal]`` table and keep their own defaults); ``ThermalState.describe()`` is the
+    complete form."""
+    import dataclasses
+
+    prof = study.profile
+    p = {"name": prof.name, "water_depth_km": prof.water_depth_km, "pressure": prof.pressure,
+         "basement_km": prof.basement_km, "temperature_range_c": list(prof.temperature_range_c)}
+    if study.compare:
+        p["compare"] = list(study.compare)
+    p["thermal"] = _thermal_dict(prof.thermal)
+    if prof.heat_flow is not None:
+        p["heat_flow"] = dataclasses.asdict(prof.heat_flow)
+    layers = []
+    for x, rocks, pri in zip(prof.layers, prof.rocks, prof.priors, strict=True):
+        d = {"name": x.name, "top_km": x.top_km, "bottom_km": x.bottom_km}
+        d.update({k: list(v) for k, v in x.observed.items()})
+        d["rocks"] = list(rocks)
+        d.update({k: _prior_value(v) for k, v in pri.items()})
+        layers.append(d)
+    p["layers"] = layers
+    out = {"profile": p}
+    if study.plan is not None:
+        from .plan import plan_dict
+
+        out["plan"] = plan_dict(study.plan)
+    if study.seed is not None:
+        out["run"] = {"seed": study.seed}
+    return out

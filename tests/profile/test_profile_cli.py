@@ -104,3 +104,25 @@ def test_profile_values_a_run_would_refuse_are_refused_when_read(tmp_path, capsy
     assert err.count("error") == 1 and "run failed" not in err
     assert f"{study}: {key}:" in err and allowed in err
     assert not (tmp_path / "o").exists()
+
+
+@pytest.mark.parametrize("text", [SMALL, DEMO], ids=["small", "demo"])
+def test_check_validates_a_profile_study_and_echoes_it(tmp_path, capsys, text):
+    study = tmp_path / "p.toml"
+    study.write_text(text, encoding="utf-8")
+    assert main(["check", str(study)]) == 0
+    out = capsys.readouterr().out
+    assert f"{study}: valid profile study" in out and "unknown key" not in out
+    a, b = (parse_profile_study(t, source="x.toml") for t in (text, out))
+    assert a.profile.describe() == b.profile.describe()
+    assert {n: s.describe() for n, s in a.compare.items()} == \
+        {n: s.describe() for n, s in b.compare.items()}
+    assert a.seed == b.seed and a.plan == b.plan
+
+
+def test_check_refuses_a_bad_profile_study_naming_file_and_key(tmp_path, capsys):
+    study = tmp_path / "p.toml"
+    study.write_text(SMALL.replace("porosity = 0.0", "porosity = 0.9"), encoding="utf-8")
+    assert main(["check", str(study)]) == 2
+    err = capsys.readouterr().err
+    assert f"{study}: profile.layers[1].porosity:" in err and "[0, 0.5]" in err
