@@ -160,5 +160,8 @@ def add_parser(sub) -> None:
     sp = sub.add_parser("profile", help="invert a whole profile (layers tied by one thermal "
                                         "state) from a [profile] study file")
     sp.add_argument("study", metavar="PROFILE.toml")
-    add_common_options(sp)
+    add_common_options(sp, method=False)
+    sp.add_argument("--method", choices=("exact", "mcmc"), default=None,
+                    help="the structured exact path (default) or MCMC (the collapsed scheme; "
+                         "joint for the uncoupled state); a profile study file has no method key")
     sp.set_defaults(func=cmd_profile)

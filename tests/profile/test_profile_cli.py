@@ -126,3 +126,9 @@ def test_check_refuses_a_bad_profile_study_naming_file_and_key(tmp_path, capsys)
     assert main(["check", str(study)]) == 2
     err = capsys.readouterr().err
     assert f"{study}: profile.layers[1].porosity:" in err and "[0, 0.5]" in err
+
+
+def test_profile_method_help_names_the_real_default(capsys):
+    assert main(["profile", "--help"]) == 0
+    text = " ".join(capsys.readouterr().out.split())
+    assert "study file)" not in text and "exact path (default)" in text
