@@ -183,6 +183,8 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
     seed = args.seed if getattr(args, "seed", None) is not None else (pstudy.seed or 0)
     warn = Warnings(args)
     say(args, f"plan: profile {prof.name!r} (structured exact path)")
+    # one design per layer, a quarter of design_points each: the default 16384 gives
+    # plan_profile's own n_layer default (4096); documented in config/plan.py and the docs
     kw = {"n_layer": spec.design_points // 4, "n_simulations": spec.simulations,
           "decisive_probability": spec.decisive_probability,
           "decisive_bayes_factor": spec.decisive_bayes_factor}

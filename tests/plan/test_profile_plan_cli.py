@@ -134,3 +134,22 @@ def test_plan_command_profile_uses_the_study_rank_by(tmp_path, monkeypatch):
     assert seen["rank_by"] == "p_decisive"
     r = pd.read_csv(out / "ranking.csv", index_col=0)
     assert r["p_decisive"].is_monotonic_decreasing
+
+
+def test_profile_design_points_is_four_times_each_layer_design(tmp_path, monkeypatch):
+    import bayescrust.config.plan as cplan
+    import bayescrust.plan as bplan
+
+    seen = {}
+
+    def fake(*a, **kw):
+        seen.update(kw)
+        raise ValueError("stop here")
+
+    monkeypatch.setattr(bplan, "plan_profile", fake)
+    study = tmp_path / "p.toml"
+    study.write_text(STUDY)
+    assert main(["plan", str(study), "--out", str(tmp_path / "o"), "-q", "--no-figures"]) == 2
+    assert seen["n_layer"] == 4096 // 4  # the study's design_points = 4096
+    doc = " ".join(cplan.__doc__.split())
+    assert "each layer's design has a quarter of ``design_points``" in doc
