@@ -122,7 +122,25 @@ def _layer_fail(r: Reader, key, table, profile, i, msg):
     r.fail(key, f"layer {name!r}: {msg}")
 
 
-def _thermal(r: Reader, key, table, water_depth_km, state_name=None):
+def _uncoupled_range(r: Reader, key, kw, trange):
+    """The uncoupled state's temperatures must lie within ``temperature_range_c`` (the layers'
+    proposal; outside it the state's evidence would be truncated). Values the file sets are
+    checked; the defaults (``Uncoupled``'s 0-1400 deg C) are clipped to the range."""
+    from ..profile.thermal import Uncoupled
+
+    t_lo, t_hi = trange
+    for b, inside in (("lo", lambda v: v >= t_lo), ("hi", lambda v: v <= t_hi)):
+        if b in kw and not inside(kw[b]):
+            i, side = (0, "below") if b == "lo" else (1, "above")
+            r.fail(f"{key}.{b}", f"got {kw[b]:g} deg C, {side} profile.temperature_range_c[{i}] "
+                                 f"= {trange[i]:g} deg C; the uncoupled state's temperatures "
+                                 f"must lie within temperature_range_c [{t_lo:g}, {t_hi:g}] "
+                                 "deg C (widen the range or narrow the state)")
+    kw.setdefault("lo", max(Uncoupled.lo, t_lo))
+    kw.setdefault("hi", min(Uncoupled.hi, t_hi))
+
+
+def _thermal(r: Reader, key, table, water_depth_km, trange, state_name=None):
     from ..profile.thermal import THERMAL_STATES
 
     table = r.table(key, table)
@@ -142,6 +160,8 @@ def _thermal(r: Reader, key, table, water_depth_km, state_name=None):
                  if k in _NUMBER_ONLY else _prior(r, f"{key}.{k}", v, THERMAL_RANGES[k]))
     if name == "axial":
         kw["water_depth_km"] = water_depth_km
+    if name == "uncoupled":
+        _uncoupled_range(r, key, kw, trange)
     try:
         return THERMAL_STATES[name](**kw)
     except ValueError as exc:
@@ -191,7 +211,14 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
         rocks.append(r.rock_list(f"{k}.rocks", lt["rocks"]) if "rocks" in lt else None)
         priors.append({q: _prior(r, f"{k}.{q}", lt[q], _layer_range(q))
                        for q in _PRIOR_KEYS if q in lt})
-    thermal = _thermal(r, "profile.thermal", p.get("thermal", {}), hw)
+    tr = p.get("temperature_range_c", [0.0, 1600.0])
+    if not (isinstance(tr, list) and len(tr) == 2):
+        r.got("profile.temperature_range_c", tr, "[lo, hi] deg C")
+    t_lo, t_hi = (r.number(f"profile.temperature_range_c[{i}]", tr[i], -5.0, 2000.0,
+                           unit="deg C") for i in (0, 1))
+    if not t_lo < t_hi:
+        r.got("profile.temperature_range_c", tr, "[lo, hi] deg C with lo < hi")
+    thermal = _thermal(r, "profile.thermal", p.get("thermal", {}), hw, (t_lo, t_hi))
     hf = None
     if "heat_flow" in p:
         ht = r.table("profile.heat_flow", p["heat_flow"])
@@ -205,13 +232,6 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
                                lo_open=True, unit="mW/m^2"),
                       r.string("profile.heat_flow.mode", ht.get("mode", "gaussian"),
                                list(HEAT_FLOW_MODES)))
-    tr = p.get("temperature_range_c", [0.0, 1600.0])
-    if not (isinstance(tr, list) and len(tr) == 2):
-        r.got("profile.temperature_range_c", tr, "[lo, hi] deg C")
-    t_lo, t_hi = (r.number(f"profile.temperature_range_c[{i}]", tr[i], -5.0, 2000.0,
-                           unit="deg C") for i in (0, 1))
-    if not t_lo < t_hi:
-        r.got("profile.temperature_range_c", tr, "[lo, hi] deg C with lo < hi")
     kw = {}
     if "basement_km" in p:
         kw["basement_km"] = r.number("profile.basement_km", p["basement_km"], 0.0, 100.0)
@@ -235,7 +255,8 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
         r.got("profile.compare", names, "a list of thermal-state names")
     for j, n in enumerate(names):
         n = r.string(f"profile.compare[{j}]", n, list(_THERMAL_PARAMS))
-        compare[n] = _thermal(r, "profile.thermal", p.get("thermal", {}), hw, state_name=n)
+        compare[n] = _thermal(r, "profile.thermal", p.get("thermal", {}), hw, (t_lo, t_hi),
+                              state_name=n)
     seed = None
     if "run" in data:
         run = r.table("run", data["run"])

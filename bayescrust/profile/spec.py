@@ -159,6 +159,11 @@ class Profile:
                                  "profile the temperature comes from the thermal state")
         lo, hi = (float(v) for v in self.temperature_range_c)
         Uniform(lo, hi)
+        th = self.thermal
+        if not th.coupled and not (lo <= th.lo and th.hi <= hi):
+            raise ValueError(f"profile: the uncoupled state's temperatures {th.lo:g}-{th.hi:g} "
+                             f"deg C must lie within temperature_range_c [{lo:g}, {hi:g}] deg C "
+                             "(the layers' proposal; outside it the evidence is truncated)")
         if self.pressure not in PRESSURE_MODES:
             raise ValueError(f"profile: pressure must be one of {list(PRESSURE_MODES)}; "
                              f"got {self.pressure!r}")

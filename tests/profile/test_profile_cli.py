@@ -132,3 +132,36 @@ def test_profile_method_help_names_the_real_default(capsys):
     assert main(["profile", "--help"]) == 0
     text = " ".join(capsys.readouterr().out.split())
     assert "study file)" not in text and "exact path (default)" in text
+
+
+@pytest.mark.parametrize("thermal, extra, key, values", [
+    ('state = "uncoupled"\nhi = 1800.0', "", "profile.thermal.hi", ("1800", "1600")),
+    ('state = "uncoupled"\nlo = 100.0', "temperature_range_c = [200.0, 1200.0]\n",
+     "profile.thermal.lo", ("100", "200")),
+    ('state = "uncoupled"\nhi = 1100.0', "temperature_range_c = [0.0, 1000.0]\n",
+     "profile.thermal.hi", ("1100", "1000")),
+])
+def test_uncoupled_state_outside_the_temperature_range_is_refused(tmp_path, capsys, thermal,
+                                                                   extra, key, values):
+    text = SMALL.replace('compare = ["half_space", "uncoupled"]\n', extra).replace(
+        'state = "half_space"\nage_myr = [1.0, 20.0]', thermal)
+    study = tmp_path / "p.toml"
+    study.write_text(text, encoding="utf-8")
+    assert main(["check", str(study)]) == 2
+    err = capsys.readouterr().err
+    assert f"{study}: {key}:" in err and all(v in err for v in values)
+    assert "temperature_range_c" in err
+
+
+def test_uncoupled_defaults_are_clipped_to_the_temperature_range():
+    from bayescrust import Layer
+    from bayescrust.profile import Profile
+    from bayescrust.profile.thermal import Uncoupled
+
+    text = SMALL.replace("water_depth_km = 3.0", "water_depth_km = 3.0\n"
+                                                 "temperature_range_c = [0.0, 1000.0]")
+    st = parse_profile_study(text, source="p.toml")
+    unc = st.compare["uncoupled"]
+    assert (unc.lo, unc.hi) == (0.0, 1000.0)  # not Uncoupled's 0-1400
+    with pytest.raises(ValueError, match="1800.*1600|1600.*1800"):
+        Profile([Layer("a", top_km=0.0, bottom_km=2.0, vp=(5.5, 0.2))], Uncoupled(hi=1800.0))
