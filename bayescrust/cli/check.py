@@ -1,4 +1,5 @@
-"""``bayescrust check``: validate a study file and print the resolved study."""
+"""``bayescrust check``: validate a study file (layer or ``[profile]`` study) and print the
+resolved study."""
 
 from __future__ import annotations
 
@@ -11,9 +12,28 @@ from .shell import InputError
 __all__ = ["add_parser", "cmd_check"]
 
 
+def _check_profile(path) -> int:
+    from ..config.profile import profile_study_to_dict
+    from .profile import load_profile_study
+
+    ps = load_profile_study(path)  # validates every value and builds every layer model
+    prof = ps.profile
+    head = [f"{ps.source}: valid profile study ({prof.n_layers} layer(s)); run it with "
+            "`bayescrust profile`, plan it with `bayescrust plan`.",
+            f"thermal state: {prof.thermal.describe()}"]
+    head += [f"compared state {n!r}: {st.describe()}" for n, st in ps.compare.items()]
+    head += ["Resolved study (thermal parameters at their defaults are not written):"]
+    text = dumps_toml(profile_study_to_dict(ps), header="\n".join(head))
+    sys.stdout.write(text)
+    return 0
+
+
 def cmd_check(args) -> int:
     from ..config import build_thermal_prior
+    from .profile import is_profile_study
 
+    if is_profile_study(args.study):
+        return _check_profile(args.study)
     study = load_study(args.study)
     for layer in study.layers:
         build(study, layer)  # API validation of observations and priors
@@ -36,7 +56,8 @@ def cmd_check(args) -> int:
 
 def add_parser(sub) -> None:
     """Register the ``check`` command."""
-    sp = sub.add_parser("check", help="validate a study file and print the resolved study")
+    sp = sub.add_parser("check", help="validate a study file (a layer study or a [profile] "
+                                      "study) and print the resolved study")
     sp.add_argument("study", metavar="STUDY.toml")
     sp.add_argument("-q", "--quiet", action="store_true")
     sp.set_defaults(func=cmd_check)

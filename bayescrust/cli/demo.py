@@ -44,25 +44,35 @@ def demo_text(name: str) -> str:
     return files("bayescrust").joinpath("demo", name).read_text(encoding="utf-8")
 
 
-def demo_grid(args, folder: Path, study_folder: Path) -> float:
+def demo_grid(args, folder: Path, study_folder: Path, final_study_folder=None) -> float:
     """The grid part of the demo: write the invented Tallowmere section and map it.
 
-    Returns its run time (s). The map uses the per-level fast path (tabulated where a level
-    has one sigma).
+    ``study_folder`` is where the files are written (inside the temporary output folder);
+    ``final_study_folder`` (default: the same) is its name once the output folder is in place,
+    the name the map records as its ``source``. Returns its run time (s). The map uses the
+    per-level fast path (tabulated where a level has one sigma).
     """
     from ..config.grid import parse_grid_study
+    from ..grid import write_netcdf
     from ..grid.synthetic import tallowmere_section
     from .grid import do_map
 
     t0 = time.perf_counter()
+    final = Path(study_folder if final_study_folder is None else final_study_folder)
     tallowmere_section().to_netcdf(study_folder / "tallowmere_section.nc", engine="h5netcdf")
     text = demo_text("tallowmere_section.toml")
     write_text(study_folder / "tallowmere_section.toml", text)
-    study = parse_grid_study(text, source=str(study_folder / "tallowmere_section.toml"),
+    study = parse_grid_study(text, source=str(final / "tallowmere_section.toml"),
                              base=study_folder)
     map_args = argparse.Namespace(seed=args.seed, quiet=True, scheduler=None, workers=None)
-    do_map(map_args, study, folder, figures=True,
-           maps=("p_mantle", "p_hot_mantle", "p_melt_present"), dpi=110)
+    ds = do_map(map_args, study, folder, figures=True,
+                maps=("p_mantle", "p_hot_mantle", "p_melt_present"), dpi=110)
+    # the grid was read from the temporary folder, whose name the map recorded as its source;
+    # record the name the input has once the output folder is in place
+    source = str(final / "tallowmere_section.nc")
+    if ds.attrs.get("source") != source:
+        ds.attrs["source"] = source
+        write_netcdf(ds, folder / "map.nc")
     return time.perf_counter() - t0
 
 
@@ -102,7 +112,7 @@ def cmd_demo(args) -> int:
             say(args, "demo: probability map of an invented section across the ridge "
                       "(fast path)")
             (tmp / "map").mkdir()
-            t_grid = demo_grid(args, tmp / "map", tmp / "study")
+            t_grid = demo_grid(args, tmp / "map", tmp / "study", out / "study")
         except BaseException:
             # wait for the second process, so that the output folder is removed only after it
             # has stopped writing; this process's error is the one reported

@@ -86,7 +86,7 @@ def plan_study_layer(study, layer, *, method="exact", seed=0, candidates=None,
                           n_simulations=simulations or spec.simulations,
                           decisive_probability=spec.decisive_probability,
                           decisive_bayes_factor=spec.decisive_bayes_factor,
-                          rank_by=spec.rank_by, **kw)
+                          rank_by=spec.rank_by or "information_gain_bits", **kw)
     except ValueError as exc:
         raise InputError(f"{study.source}: layer {layer.name!r}: {exc}") from None
 
@@ -183,11 +183,15 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
     seed = args.seed if getattr(args, "seed", None) is not None else (pstudy.seed or 0)
     warn = Warnings(args)
     say(args, f"plan: profile {prof.name!r} (structured exact path)")
+    # one design per layer, a quarter of design_points each: the default 16384 gives
+    # plan_profile's own n_layer default (4096); documented in config/plan.py and the docs
     kw = {"n_layer": spec.design_points // 4, "n_simulations": spec.simulations,
           "decisive_probability": spec.decisive_probability,
           "decisive_bayes_factor": spec.decisive_bayes_factor}
     if spec.rank_question:
         kw["rank_question"] = spec.rank_question
+    if spec.rank_by:
+        kw["rank_by"] = spec.rank_by
     if getattr(args, "simulations", None):
         kw["n_simulations"] = args.simulations
     kw.update(options or {})
@@ -249,19 +253,10 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
     return pp
 
 
-def _is_profile_study(path) -> bool:
-    import tomllib
-
-    try:
-        return "profile" in tomllib.loads(Path(path).read_text(encoding="utf-8"))
-    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError):
-        return False  # the layer-study reader reports the problem
-
-
 def cmd_plan(args) -> int:
-    if _is_profile_study(args.study):
-        from .profile import load_profile_study
+    from .profile import is_profile_study, load_profile_study
 
+    if is_profile_study(args.study):
         pstudy = load_profile_study(args.study)
         if args.layer or args.method == "mcmc":
             raise InputError(f"{args.study}: --layer and --method mcmc are for layer studies; "

@@ -18,7 +18,18 @@ from .shell import (
     write_text,
 )
 
-__all__ = ["add_parser", "cmd_profile", "do_profile", "profile_figure_curves"]
+__all__ = ["add_parser", "cmd_profile", "do_profile", "profile_figure_curves",
+           "is_profile_study", "load_profile_study"]
+
+
+def is_profile_study(path) -> bool:
+    """Whether ``path`` is a readable TOML file with a ``[profile]`` table."""
+    import tomllib
+
+    try:
+        return "profile" in tomllib.loads(Path(path).read_text(encoding="utf-8"))
+    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError):
+        return False  # the layer-study reader reports the problem
 
 
 def load_profile_study(path):
@@ -33,14 +44,18 @@ def load_profile_study(path):
 
 
 def profile_figure_curves(result, n=60):
-    """Geotherm band, peridotite solidus and serpentine limit against depth (for the figure)."""
+    """Geotherm band, peridotite solidus and serpentine limit against depth (for the figure).
+
+    The serpentine limit is that of the serpentine the layers' forward model used
+    (``result.settings["serpentine"]``; the forward model's default, lizardite, if unknown)."""
     from ..physics import thermal as th
 
     prof = result.profile
     z = np.linspace(0.0, float(prof.bottoms_km[-1]), n)
     p = th.lithostatic_pressure_gpa(z, water_depth_km=prof.water_depth_km)
+    kind = result.settings.get("serpentine") or "lizardite"
     curves = {"solidus": (z, th.peridotite_solidus_c(p)),
-              "serpentine": (z, th.serpentine_stability_c(p, kind="antigorite"))}
+              "serpentine": (z, th.serpentine_stability_c(p, kind=kind))}
     state = prof.thermal
     d = result.draws["thermal"]
     if state.coupled and d:
@@ -145,5 +160,8 @@ def add_parser(sub) -> None:
     sp = sub.add_parser("profile", help="invert a whole profile (layers tied by one thermal "
                                         "state) from a [profile] study file")
     sp.add_argument("study", metavar="PROFILE.toml")
-    add_common_options(sp)
+    add_common_options(sp, method=False)
+    sp.add_argument("--method", choices=("exact", "mcmc"), default=None,
+                    help="the structured exact path (default) or MCMC (the collapsed scheme; "
+                         "joint for the uncoupled state); a profile study file has no method key")
     sp.set_defaults(func=cmd_profile)

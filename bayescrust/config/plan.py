@@ -17,8 +17,9 @@ candidates = [
 In a profile study (``[profile]``) the same section plans the profile: layer candidates name
 their ``layer``, heat flow takes ``mode`` (``gaussian``, ``lower_bound``, ``off``) and, for a
 lower bound, ``max_deficit`` (mW/m^2); ``rank_question`` is a layer name, ``"crust-mantle
-boundary"`` (default) or ``"thermal: <parameter>"``; ``design_points`` is the size of each
-layer's design.
+boundary"`` (default) or ``"thermal: <parameter>"``; each layer's design has a quarter of
+``design_points`` (the default 16384 gives 4096, the ``n_layer`` default of
+:func:`bayescrust.plan.plan_profile`: a profile weighs one design per layer).
 
 ```toml
 [plan]
@@ -71,7 +72,9 @@ class PlanSpec:
     design_points: int = 2**14
     decisive_probability: float = 0.9
     decisive_bayes_factor: float = 10.0
-    rank_by: str = "information_gain_bits"
+    #: ``None``: ``information_gain_bits`` (``interval_narrowing`` for a profile's thermal
+    #: ``rank_question``)
+    rank_by: str | None = None
     candidates: tuple[CandidateSpec, ...] | None = None
     rank_question: str | None = None
 

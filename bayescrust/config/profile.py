@@ -28,7 +28,9 @@
 
 An optional ``[plan]`` section (:mod:`bayescrust.config.plan`) sets ``bayescrust plan``'s
 candidates for the profile. Errors name the file, the key and the allowed range
-(:class:`StudyError`).
+(:class:`StudyError`): values out of range (layer priors: the layer study's ranges; thermal
+parameters: :data:`THERMAL_RANGES`), and every layer model and thermal state is built once
+while reading, so a setting the run would refuse is refused here.
 """
 
 from __future__ import annotations
@@ -38,9 +40,11 @@ import tomllib
 from dataclasses import dataclass
 
 from .errors import StudyError
+from .limits import PARAMETER_RANGES
 from .reader import Reader
 
-__all__ = ["ProfileStudy", "parse_profile_study", "PROFILE_KEYS"]
+__all__ = ["ProfileStudy", "parse_profile_study", "profile_study_to_dict", "PROFILE_KEYS",
+           "THERMAL_RANGES"]
 
 PROFILE_KEYS = ("name", "water_depth_km", "pressure", "basement_km", "temperature_range_c",
                 "thermal", "heat_flow", "layers", "compare")
@@ -54,6 +58,22 @@ _THERMAL_PARAMS = {
     "axial": ("lens_depth_km", "mush_offset_c", "conductivity_w_mk", "scatter_c"),
     "uncoupled": ("lo", "hi"),
 }
+#: Allowed values of the thermal parameters: (lo, hi, lo_open, unit). Input sanity limits, not
+#: literature values: the age and mantle temperature as in a layer study's ``[thermal]``
+#: tables, the plate thickness the range of ``physics.thermal.plate_temperature_c``, a positive
+#: conductivity, a mush at or below the solidus (``mush_offset_c <= 0``).
+THERMAL_RANGES = {
+    "age_myr": (0.0, 200.0, True, "Myr"),
+    "mantle_temperature_c": (800.0, 2000.0, False, "deg C"),
+    "plate_thickness_km": (10.0, 300.0, False, "km"),
+    "conductivity_w_mk": (0.0, 10.0, True, "W/m/K"),
+    "lens_depth_km": (0.0, 100.0, True, "km"),
+    "mush_offset_c": (-500.0, 0.0, False, "deg C"),
+    "scatter_c": (0.0, 500.0, True, "deg C"),
+    "lo": (-5.0, 2000.0, False, "deg C"),
+    "hi": (-5.0, 2000.0, False, "deg C"),
+}
+_NUMBER_ONLY = ("scatter_c", "lo", "hi")
 
 
 @dataclass(frozen=True)
@@ -67,20 +87,60 @@ class ProfileStudy:
     plan: object = None
 
 
-def _prior(r: Reader, key, value):
+def _prior(r: Reader, key, value, allowed=None):
+    """A number (fixed) or ``[lo, hi]`` (uniform); ``allowed``: (lo, hi, lo_open, unit)."""
     from ..inference.priors import Uniform
 
+    lim = {} if allowed is None else dict(zip(("lo", "hi", "lo_open", "unit"), allowed,
+                                              strict=True))
     if isinstance(value, list):
         if len(value) != 2:
             r.got(key, value, "a number (fixed) or [lo, hi] (uniform)")
-        lo, hi = (r.number(f"{key}[{i}]", v) for i, v in enumerate(value))
+        lo, hi = (r.number(f"{key}[{i}]", v, **lim) for i, v in enumerate(value))
         if not lo < hi:
             r.fail(key, f"needs lo < hi; got [{lo:g}, {hi:g}]")
         return Uniform(lo, hi)
-    return r.number(key, value)
+    return r.number(key, value, **lim)
 
 
-def _thermal(r: Reader, key, table, water_depth_km, state_name=None):
+def _layer_range(q):
+    lo, hi, unit = PARAMETER_RANGES[q]
+    return lo, hi, False, unit
+
+
+def _layer_fail(r: Reader, key, table, profile, i, msg):
+    """Report a layer model's refusal under the key it concerns."""
+    name = profile.names[i]
+    q = next((q for q in _PRIOR_KEYS if msg.startswith(f"priors[{q!r}]")), None)
+    if q is not None and q in table:
+        r.fail(f"{key}.{q}", f"layer {name!r}: {msg}")
+    if msg.startswith("rocks:"):
+        lo, hi = profile.temperature_range_c
+        r.fail(f"{key}.rocks" if "rocks" in table else key,
+               f"layer {name!r}: {msg} (in a profile the temperature prior of every layer is "
+               f"profile.temperature_range_c = [{lo:g}, {hi:g}] deg C)")
+    r.fail(key, f"layer {name!r}: {msg}")
+
+
+def _uncoupled_range(r: Reader, key, kw, trange):
+    """The uncoupled state's temperatures must lie within ``temperature_range_c`` (the layers'
+    proposal; outside it the state's evidence would be truncated). Values the file sets are
+    checked; the defaults (``Uncoupled``'s 0-1400 deg C) are clipped to the range."""
+    from ..profile.thermal import Uncoupled
+
+    t_lo, t_hi = trange
+    for b, inside in (("lo", lambda v: v >= t_lo), ("hi", lambda v: v <= t_hi)):
+        if b in kw and not inside(kw[b]):
+            i, side = (0, "below") if b == "lo" else (1, "above")
+            r.fail(f"{key}.{b}", f"got {kw[b]:g} deg C, {side} profile.temperature_range_c[{i}] "
+                                 f"= {trange[i]:g} deg C; the uncoupled state's temperatures "
+                                 f"must lie within temperature_range_c [{t_lo:g}, {t_hi:g}] "
+                                 "deg C (widen the range or narrow the state)")
+    kw.setdefault("lo", max(Uncoupled.lo, t_lo))
+    kw.setdefault("hi", min(Uncoupled.hi, t_hi))
+
+
+def _thermal(r: Reader, key, table, water_depth_km, trange, state_name=None):
     from ..profile.thermal import THERMAL_STATES
 
     table = r.table(key, table)
@@ -95,10 +155,13 @@ def _thermal(r: Reader, key, table, water_depth_km, state_name=None):
             if state_name is not None:
                 continue  # parameters of the main state that this compared state lacks
             r.keys(key, {k: v}, ("state",) + allowed)
-        kw[k] = (r.number(f"{key}.{k}", v, 0.0, lo_open=True) if k == "scatter_c"
-                 else _prior(r, f"{key}.{k}", v))
+        lo, hi, lo_open, unit = THERMAL_RANGES[k]
+        kw[k] = (r.number(f"{key}.{k}", v, lo, hi, lo_open=lo_open, unit=unit)
+                 if k in _NUMBER_ONLY else _prior(r, f"{key}.{k}", v, THERMAL_RANGES[k]))
     if name == "axial":
         kw["water_depth_km"] = water_depth_km
+    if name == "uncoupled":
+        _uncoupled_range(r, key, kw, trange)
     try:
         return THERMAL_STATES[name](**kw)
     except ValueError as exc:
@@ -146,8 +209,16 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
         except ValueError as exc:
             r.fail(k, str(exc))
         rocks.append(r.rock_list(f"{k}.rocks", lt["rocks"]) if "rocks" in lt else None)
-        priors.append({q: _prior(r, f"{k}.{q}", lt[q]) for q in _PRIOR_KEYS if q in lt})
-    thermal = _thermal(r, "profile.thermal", p.get("thermal", {}), hw)
+        priors.append({q: _prior(r, f"{k}.{q}", lt[q], _layer_range(q))
+                       for q in _PRIOR_KEYS if q in lt})
+    tr = p.get("temperature_range_c", [0.0, 1600.0])
+    if not (isinstance(tr, list) and len(tr) == 2):
+        r.got("profile.temperature_range_c", tr, "[lo, hi] deg C")
+    t_lo, t_hi = (r.number(f"profile.temperature_range_c[{i}]", tr[i], -5.0, 2000.0,
+                           unit="deg C") for i in (0, 1))
+    if not t_lo < t_hi:
+        r.got("profile.temperature_range_c", tr, "[lo, hi] deg C with lo < hi")
+    thermal = _thermal(r, "profile.thermal", p.get("thermal", {}), hw, (t_lo, t_hi))
     hf = None
     if "heat_flow" in p:
         ht = r.table("profile.heat_flow", p["heat_flow"])
@@ -161,9 +232,6 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
                                lo_open=True, unit="mW/m^2"),
                       r.string("profile.heat_flow.mode", ht.get("mode", "gaussian"),
                                list(HEAT_FLOW_MODES)))
-    tr = p.get("temperature_range_c", [0.0, 1600.0])
-    if not (isinstance(tr, list) and len(tr) == 2):
-        r.got("profile.temperature_range_c", tr, "[lo, hi] deg C")
     kw = {}
     if "basement_km" in p:
         kw["basement_km"] = r.number("profile.basement_km", p["basement_km"], 0.0, 100.0)
@@ -172,18 +240,23 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
             layers, thermal, water_depth_km=hw, rocks=rocks, priors=priors, heat_flow=hf,
             pressure=r.string("profile.pressure", p.get("pressure", "overburden"),
                               list(PRESSURE_MODES)),
-            temperature_range_c=(r.number("profile.temperature_range_c[0]", tr[0], -5.0, 2000.0),
-                                 r.number("profile.temperature_range_c[1]", tr[1], -5.0, 2000.0)),
+            temperature_range_c=(t_lo, t_hi),
             name=r.string("profile.name", p.get("name", "profile")), **kw)
     except ValueError as exc:
         r.fail("profile", str(exc))
+    for i, lt in enumerate(raw_layers):  # what the run builds: refuse here what it would refuse
+        try:
+            profile.layer_model(i)
+        except ValueError as exc:
+            _layer_fail(r, f"profile.layers[{i}]", lt, profile, i, str(exc))
     compare = {}
     names = p.get("compare", [])
     if not isinstance(names, list):
         r.got("profile.compare", names, "a list of thermal-state names")
     for j, n in enumerate(names):
         n = r.string(f"profile.compare[{j}]", n, list(_THERMAL_PARAMS))
-        compare[n] = _thermal(r, "profile.thermal", p.get("thermal", {}), hw, state_name=n)
+        compare[n] = _thermal(r, "profile.thermal", p.get("thermal", {}), hw, (t_lo, t_hi),
+                              state_name=n)
     seed = None
     if "run" in data:
         run = r.table("run", data["run"])
@@ -202,3 +275,68 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
             if isinstance(c, dict) and c.get("layer", names[0]) not in names:
                 r.got(f"plan.candidates[{i}].layer", c["layer"], f"one of {names}")
     return ProfileStudy(profile=profile, compare=compare, seed=seed, source=source, plan=plan)
+
+
+def _prior_value(p):
+    """A prior as the study file writes it: a number (fixed), ``[lo, hi]`` (uniform), else
+    ``None`` (a package default the file format cannot state, e.g. a normal prior)."""
+    from ..inference.priors import Uniform
+
+    if isinstance(p, (int, float)):
+        return float(p)
+    if getattr(p, "fixed", False):
+        return float(p.value)
+    if type(p) is Uniform:
+        return [float(p.lo), float(p.hi)]
+    return None
+
+
+def _thermal_dict(state) -> dict:
+    from ..profile.thermal import THERMAL_STATES
+
+    name = next(k for k, cls in THERMAL_STATES.items() if type(state) is cls)
+    d = {"state": name}
+    if not state.coupled:
+        return {**d, "lo": float(state.lo), "hi": float(state.hi)}
+    default = type(state)()
+    for k in _THERMAL_PARAMS[name]:
+        v, v0 = (_prior_value(s.scatter_c if k == "scatter_c" else s.params[k])
+                 for s in (state, default))
+        if v is not None and v != v0:  # a default stays unwritten: compared states share the
+            d[k] = v                    # table and keep their own defaults
+    return d
+
+
+def profile_study_to_dict(study: ProfileStudy) -> dict:
+    """The profile study as read, with the defaults it resolved (rocks of every layer, the
+    temperature range, the pressure mode, ...), as plain data in the study-file layout.
+
+    Thermal parameters at their defaults are left out (the compared states share the
+    ``[profile.thermal]`` table and keep their own defaults); ``ThermalState.describe()`` is the
+    complete form."""
+    import dataclasses
+
+    prof = study.profile
+    p = {"name": prof.name, "water_depth_km": prof.water_depth_km, "pressure": prof.pressure,
+         "basement_km": prof.basement_km, "temperature_range_c": list(prof.temperature_range_c)}
+    if study.compare:
+        p["compare"] = list(study.compare)
+    p["thermal"] = _thermal_dict(prof.thermal)
+    if prof.heat_flow is not None:
+        p["heat_flow"] = dataclasses.asdict(prof.heat_flow)
+    layers = []
+    for x, rocks, pri in zip(prof.layers, prof.rocks, prof.priors, strict=True):
+        d = {"name": x.name, "top_km": x.top_km, "bottom_km": x.bottom_km}
+        d.update({k: list(v) for k, v in x.observed.items()})
+        d["rocks"] = list(rocks)
+        d.update({k: _prior_value(v) for k, v in pri.items()})
+        layers.append(d)
+    p["layers"] = layers
+    out = {"profile": p}
+    if study.plan is not None:
+        from .plan import plan_dict
+
+        out["plan"] = plan_dict(study.plan)
+    if study.seed is not None:
+        out["run"] = {"seed": study.seed}
+    return out

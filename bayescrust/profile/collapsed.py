@@ -453,6 +453,6 @@ def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_e
             "layer_ess_min": np.min(ess_l, axis=0).tolist(),
             "error_parts": parts}
     return build_result(profile, method="mcmc", hyps=hyps, pressures=pressures,
-                        pressure_bound=bound, seed=seed_value,
+                        models=models, pressure_bound=bound, seed=seed_value,
                         wall_time_s=time.perf_counter() - t0,
                         mcmc=(draws, hyp, boundary, thermal, diag))

@@ -283,7 +283,7 @@ def invert_profile(profile: Profile, *, seed=None, rng=None, nwalkers=None, min_
             "converged": run.converged,
             "n_steps": run.n_steps, "nwalkers": nw, "acceptance": float(run.acceptance.mean()),
             "coordinates": jm.names, "sampling_time_s": run.wall_time_s}
-    return build_result(profile, method="mcmc", hyps=jm.hyps,
+    return build_result(profile, method="mcmc", hyps=jm.hyps, models=jm.models,
                         pressures=np.nanmean(_pressures(jm, layers), axis=0), seed=seed_value,
                         wall_time_s=time.perf_counter() - t0,
                         mcmc=(draws, hyp, boundary, thermal, diag))

@@ -48,6 +48,9 @@ class ProfileResult:
     diagnostics : dict
         Exact: importance ESS per layer and of the thermal design; MCMC: tau, ESS, acceptance.
     settings : dict
+        ``method``, ``seed``, ``profile`` (its settings), ``wall_time_s`` and ``serpentine``:
+        the serpentine kind of the layers' forward model (whose stability limit switches
+        ``serpentinization`` off; ``None`` when not known).
     """
 
     method: str
@@ -210,7 +213,9 @@ def build_result(profile, *, method, hyps, pressures, seed, wall_time_s, reps=No
     thickness = _thickness(profile, draws["boundary_km"])
     thickness["p_no_boundary"] = float(boundary["probability"].iloc[-1])
     settings = {"method": method, "seed": -1 if seed is None else seed,
-                "profile": profile.describe(), "wall_time_s": wall_time_s}
+                "profile": profile.describe(), "wall_time_s": wall_time_s,
+                "serpentine": (getattr(models[0].forward, "serpentine", "lizardite")
+                               if models else None)}
     return ProfileResult(method=method, profile=profile, log_evidence=log_z,
                          log_evidence_error=log_z_err, thermal=thermal, hypotheses=hyp,
                          boundary=boundary, thickness=thickness, draws=draws,

@@ -159,6 +159,11 @@ class Profile:
                                  "profile the temperature comes from the thermal state")
         lo, hi = (float(v) for v in self.temperature_range_c)
         Uniform(lo, hi)
+        th = self.thermal
+        if not th.coupled and not (lo <= th.lo and th.hi <= hi):
+            raise ValueError(f"profile: the uncoupled state's temperatures {th.lo:g}-{th.hi:g} "
+                             f"deg C must lie within temperature_range_c [{lo:g}, {hi:g}] deg C "
+                             "(the layers' proposal; outside it the evidence is truncated)")
         if self.pressure not in PRESSURE_MODES:
             raise ValueError(f"profile: pressure must be one of {list(PRESSURE_MODES)}; "
                              f"got {self.pressure!r}")
@@ -231,14 +236,17 @@ class Profile:
     def layer_models(self, pressures_gpa=None, *, forward=None) -> list[LayerModel]:
         """One :class:`LayerModel` per layer, at the given fixed pressures (GPa)."""
         p = self.pressures_gpa() if pressures_gpa is None else np.asarray(pressures_gpa, float)
+        return [self.layer_model(i, p[i], forward=forward) for i in range(self.n_layers)]
+
+    def layer_model(self, i, pressure_gpa=None, *, forward=None) -> LayerModel:
+        """The :class:`LayerModel` of layer ``i`` at a fixed pressure (GPa; default its
+        reference pressure); ``ValueError`` if the layer's settings are refused."""
+        p = self.pressures_gpa()[i] if pressure_gpa is None else float(pressure_gpa)
         lo, hi = self.temperature_range_c
-        out = []
-        for i, x in enumerate(self.layers):
-            layer = dataclasses.replace(x, pressure_gpa=float(np.clip(p[i], 0.0, 5.0)))
-            pri = {**self.priors[i], "temperature_c": Uniform(lo, hi)}
-            out.append(LayerModel.build(layer, rocks=self.rocks[i], priors=pri,
-                                        model_error=self.model_error, forward=forward))
-        return out
+        layer = dataclasses.replace(self.layers[i], pressure_gpa=float(np.clip(p, 0.0, 5.0)))
+        pri = {**self.priors[i], "temperature_c": Uniform(lo, hi)}
+        return LayerModel.build(layer, rocks=self.rocks[i], priors=pri,
+                                model_error=self.model_error, forward=forward)
 
     # ------------------------------------------------------------------ thermal coupling
     def log_temperature_density(self, temperature_c, geotherm_c):

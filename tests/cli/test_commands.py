@@ -234,3 +234,19 @@ def test_forward_lists_catalogue_and_accepts_a_mineral(capsys):
     assert abs(rows[0]["vp"] - 8.341) < 0.005
     assert main(["forward", "--rock", "olivin", "--temperature", "25", "--pressure", "0"]) == 2
     assert "did you mean 'olivine'" in capsys.readouterr().err
+
+
+def test_demo_map_records_the_final_name_of_its_input(tmp_path):
+    import argparse
+
+    import xarray as xr
+
+    from bayescrust.cli.demo import demo_grid
+
+    work, final = tmp_path / ".demo.partial-x", tmp_path / "demo"
+    (work / "study").mkdir(parents=True)
+    (work / "map").mkdir()
+    demo_grid(argparse.Namespace(seed=0), work / "map", work / "study", final / "study")
+    with xr.open_dataset(work / "map" / "map.nc") as ds:
+        assert ds.attrs["source"] == str(final / "study" / "tallowmere_section.nc")
+    assert not (work / "map" / "map.nc.part").exists()

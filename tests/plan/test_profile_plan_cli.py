@@ -110,3 +110,46 @@ def test_profile_plan_section_is_read():
     c = s.plan.candidates
     assert [x.observable for x in c] == ["heat_flow", "heat_flow", "heat_flow", "vs"]
     assert c[2].mode == "lower_bound" and c[2].max_deficit == 300.0 and c[3].layer == "L1"
+
+
+def test_plan_command_profile_uses_the_study_rank_by(tmp_path, monkeypatch):
+    import bayescrust.plan as bplan
+
+    seen = {}
+    real = bplan.plan_profile
+
+    def spy(*a, **kw):
+        seen.update(kw)
+        return real(*a, **kw)
+
+    monkeypatch.setattr(bplan, "plan_profile", spy)
+    study = tmp_path / "p.toml"
+    study.write_text(STUDY.replace('rank_question = "thermal: age_myr"',
+                                   'rank_question = "crust-mantle boundary"\n'
+                                   'rank_by = "p_decisive"')
+                     .replace("simulations = 100", "simulations = 50")
+                     .replace("design_points = 4096", "design_points = 1024"))
+    out = tmp_path / "out"
+    assert main(["plan", str(study), "--out", str(out), "--quiet", "--no-figures"]) == 0
+    assert seen["rank_by"] == "p_decisive"
+    r = pd.read_csv(out / "ranking.csv", index_col=0)
+    assert r["p_decisive"].is_monotonic_decreasing
+
+
+def test_profile_design_points_is_four_times_each_layer_design(tmp_path, monkeypatch):
+    import bayescrust.config.plan as cplan
+    import bayescrust.plan as bplan
+
+    seen = {}
+
+    def fake(*a, **kw):
+        seen.update(kw)
+        raise ValueError("stop here")
+
+    monkeypatch.setattr(bplan, "plan_profile", fake)
+    study = tmp_path / "p.toml"
+    study.write_text(STUDY)
+    assert main(["plan", str(study), "--out", str(tmp_path / "o"), "-q", "--no-figures"]) == 2
+    assert seen["n_layer"] == 4096 // 4  # the study's design_points = 4096
+    doc = " ".join(cplan.__doc__.split())
+    assert "each layer's design has a quarter of ``design_points``" in doc

@@ -76,3 +76,92 @@ def test_profile_command_bad_file_exit_code(tmp_path):
     study.write_text(SMALL.replace("sigma = 20.0", "sigma = -1.0"), encoding="utf-8")
     assert main(["profile", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
     assert not (tmp_path / "o").exists()
+
+
+@pytest.mark.parametrize("old, new, key, allowed", [
+    ("porosity = 0.0", "porosity = [0.0, 2.0]", "profile.layers[1].porosity[1]", "[0, 0.5]"),
+    ('vp = [5.5, 0.2]', 'vp = [5.5, 0.2]\nmelt_fraction = 0.9', "profile.layers[0].melt_fraction",
+     "[0, 0.3]"),
+    ('state = "half_space"', 'state = "plate"\nplate_thickness_km = 5.0',
+     "profile.thermal.plate_thickness_km", "[10, 300] km"),
+    ("age_myr = [1.0, 20.0]", "age_myr = [1.0, 20.0]\nmantle_temperature_c = 100.0",
+     "profile.thermal.mantle_temperature_c", "[800, 2000] deg C"),
+    ("age_myr = [1.0, 20.0]", "age_myr = 5000.0", "profile.thermal.age_myr", "(0, 200] Myr"),
+    ("age_myr = [1.0, 20.0]", "age_myr = [1.0, 20.0]\nconductivity_w_mk = -3.0",
+     "profile.thermal.conductivity_w_mk", "(0, 10] W/m/K"),
+    ('vp = [5.5, 0.2]', 'vp = [5.5, 0.2]\nrocks = ["gabbro", "serpentinite"]',
+     "profile.layers[0].rocks", "temperature_range_c = [0, 1600]"),
+    ('compare = ["half_space", "uncoupled"]', "temperature_range_c = [500.0, 400.0]",
+     "profile.temperature_range_c", "lo < hi"),
+])
+def test_profile_values_a_run_would_refuse_are_refused_when_read(tmp_path, capsys, old, new, key,
+                                                                 allowed):
+    assert old in SMALL
+    study = tmp_path / "p.toml"
+    study.write_text(SMALL.replace(old, new), encoding="utf-8")
+    assert main(["profile", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("error") == 1 and "run failed" not in err
+    assert f"{study}: {key}:" in err and allowed in err
+    assert not (tmp_path / "o").exists()
+
+
+@pytest.mark.parametrize("text", [SMALL, DEMO], ids=["small", "demo"])
+def test_check_validates_a_profile_study_and_echoes_it(tmp_path, capsys, text):
+    study = tmp_path / "p.toml"
+    study.write_text(text, encoding="utf-8")
+    assert main(["check", str(study)]) == 0
+    out = capsys.readouterr().out
+    assert f"{study}: valid profile study" in out and "unknown key" not in out
+    a, b = (parse_profile_study(t, source="x.toml") for t in (text, out))
+    assert a.profile.describe() == b.profile.describe()
+    assert {n: s.describe() for n, s in a.compare.items()} == \
+        {n: s.describe() for n, s in b.compare.items()}
+    assert a.seed == b.seed and a.plan == b.plan
+
+
+def test_check_refuses_a_bad_profile_study_naming_file_and_key(tmp_path, capsys):
+    study = tmp_path / "p.toml"
+    study.write_text(SMALL.replace("porosity = 0.0", "porosity = 0.9"), encoding="utf-8")
+    assert main(["check", str(study)]) == 2
+    err = capsys.readouterr().err
+    assert f"{study}: profile.layers[1].porosity:" in err and "[0, 0.5]" in err
+
+
+def test_profile_method_help_names_the_real_default(capsys):
+    assert main(["profile", "--help"]) == 0
+    text = " ".join(capsys.readouterr().out.split())
+    assert "study file)" not in text and "exact path (default)" in text
+
+
+@pytest.mark.parametrize("thermal, extra, key, values", [
+    ('state = "uncoupled"\nhi = 1800.0', "", "profile.thermal.hi", ("1800", "1600")),
+    ('state = "uncoupled"\nlo = 100.0', "temperature_range_c = [200.0, 1200.0]\n",
+     "profile.thermal.lo", ("100", "200")),
+    ('state = "uncoupled"\nhi = 1100.0', "temperature_range_c = [0.0, 1000.0]\n",
+     "profile.thermal.hi", ("1100", "1000")),
+])
+def test_uncoupled_state_outside_the_temperature_range_is_refused(tmp_path, capsys, thermal,
+                                                                   extra, key, values):
+    text = SMALL.replace('compare = ["half_space", "uncoupled"]\n', extra).replace(
+        'state = "half_space"\nage_myr = [1.0, 20.0]', thermal)
+    study = tmp_path / "p.toml"
+    study.write_text(text, encoding="utf-8")
+    assert main(["check", str(study)]) == 2
+    err = capsys.readouterr().err
+    assert f"{study}: {key}:" in err and all(v in err for v in values)
+    assert "temperature_range_c" in err
+
+
+def test_uncoupled_defaults_are_clipped_to_the_temperature_range():
+    from bayescrust import Layer
+    from bayescrust.profile import Profile
+    from bayescrust.profile.thermal import Uncoupled
+
+    text = SMALL.replace("water_depth_km = 3.0", "water_depth_km = 3.0\n"
+                                                 "temperature_range_c = [0.0, 1000.0]")
+    st = parse_profile_study(text, source="p.toml")
+    unc = st.compare["uncoupled"]
+    assert (unc.lo, unc.hi) == (0.0, 1000.0)  # not Uncoupled's 0-1400
+    with pytest.raises(ValueError, match="1800.*1600|1600.*1800"):
+        Profile([Layer("a", top_km=0.0, bottom_km=2.0, vp=(5.5, 0.2))], Uncoupled(hi=1800.0))

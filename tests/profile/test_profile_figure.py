@@ -71,3 +71,22 @@ def test_interpretation_legend_outside_every_axes(figure):
         assert not box.overlaps(ax.get_window_extent()), ax.get_xlabel()
     # and inside the figure (not cut off)
     assert fig.bbox.contains(box.x0, box.y0) and fig.bbox.contains(box.x1, box.y1)
+
+
+def test_serpentine_limit_is_the_forward_models_serpentine(figure):
+    import numpy as np
+
+    from bayescrust.cli.profile import profile_figure_curves
+    from bayescrust.physics import thermal as th
+
+    r, _ = figure
+    assert r.settings["serpentine"] == "lizardite"  # the forward model's default
+    z, t = profile_figure_curves(r)["serpentine"]
+    p = th.lithostatic_pressure_gpa(z, water_depth_km=r.profile.water_depth_km)
+    np.testing.assert_allclose(t, th.serpentine_stability_c(p, kind="lizardite"))
+    assert t.max() < 400.0  # lizardite (~300 deg C), not antigorite (500-560 deg C)
+    ra = exact_profile(r.profile, n_layer=2**8, n_thermal=8, n_replicates=2, seed=0,
+                       forward={"serpentine": "antigorite"})
+    assert ra.settings["serpentine"] == "antigorite"
+    np.testing.assert_allclose(profile_figure_curves(ra)["serpentine"][1],
+                               th.serpentine_stability_c(p, kind="antigorite"))
