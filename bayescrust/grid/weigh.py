@@ -98,14 +98,13 @@ def node_loglik(model, q, values, sigmas, dtype=np.float64):
     """
     from scipy import special
 
-    from ..inference.likelihood import MODEL_ERROR_CORRELATION
-
+    rho = model.error_correlation
     total = None
     ens = False
     # Vp and Vs model errors are correlated as in LayerModel.log_likelihood_terms: the Vs term
     # is then the conditional density given Vp (Gaussian likelihood, no Vp/Vs datum)
     corr = (model.likelihood == "gaussian" and "vp" in values and "vs" in values
-            and "vp_vs" not in values and MODEL_ERROR_CORRELATION > 0.0)
+            and "vp_vs" not in values and rho > 0.0)
     order = sorted(values, key=lambda k: k != "vp")  # Vp first: the Vs term may need it
     sig_vp = None
     for k in order:
@@ -121,7 +120,7 @@ def node_loglik(model, q, values, sigmas, dtype=np.float64):
             sig_vp = sig
         elif k == "vs" and corr:
             p_vp = np.asarray(q["vp"], dtype)[None, :]
-            c = (MODEL_ERROR_CORRELATION * model.model_error["vp"] * model.model_error["vs"]
+            c = (rho * model.model_error["vp"] * model.model_error["vs"]
                  * p_vp * p)
             gain = c / sig_vp**2
             sig = np.sqrt(np.maximum(sig * sig - c * gain, np.finfo(dtype).tiny))

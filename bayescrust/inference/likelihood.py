@@ -49,6 +49,17 @@ def _error_correlation(me: dict) -> float:
 MODEL_ERROR_CORRELATION = _error_correlation(DEFAULT_MODEL_ERROR)
 
 
+def _error_correlation_for(model_error) -> float:
+    """Correlation of the Vp and Vs model errors for a user's ``model_error``: from its own
+    Vp, Vs and Vp/Vs errors (each missing one the calibrated default) when it gives a Vp/Vs
+    error, else the calibrated :data:`MODEL_ERROR_CORRELATION`."""
+    if isinstance(model_error, dict) and model_error.get("vp_vs") is not None:
+        me = {k: float(model_error.get(k, DEFAULT_MODEL_ERROR[k])) for k in ("vp", "vs", "vp_vs")}
+        if me["vp"] > 0 and me["vs"] > 0:
+            return _error_correlation(me)
+    return MODEL_ERROR_CORRELATION
+
+
 def _resolve_model_error(model_error, observed) -> dict[str, float]:
     if model_error is None:
         return {k: DEFAULT_MODEL_ERROR[k] for k in observed}
@@ -101,9 +112,9 @@ class ObservationErrors:
             sig = self.total_sigma(k, pred[k])
             mean = pred[k]
             if k == "vs" and self._correlated(obs):
-                # Gaussian model errors of Vp and Vs correlated (MODEL_ERROR_CORRELATION): the
+                # Gaussian model errors of Vp and Vs correlated (error_correlation): the
                 # joint density factorises as p(vp) p(vs | vp), so the Vs term is conditional
-                c = (MODEL_ERROR_CORRELATION * self.model_error["vp"] * self.model_error["vs"]
+                c = (self.error_correlation * self.model_error["vp"] * self.model_error["vs"]
                      * np.asarray(pred["vp"]) * np.asarray(pred["vs"]))
                 sig_p = self.total_sigma("vp", pred["vp"])
                 mean = pred["vs"] + c / sig_p**2 * (np.asarray(obs["vp"]) - pred["vp"])
@@ -132,7 +143,7 @@ class ObservationErrors:
             mean = np.asarray(pred[k], float)
             sig = self.total_sigma(k, mean)
             if k == "vs" and self._correlated(obs):
-                c = (MODEL_ERROR_CORRELATION * self.model_error["vp"] * self.model_error["vs"]
+                c = (self.error_correlation * self.model_error["vp"] * self.model_error["vs"]
                      * np.asarray(pred["vp"]) * mean)
                 sig_p = self.total_sigma("vp", pred["vp"])
                 mean = mean + c / sig_p**2 * (out["vp"] - pred["vp"])
@@ -146,4 +157,4 @@ class ObservationErrors:
         """Whether the Vs term is conditional on Vp (Gaussian likelihood, both observed, no
         separate Vp/Vs datum); Student-t errors are treated as independent."""
         return (self.likelihood == "gaussian" and "vp" in obs and "vs" in obs
-                and "vp_vs" not in obs and MODEL_ERROR_CORRELATION > 0.0)
+                and "vp_vs" not in obs and self.error_correlation > 0.0)

@@ -29,6 +29,7 @@ from .likelihood import (  # noqa: F401 - DEFAULT_MODEL_ERROR, MODEL_ERROR_CORRE
     DEFAULT_MODEL_ERROR,
     MODEL_ERROR_CORRELATION,
     ObservationErrors,
+    _error_correlation_for,
     _resolve_model_error,
 )
 from .priors import Dirichlet, LogUniform, Uniform, as_prior
@@ -142,6 +143,7 @@ class LayerModel(ObservationErrors):
     families: dict
     settings: dict
     pore_pressure_gpa: float | None = None  # hydrostatic pore pressure (crack closure)
+    error_correlation: float = MODEL_ERROR_CORRELATION  # of the Vp and Vs model errors
 
     # ------------------------------------------------------------------ construction
     @classmethod
@@ -298,6 +300,7 @@ class LayerModel(ObservationErrors):
         }
         observed = layer.observed
         me = _resolve_model_error(model_error, observed)
+        rho_err = _error_correlation_for(model_error)
         if likelihood not in ("gaussian", "student_t"):
             raise ValueError(f"likelihood must be 'gaussian' or 'student_t'; got {likelihood!r}")
         nu = float(nu)
@@ -318,6 +321,7 @@ class LayerModel(ObservationErrors):
                                   if hasattr(priors.get("temperature_c"), "for_layer")
                                   else scalar_priors["temperature_c"].describe()),
             "model_error": me,
+            **({"model_error_correlation": rho_err} if "vp" in me and "vs" in me else {}),
             "likelihood": likelihood,
             "nu": nu if likelihood == "student_t" else None,
             "forward": fwd_settings,
@@ -330,8 +334,8 @@ class LayerModel(ObservationErrors):
             fixed_fractions=fixed_fractions, scalar_priors=scalar_priors, free=tuple(free),
             fixed=fixed, pressure_gpa=pressure, rock_solidus_c=rock_solidus,
             serpentine_limit_c=serp_lim, observed=observed, model_error=me,
-            likelihood=likelihood, nu=nu, ultramafic=ultramafic, families=families,
-            settings=settings, pore_pressure_gpa=pore_pressure,
+            error_correlation=rho_err, likelihood=likelihood, nu=nu, ultramafic=ultramafic,
+            families=families, settings=settings, pore_pressure_gpa=pore_pressure,
         )
 
     # ------------------------------------------------------------------ coordinates

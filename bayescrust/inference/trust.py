@@ -100,15 +100,13 @@ def _pair_ratio_check(model, q: dict) -> dict:
     the covariance of the correlated model errors (first-order propagation; Gaussian
     replicates, also used for the Student-t as an approximation).
     """
-    from .likelihood import MODEL_ERROR_CORRELATION
-
     (yp, _), (ys, _) = model.observed["vp"], model.observed["vs"]
     mp = np.asarray(q["vp"], float).ravel()
     ms = np.asarray(q["vs"], float).ravel()
     ok = np.isfinite(mp) & np.isfinite(ms) & (ms > 0)
     mp, ms = mp[ok], ms[ok]
     sp, ss = model.total_sigma("vp", mp), model.total_sigma("vs", ms)
-    rho = MODEL_ERROR_CORRELATION if model.likelihood == "gaussian" else 0.0
+    rho = model.error_correlation if model.likelihood == "gaussian" else 0.0
     c = rho * model.model_error["vp"] * model.model_error["vs"] * mp * ms
     var = (sp / mp) ** 2 + (ss / ms) ** 2 - 2 * c / (mp * ms)
     sd_i = np.sqrt(np.maximum(var, 1e-300))
