@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .levels import MANTLE_KEY, level_design, node_rng, plan_levels
+from .store import Store
 from .weigh import (
     STAT_QUANTITIES,
     DesignTables,
@@ -299,45 +300,6 @@ def _fingerprint(grid, zones, run):
     return h.hexdigest()[:16]
 
 
-# ----------------------------------------------------------------------------- the store
-class _Store:
-    """Finished chunks in a zarr group: one array per result, a ``done`` flag per chunk."""
-
-    def __init__(self, path, keys, n, n_chunks, chunk_size, fingerprint):
-        import zarr
-
-        self.path = str(path)
-        self.group = zarr.open_group(self.path, mode="a")
-        fp = self.group.attrs.get("fingerprint")
-        if fp is not None and fp != fingerprint:
-            raise ValueError(f"{self.path}: the checkpoint store belongs to another input or "
-                             "other settings; delete it or choose another store")
-        if fp is None:
-            for k in keys:
-                self.group.create_array(_zkey(k), shape=(max(n, 1),),
-                                        chunks=(max(1, chunk_size),), dtype="float32",
-                                        fill_value=np.nan)
-            self.group.create_array("done", shape=(max(n_chunks, 1),), chunks=(1,),
-                                    dtype="int8", fill_value=0)
-            self.group.attrs["fingerprint"] = fingerprint
-        self.keys = keys
-
-    def done(self):
-        return np.asarray(self.group["done"][:], bool)
-
-    def write(self, c, a, b, result):
-        for k in self.keys:
-            self.group[_zkey(k)][a:b] = result[k]
-        self.group["done"][c] = 1
-
-    def read(self, n):
-        return {k: np.asarray(self.group[_zkey(k)][:n]) for k in self.keys}
-
-
-def _zkey(k):
-    return k.replace(":", "__").replace(" ", "_")
-
-
 # ----------------------------------------------------------------------------- driver
 def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0, refine=True,
              n_refine=None, n_table=65, table_tol=0.001, chunk_size=50_000, path="auto",
@@ -406,7 +368,7 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     n = order.size
     n_chunks = int(math.ceil(n / run.chunk_size)) if n else 0
     fp = _fingerprint(grid, zones, run)
-    st = _Store(store, keys, n, n_chunks, run.chunk_size, fp) if store is not None else None
+    st = Store(store, keys, n, n_chunks, run.chunk_size, fp) if store is not None else None
     done = st.done()[:n_chunks] if st is not None else np.zeros(n_chunks, bool)
     todo = [c for c in range(n_chunks) if not done[c]]
     # results go straight into grid-ordered float32 arrays, which become the Dataset's
