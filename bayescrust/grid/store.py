@@ -1,10 +1,34 @@
-"""The zarr checkpoint store of a grid map: one array per result, a ``done`` flag per chunk."""
+"""The zarr checkpoint store of a grid map: one array per result, a ``done`` flag per chunk.
+
+A path is used as a store only if nothing is there yet or it already holds a checkpoint store
+of this package (a zarr group with a ``fingerprint`` attribute, :func:`store_status`): a
+user's folder is never written into, nor deleted by ``bayescrust map`` after the run.
+"""
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 
-__all__ = ["Store"]
+__all__ = ["Store", "store_status"]
+
+
+def store_status(path) -> str:
+    """``"absent"`` (nothing at ``path``), ``"checkpoint"`` (a checkpoint store of this
+    package) or ``"foreign"`` (anything else, an empty folder included)."""
+    p = Path(path)
+    if not p.exists() and not p.is_symlink():
+        return "absent"
+    if not p.is_dir():
+        return "foreign"
+    import zarr
+
+    try:
+        group = zarr.open_group(str(p), mode="r")
+    except Exception:  # noqa: BLE001 - not a zarr group (or an unreadable one): not ours
+        return "foreign"
+    return "checkpoint" if "fingerprint" in group.attrs else "foreign"
 
 
 class Store:
@@ -14,6 +38,9 @@ class Store:
         import zarr
 
         self.path = str(path)
+        if store_status(path) == "foreign":
+            raise ValueError(f"{self.path}: exists and is not a checkpoint store of bayescrust "
+                             "(no fingerprint); choose another store")
         self.group = zarr.open_group(self.path, mode="a")
         fp = self.group.attrs.get("fingerprint")
         if fp is not None and fp != fingerprint:

@@ -57,3 +57,39 @@ def test_bad_grid_study_exits_2_and_names_the_key(tmp_path, section, capsys):
     study.write_text(STUDY.format(sigma="-1"))
     assert main(["map", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
     assert "grid.sigmas.vp" in capsys.readouterr().err
+
+
+def test_map_refuses_a_store_that_is_a_user_folder_or_overlaps_the_output(tmp_path, section,
+                                                                          capsys):
+    study = _setup(tmp_path, section)
+    mine = tmp_path / "mydata"
+    mine.mkdir()
+    (mine / "notes.txt").write_text("keep me")
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "--store", str(mine), "-q",
+                 "--no-figures"]) == 2
+    err = capsys.readouterr().err
+    assert "--store" in err and "mydata" in err and "not a checkpoint store" in err
+    assert (mine / "notes.txt").read_text() == "keep me" and not out.exists()
+    for store in (out, out / "ckpt", tmp_path):  # equal to, inside, holding --out
+        assert main(["map", str(study), "--out", str(out), "--store", str(store), "-q",
+                     "--no-figures"]) == 2
+        assert "--store" in capsys.readouterr().err
+    assert (mine / "notes.txt").exists() and not out.exists()
+
+
+def test_map_resumes_from_and_then_removes_its_own_store(tmp_path, section):
+    from bayescrust.config.grid import load_grid_study
+    from bayescrust.grid import map_grid, read_grid
+
+    study = _setup(tmp_path, section)
+    st = load_grid_study(study)
+    store = tmp_path / "ck.zarr"
+    map_grid(read_grid(st.file, st.mapping), st.zones, seed=st.seed, store=store,
+             **st.options)
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "--store", str(store), "-q",
+                 "--no-figures"]) == 0
+    with xr.open_dataset(out / "map.nc") as ds:
+        assert ds.attrs["n_chunks_computed"] == 0          # everything came from the store
+    assert not store.exists()
