@@ -52,8 +52,8 @@ def section_map(ds, var, *, contour_vp=7.5, title=None):
                 cs = ax.contour(x, z, vp, levels=[contour_vp], colors="white", linewidths=1.0)
                 ax.clabel(cs, fmt="Vp %.1f km/s", fontsize=7)
         if "seafloor_depth" in ds:
-            sf = _section(ds, "seafloor_depth")[0] if ds["seafloor_depth"].ndim > 1 \
-                else ds["seafloor_depth"]
+            sf = ds["seafloor_depth"]  # no depth dim: the middle of its other horizontal dims
+            sf = sf.isel({d: sf.sizes[d] // 2 for d in sf.dims if d != dist_dim})
             if ds.attrs.get("depth_reference") == "sea_level":
                 scale = 1000.0 if ds.attrs.get("depth_unit") == "m" else 1.0
                 ax.plot(sf[dist_dim].values, sf.values * scale, color="black", lw=1.5,

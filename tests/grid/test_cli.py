@@ -93,3 +93,43 @@ def test_map_resumes_from_and_then_removes_its_own_store(tmp_path, section):
     with xr.open_dataset(out / "map.nc") as ds:
         assert ds.attrs["n_chunks_computed"] == 0          # everything came from the store
     assert not store.exists()
+
+
+STUDY_3D = """
+seed = 3
+[grid]
+file = "g3.nc"
+depth = "z"
+seafloor = "sf"
+{distance}
+variables = {{ vp = "vp" }}
+sigmas = {{ vp = 0.1 }}
+level_km = 1.0
+n_points = 1024
+min_ess = 0
+[[grid.zones]]
+name = "lower"
+top_km = 0.0
+bottom_km = 20.0
+rocks = ["gabbro", "harzburgite"]
+"""
+
+
+def _setup_3d(tmp_path, distance=""):
+    """A tiny invented (x, y, z) volume with a seafloor varying over x and y."""
+    x, y, z = np.array([0.0, 10.0, 20.0]), np.array([0.0, 5.0]), np.arange(2.0, 12.0, 0.5)
+    sf = np.array([[2.0, 2.5], [3.0, 3.5], [4.0, 4.5]])
+    vp = np.clip(4.5 + 0.5 * (z[None, None, :] - sf[:, :, None]), 2.0, 8.2)
+    xr.Dataset({"vp": (("x", "y", "z"), vp), "sf": (("x", "y"), sf)},
+               coords={"x": x, "y": y, "z": z}).to_netcdf(tmp_path / "g3.nc", engine="h5netcdf")
+    p = tmp_path / "study3.toml"
+    p.write_text(STUDY_3D.format(distance=distance))
+    return p
+
+
+def test_map_of_a_3d_grid_writes_its_section_maps(tmp_path):
+    study = _setup_3d(tmp_path)
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "-q"]) == 0
+    assert (out / "maps" / "map_p_mantle.png").exists()
+    assert (out / "maps" / "map_p_mantle.pdf").exists()
