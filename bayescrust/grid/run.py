@@ -101,9 +101,16 @@ _CACHE_SIZE = 3
 TIMES = {"design_s": 0.0, "tables_s": 0.0, "redo_nodes": 0}
 
 
+def _design_key(spec, zone, observables, run):
+    """Everything a level's design depends on: its stream (seed, zone and level index), its
+    depth and water depth (the pressure), its age range, the zone's priors and the model."""
+    return (spec["zone"], spec["key"], float(spec["depth_km"]), float(spec["water_depth_km"]),
+            spec.get("age_range"), run.seed, run.n_points, repr(zone), repr(run.options),
+            tuple(observables))
+
+
 def _design(spec, zone, observables, run):
-    key = (spec["zone"], spec["key"], spec.get("age_range"), run.seed, run.n_points, repr(zone),
-           repr(run.options), tuple(observables))
+    key = _design_key(spec, zone, observables, run)
     if key in _CACHE:
         _CACHE.move_to_end(key)
         return _CACHE[key]
@@ -135,9 +142,11 @@ def _design(spec, zone, observables, run):
 _TABLES: OrderedDict = OrderedDict()
 
 
-def _table_cache(spec, run):
-    """A per-level dict in which the level's table is kept (for the chunks of one process)."""
-    key = (spec["zone"], spec["key"], run)
+def _table_cache(spec, zone, observables, run, sigma):
+    """A per-level dict in which the level's table is kept (for the chunks of one process),
+    keyed by the level's design, the sigma and the table's observed values (the data range)."""
+    key = (_design_key(spec, zone, observables, run), float(sigma),
+           tuple(np.asarray(spec["table"], float).tolist()))
     if key not in _TABLES:
         _TABLES[key] = {}
         while len(_TABLES) > _CACHE_SIZE:
@@ -168,7 +177,8 @@ def run_chunk(task):
         ages = part.get("ages") if ratio is not None else None
         if spec["path"] == "tabulated":
             name = next(iter(values))
-            cache = _table_cache(spec, run)
+            cache = _table_cache(spec, zones[spec["zone"]], list(values), run,
+                                 sigmas[name][0])
             if "tab" not in cache:
                 t0 = time.perf_counter()
                 y_fine, tkeys, mat, err = level_table(model, q, tables, name,
