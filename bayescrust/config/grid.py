@@ -178,6 +178,13 @@ def parse_grid_study(text, *, source="<string>", base=None) -> GridStudy:
             priors["temperature_c"] = build_thermal_prior(thermal[name])
         zname = r.string(f"{key}.name", z.get("name", f"zone {i + 1}"))
         zones.append(Zone(zname, top, bottom, rocks=tuple(rocks), priors=priors or None))
+    by_top = sorted(range(len(zones)), key=lambda i: zones[i].top_km)
+    for i, j in zip(by_top, by_top[1:], strict=False):  # disjoint iff no neighbours overlap
+        a, b = zones[i], zones[j]
+        if b.top_km < a.bottom_km:
+            r.fail(f"grid.zones[{j}]", f"{b.name!r} ({b.top_km:g}-{b.bottom_km:g} km) overlaps "
+                   f"grid.zones[{i}] {a.name!r} ({a.top_km:g}-{a.bottom_km:g} km below the "
+                   "seafloor); zones must not overlap")
     if age is not None:
         from ..grid.ages import age_aware
 

@@ -133,3 +133,14 @@ def test_map_of_a_3d_grid_writes_its_section_maps(tmp_path):
     assert main(["map", str(study), "--out", str(out), "-q"]) == 0
     assert (out / "maps" / "map_p_mantle.png").exists()
     assert (out / "maps" / "map_p_mantle.pdf").exists()
+
+
+def test_overlapping_zones_are_refused_naming_the_file_and_both_zones(tmp_path, section,
+                                                                       capsys):
+    study = _setup(tmp_path, section)
+    study.write_text(STUDY.format(sigma="0.1") + '[[grid.zones]]\nname = "deep"\n'
+                     'top_km = 0.5\nbottom_km = 2.0\nrocks = ["gabbro"]\n')
+    assert main(["map", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
+    err = capsys.readouterr().err
+    assert "study.toml" in err and "grid.zones[0]" in err and "grid.zones[1]" in err
+    assert "overlap" in err and not (tmp_path / "o").exists()
