@@ -1,8 +1,11 @@
 """The zarr checkpoint store of a grid map: one array per result, a ``done`` flag per chunk.
 
-A path is used as a store only if nothing is there yet or it already holds a checkpoint store
-of this package (a zarr group with a ``fingerprint`` attribute, :func:`store_status`): a
-user's folder is never written into, nor deleted by ``bayescrust map`` after the run.
+A store is created in this order: the group with the marker attribute ``bayescrust_checkpoint``
+(one write of the group's metadata), the arrays, and last the ``fingerprint`` of the input and
+settings. A store with the marker but no fingerprint was interrupted while being created and is
+created afresh. A path is used as a store only if nothing is there yet or it holds a store of
+this package (:func:`store_status`): a user's folder is never written into, nor deleted by
+``bayescrust map`` after the run.
 """
 
 from __future__ import annotations
@@ -11,12 +14,17 @@ from pathlib import Path
 
 import numpy as np
 
-__all__ = ["Store", "store_status"]
+__all__ = ["Store", "store_status", "MARKER"]
+
+#: group attribute written when a store is created (before its arrays)
+MARKER = "bayescrust_checkpoint"
 
 
 def store_status(path) -> str:
-    """``"absent"`` (nothing at ``path``), ``"checkpoint"`` (a checkpoint store of this
-    package) or ``"foreign"`` (anything else, an empty folder included)."""
+    """``"absent"`` (nothing at ``path``), ``"checkpoint"`` (a complete checkpoint store of
+    this package: it has a fingerprint), ``"incomplete"`` (a store of this package whose
+    creation was interrupted: the marker, no fingerprint) or ``"foreign"`` (anything else, an
+    empty folder included)."""
     p = Path(path)
     if not p.exists() and not p.is_symlink():
         return "absent"
@@ -25,10 +33,12 @@ def store_status(path) -> str:
     import zarr
 
     try:
-        group = zarr.open_group(str(p), mode="r")
+        attrs = dict(zarr.open_group(str(p), mode="r").attrs)
     except Exception:  # noqa: BLE001 - not a zarr group (or an unreadable one): not ours
         return "foreign"
-    return "checkpoint" if "fingerprint" in group.attrs else "foreign"
+    if "fingerprint" in attrs:
+        return "checkpoint"
+    return "incomplete" if MARKER in attrs else "foreign"
 
 
 class Store:
@@ -38,23 +48,25 @@ class Store:
         import zarr
 
         self.path = str(path)
-        if store_status(path) == "foreign":
+        self.keys = keys
+        status = store_status(path)
+        if status == "foreign":
             raise ValueError(f"{self.path}: exists and is not a checkpoint store of bayescrust "
                              "(no fingerprint); choose another store")
-        self.group = zarr.open_group(self.path, mode="a")
-        fp = self.group.attrs.get("fingerprint")
-        if fp is not None and fp != fingerprint:
-            raise ValueError(f"{self.path}: the checkpoint store belongs to another input or "
-                             "other settings; delete it or choose another store")
-        if fp is None:
-            for k in keys:
-                self.group.create_array(_zkey(k), shape=(max(n, 1),),
-                                        chunks=(max(1, chunk_size),), dtype="float32",
-                                        fill_value=np.nan)
-            self.group.create_array("done", shape=(max(n_chunks, 1),), chunks=(1,),
-                                    dtype="int8", fill_value=0)
-            self.group.attrs["fingerprint"] = fingerprint
-        self.keys = keys
+        if status == "checkpoint":
+            self.group = zarr.open_group(self.path, mode="r+")
+            if self.group.attrs["fingerprint"] != fingerprint:
+                raise ValueError(f"{self.path}: the checkpoint store belongs to another input "
+                                 "or other settings; delete it or choose another store")
+            return
+        # absent, or ours but interrupted while being created: (re)create it, fingerprint last
+        self.group = zarr.open_group(self.path, mode="w", attributes={MARKER: 1})
+        for k in keys:
+            self.group.create_array(_zkey(k), shape=(max(n, 1),), chunks=(max(1, chunk_size),),
+                                    dtype="float32", fill_value=np.nan)
+        self.group.create_array("done", shape=(max(n_chunks, 1),), chunks=(1,), dtype="int8",
+                                fill_value=0)
+        self.group.attrs["fingerprint"] = fingerprint  # last: the store is complete
 
     def done(self):
         return np.asarray(self.group["done"][:], bool)
