@@ -144,3 +144,26 @@ def test_overlapping_zones_are_refused_naming_the_file_and_both_zones(tmp_path, 
     err = capsys.readouterr().err
     assert "study.toml" in err and "grid.zones[0]" in err and "grid.zones[1]" in err
     assert "overlap" in err and not (tmp_path / "o").exists()
+
+
+def test_the_distance_setting_reaches_the_column_summary_and_the_maps(tmp_path):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    import pandas as pd
+
+    from bayescrust.report.grid_maps import section_map
+
+    study = _setup_3d(tmp_path, distance='distance = "y"')
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "-q"]) == 0
+    df = pd.read_csv(out / "column_summary.csv")
+    assert list(df.columns[:2]) == ["distance", "x"]          # y is the distance; x beside it
+    assert len(df) == 6 and not df.duplicated(["distance", "x"]).any()
+    assert sorted(set(df["distance"])) == [0.0, 5.0] and sorted(set(df["x"])) == [0, 10, 20]
+    with xr.open_dataset(out / "map.nc") as ds:
+        assert ds.attrs["distance"] == "y"
+        fig = section_map(ds, "p_mantle")
+        assert fig.axes[0].get_xlabel() == "y"
+        plt.close(fig)
