@@ -45,8 +45,9 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
              f"poor (importance ESS < {ds.attrs['min_ess']:g}); see the `quality` variable",
              "- `map.nc`: every probability and posterior summary on the input grid",
              "- `column_summary.csv`: depth below the seafloor where the mantle becomes more "
-             "likely than not (P = 0.5), with the depths of P = 0.25 and 0.75, per column "
-             f"(`distance`: the `{ds.attrs['distance']}` coordinate)"]
+             "likely than not (P = 0.5), with the depths of P = 0.25 and 0.75, per column"
+             + (f" (`distance`: the `{ds.attrs['distance']}` coordinate)"
+                if "distance" in ds.attrs else " (one column)")]
     if figures:
         use_agg()
         from ..report.grid_maps import write_section_maps

@@ -123,9 +123,10 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
                                 f"rocks {', '.join(z.rocks)}" for z in zones),
              "n_nodes": n, "n_masked": int(n - order.size), "depth_unit": grid.depth_unit,
              "depth_reference": grid.depth_reference,
-             "distance": "x" if dims == ("node",) else grid.distance_name,
              "n_refined": int(np.sum(q == QUALITY_FLAGS["refined"])),
              "n_poor": int(np.sum(q == QUALITY_FLAGS["poor"]))}
+    if dims == ("node",) or grid.distance_name in other:  # none on a single column
+        attrs["distance"] = "x" if dims == ("node",) else grid.distance_name
     return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
@@ -147,8 +148,9 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
     The crossing is interpolated linearly between levels; ``depth_p25`` and ``depth_p75`` are
     the depths where P(mantle) first exceeds 0.25 and 0.75 (the transition's uncertainty).
     ``distance`` is the column's distance coordinate (default the map's ``distance``
-    attribute, the grid's ``distance`` setting); the other horizontal coordinates of a 3-D grid
-    follow, one column each, named by their dim, so every row names its column.
+    attribute, the grid's ``distance`` setting; NaN on a single-column grid); the other
+    horizontal coordinates of a 3-D grid follow, one column each, named by their dim, so every
+    row names its column.
 
     Returns
     -------
@@ -172,13 +174,16 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
         pt = p.transpose(*other, depth_dim).values.reshape(-1, p.sizes[depth_dim])
         zt = z.transpose(*other, depth_dim).values.reshape(-1, p.sizes[depth_dim])
         pz = list(zip(pt, zt, strict=True))
-        dn = distance or ds.attrs.get("distance") or other[0]
-        if dn not in other:
-            raise ValueError(f"distance {dn!r} is not a horizontal dim of the map {other}")
-        mesh = np.meshgrid(*[ds[d].values for d in other], indexing="ij")
-        names = np.asarray(mesh[other.index(dn)]).ravel().tolist()
-        extra = {d: np.asarray(m).ravel().tolist()
-                 for d, m in zip(other, mesh, strict=True) if d != dn}
+        if not other:  # a single column (depth dim only): no horizontal position
+            names = [np.nan]
+        else:
+            dn = distance or ds.attrs.get("distance") or other[0]
+            if dn not in other:
+                raise ValueError(f"distance {dn!r} is not a horizontal dim of the map {other}")
+            mesh = np.meshgrid(*[ds[d].values for d in other], indexing="ij")
+            names = np.asarray(mesh[other.index(dn)]).ravel().tolist()
+            extra = {d: np.asarray(m).ravel().tolist()
+                     for d, m in zip(other, mesh, strict=True) if d != dn}
     rows = []
     for i, (name, (pp, zz)) in enumerate(zip(names, pz, strict=True)):
         ok = np.isfinite(pp) & np.isfinite(zz)

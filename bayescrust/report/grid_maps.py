@@ -3,8 +3,8 @@
 Each map shows the probability on a perceptually uniform colour map (viridis, 0-1, with a colour
 bar in probability), masked nodes in grey, the seafloor, and a contour of the observed Vp. 3-D
 grids are mapped on the section along their distance dim (the grid's ``distance`` setting,
-default the first horizontal dim) through the middle of the other; node lists (CSV) as
-coloured nodes.
+default the first horizontal dim) through the middle of the other; single columns as a
+profile of probability against depth; node lists (CSV) as coloured nodes.
 """
 
 from __future__ import annotations
@@ -24,6 +24,8 @@ def _section(ds, var, distance=None):
     sf_dims = ds["seafloor_depth"].dims if "seafloor_depth" in ds else da.dims[:-1]
     depth_dim = next(d for d in da.dims if d not in sf_dims)
     others = [d for d in da.dims if d != depth_dim]
+    if not others:  # a single column: a profile
+        return da, depth_dim, None
     dist = distance or ds.attrs.get("distance")
     dist = dist if dist in others else others[0]
     da = da.isel({d: da.sizes[d] // 2 for d in others if d != dist})
@@ -45,6 +47,15 @@ def section_map(ds, var, *, contour_vp=7.5, title=None, distance=None):
         im = ax.scatter(x, z, c=np.ma.masked_invalid(da.values), cmap=cmap, vmin=0, vmax=1,
                         s=16)
         ax.set_xlabel("distance")
+    elif dist_dim is None:  # a single column: probability against depth
+        z, pv = da[depth_dim].values, da.values
+        ok = np.isfinite(pv)  # masked nodes are left out
+        ax.plot(pv[ok], z[ok], color="0.3", lw=1.0)
+        im = ax.scatter(pv[ok], z[ok], c=pv[ok], cmap=cmap, vmin=0, vmax=1, s=16)
+        ax.set_xlim(-0.02, 1.02)
+        ax.set_xlabel("probability")
+        ax.set_ylabel(f"{depth_dim} (km)")
+        ax.invert_yaxis()
     else:
         a = da.transpose(depth_dim, dist_dim)
         x, z = a[dist_dim].values, a[depth_dim].values

@@ -167,3 +167,18 @@ def test_the_distance_setting_reaches_the_column_summary_and_the_maps(tmp_path):
         fig = section_map(ds, "p_mantle")
         assert fig.axes[0].get_xlabel() == "y"
         plt.close(fig)
+
+
+def test_map_of_a_single_column_grid(tmp_path, section):
+    import pandas as pd
+
+    study = _setup(tmp_path, section)
+    section.isel(x=0).drop_vars("x").to_netcdf(tmp_path / "g.nc", engine="h5netcdf")  # (z,)
+    for extra in (["--no-figures"], []):
+        out = tmp_path / f"out{len(extra)}"
+        assert main(["map", str(study), "--out", str(out), "-q", *extra]) == 0
+        df = pd.read_csv(out / "column_summary.csv")
+        assert len(df) == 1 and df["n_nodes"][0] > 0 and np.isfinite(df["mantle_depth_km"][0])
+        with xr.open_dataset(out / "map.nc") as ds:
+            assert ds["p_mantle"].dims == ("z",)
+    assert (out / "maps" / "map_p_mantle.png").exists()
