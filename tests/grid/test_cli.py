@@ -182,3 +182,14 @@ def test_map_of_a_single_column_grid(tmp_path, section):
         with xr.open_dataset(out / "map.nc") as ds:
             assert ds["p_mantle"].dims == ("z",)
     assert (out / "maps" / "map_p_mantle.png").exists()
+
+
+def test_a_grid_study_without_seafloor_is_refused_naming_the_key(tmp_path, section, capsys):
+    study = _setup(tmp_path, section)
+    for ref in ("seafloor", "sea_level"):
+        study.write_text(STUDY.format(sigma="0.1").replace(
+            "seafloor = 3.0", f'depth_reference = "{ref}"'))
+        assert main(["map", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
+        err = capsys.readouterr().err
+        assert "study.toml" in err and "grid.seafloor" in err and "missing" in err
+    assert not (tmp_path / "o").exists()
