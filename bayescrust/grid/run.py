@@ -303,7 +303,12 @@ def _tasks(grid, zones, run, specs, order, level_of, keys, todo):
 
 
 def _fingerprint(grid, zones, run):
+    """Hash of the input, the zones, the settings and the package version (a store is not
+    resumed by another version: its results would be mixed with the new version's)."""
+    from .. import __version__
+
     h = hashlib.sha256()
+    h.update(f"bayescrust {__version__}".encode())
     h.update(grid.fingerprint().encode())
     h.update(repr([repr(z) for z in zones]).encode())
     h.update(repr(run).encode())

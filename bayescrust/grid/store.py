@@ -53,14 +53,21 @@ class Store:
         if status == "foreign":
             raise ValueError(f"{self.path}: exists and is not a checkpoint store of bayescrust "
                              "(no fingerprint); choose another store")
+        from .. import __version__
+
         if status == "checkpoint":
             self.group = zarr.open_group(self.path, mode="r+")
             if self.group.attrs["fingerprint"] != fingerprint:
-                raise ValueError(f"{self.path}: the checkpoint store belongs to another input "
-                                 "or other settings; delete it or choose another store")
+                made = self.group.attrs.get("bayescrust_version", "an earlier version")
+                why = ("another input or other settings" if made == __version__ else
+                       f"bayescrust {made}, not this {__version__} (the two versions' results "
+                       "are not mixed)")
+                raise ValueError(f"{self.path}: the checkpoint store belongs to {why}; delete "
+                                 "it or choose another store")
             return
         # absent, or ours but interrupted while being created: (re)create it, fingerprint last
-        self.group = zarr.open_group(self.path, mode="w", attributes={MARKER: 1})
+        self.group = zarr.open_group(self.path, mode="w",
+                                     attributes={MARKER: 1, "bayescrust_version": __version__})
         for k in keys:
             self.group.create_array(_zkey(k), shape=(max(n, 1),), chunks=(max(1, chunk_size),),
                                     dtype="float32", fill_value=np.nan)

@@ -49,3 +49,14 @@ def test_a_zarr_group_of_someone_else_is_neither_used_nor_overwritten(grid, tmp_
         map_grid(grid, ZONES, store=store, **KW)
     np.testing.assert_array_equal(zarr.open_group(str(store), mode="r")["velocity"][:],
                                   [1.0, 2.0, 3.0])
+
+
+def test_a_store_of_another_package_version_is_not_resumed(grid, tmp_path, monkeypatch):
+    import bayescrust
+
+    store = tmp_path / "map.zarr"
+    monkeypatch.setattr(bayescrust, "__version__", "0.1.0")
+    map_grid(grid, ZONES, store=store, **KW)
+    monkeypatch.setattr(bayescrust, "__version__", "0.2.0")  # an upgrade between two runs
+    with pytest.raises(ValueError, match="0.1.0"):
+        map_grid(grid, ZONES, store=store, **KW)
