@@ -45,7 +45,9 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
              f"poor (importance ESS < {ds.attrs['min_ess']:g}); see the `quality` variable",
              "- `map.nc`: every probability and posterior summary on the input grid",
              "- `column_summary.csv`: depth below the seafloor where the mantle becomes more "
-             "likely than not (P = 0.5), with the depths of P = 0.25 and 0.75"]
+             "likely than not (P = 0.5), with the depths of P = 0.25 and 0.75, per column"
+             + (f" (`distance`: the `{ds.attrs['distance']}` coordinate)"
+                if "distance" in ds.attrs else " (one column)")]
     if figures:
         use_agg()
         from ..report.grid_maps import write_section_maps
@@ -82,6 +84,7 @@ def cmd_map(args) -> int:
     out = Path(args.out)
     store = Path(args.store) if args.store else out.with_name(out.name + ".checkpoint.zarr")
     if not args.no_checkpoint:
+        _check_store(store, out, given=bool(args.store))
         try:
             import zarr  # noqa: F401
         except ImportError:
@@ -94,9 +97,32 @@ def cmd_map(args) -> int:
                figures=not args.no_figures,
                validate=args.validate if args.validate is not None else study.validate_nodes)
     if not args.no_checkpoint and store.exists():
-        shutil.rmtree(store)  # the finished map holds everything the store held
+        # created by this run or verified by map_grid (same fingerprint): the finished map
+        # holds everything it held
+        shutil.rmtree(store)
     print(out)
     return 0
+
+
+def _check_store(store: Path, out: Path, *, given: bool):
+    """Refuse a store that overlaps ``--out`` or is not a checkpoint store of this package
+    (the store is deleted after a successful run)."""
+    from ..grid.store import store_status
+
+    opt = "--store" if given else "--store (default OUT.checkpoint.zarr)"
+    s, o = store.resolve(), out.resolve()
+    if s == o or s in o.parents or o in s.parents:
+        raise InputError(f"{store}: {opt}: is, holds or lies inside the output folder {out} "
+                         "(--out); the store is deleted after the run, so choose a path outside "
+                         "the output")
+    try:
+        status = store_status(store)
+    except ImportError:
+        return  # no zarr: the caller runs without a store
+    if status == "foreign":
+        raise InputError(f"{store}: {opt}: exists and is not a checkpoint store of bayescrust "
+                         "(no fingerprint); it would be deleted after the run, so choose "
+                         "another path")
 
 
 def add_parser(sub) -> None:

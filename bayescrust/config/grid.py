@@ -11,7 +11,8 @@ A grid study is its own TOML file (``bayescrust map STUDY``)::
     depth = "z"                # depth dim (or CSV column), positive down
     depth_unit = "km"          # or "m"
     depth_reference = "sea_level"   # or "seafloor"
-    seafloor = "seafloor"      # variable/column name, or a number
+    seafloor = "seafloor"      # variable/column name, or a number (required, also for
+                               # depth_reference = "seafloor": it sets the pressure)
     variables = { vp = "vp" }  # observable -> variable
     sigmas = { vp = 0.1 }      # observable -> variable name or number
     age = 5.0                  # crustal age, Myr: a number, a per-column variable name, or
@@ -134,7 +135,11 @@ def parse_grid_study(text, *, source="<string>", base=None) -> GridStudy:
         if k not in sig:
             r.fail(f"grid.sigmas.{k}", f"missing; every variable needs a sigma ({k})")
     age = _read_age(r, g["age"]) if "age" in g else None
-    sf = g.get("seafloor", 0.0)
+    if "seafloor" not in g:  # no default: 0 km of water would pass silently
+        r.fail("grid.seafloor", "missing; give the seafloor depth below sea level (a variable "
+               "name or a number, depth unit): it sets each level's pressure, and the depth "
+               "below the seafloor of a sea-level-referenced grid")
+    sf = g["seafloor"]
     if not isinstance(sf, str):
         sf = r.number("grid.seafloor", sf, 0.0, 11000.0)
     try:
@@ -178,6 +183,13 @@ def parse_grid_study(text, *, source="<string>", base=None) -> GridStudy:
             priors["temperature_c"] = build_thermal_prior(thermal[name])
         zname = r.string(f"{key}.name", z.get("name", f"zone {i + 1}"))
         zones.append(Zone(zname, top, bottom, rocks=tuple(rocks), priors=priors or None))
+    by_top = sorted(range(len(zones)), key=lambda i: zones[i].top_km)
+    for i, j in zip(by_top, by_top[1:], strict=False):  # disjoint iff no neighbours overlap
+        a, b = zones[i], zones[j]
+        if b.top_km < a.bottom_km:
+            r.fail(f"grid.zones[{j}]", f"{b.name!r} ({b.top_km:g}-{b.bottom_km:g} km) overlaps "
+                   f"grid.zones[{i}] {a.name!r} ({a.top_km:g}-{a.bottom_km:g} km below the "
+                   "seafloor); zones must not overlap")
     if age is not None:
         from ..grid.ages import age_aware
 

@@ -125,6 +125,8 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
              "depth_reference": grid.depth_reference,
              "n_refined": int(np.sum(q == QUALITY_FLAGS["refined"])),
              "n_poor": int(np.sum(q == QUALITY_FLAGS["poor"]))}
+    if dims == ("node",) or grid.distance_name in other:  # none on a single column
+        attrs["distance"] = "x" if dims == ("node",) else grid.distance_name
     return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
@@ -145,6 +147,10 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
 
     The crossing is interpolated linearly between levels; ``depth_p25`` and ``depth_p75`` are
     the depths where P(mantle) first exceeds 0.25 and 0.75 (the transition's uncertainty).
+    ``distance`` is the column's distance coordinate (default the map's ``distance``
+    attribute, the grid's ``distance`` setting; NaN on a single-column grid); the other
+    horizontal coordinates of a 3-D grid follow, one column each, named by their dim, so every
+    row names its column.
 
     Returns
     -------
@@ -155,6 +161,7 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
     p = ds["p_mantle"]
     z = ds[depth_var]
     dims = p.dims
+    extra = {}
     if dims == ("node",):
         col = ds["x"].values if "x" in ds else np.zeros(p.size)
         groups = [(float(x), np.flatnonzero(col == x)) for x in np.unique(col)]
@@ -167,16 +174,24 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
         pt = p.transpose(*other, depth_dim).values.reshape(-1, p.sizes[depth_dim])
         zt = z.transpose(*other, depth_dim).values.reshape(-1, p.sizes[depth_dim])
         pz = list(zip(pt, zt, strict=True))
-        dn = distance or other[0]
-        mesh = np.meshgrid(*[ds[d].values for d in other], indexing="ij")
-        names = np.asarray(mesh[other.index(dn)]).ravel().tolist()
+        if not other:  # a single column (depth dim only): no horizontal position
+            names = [np.nan]
+        else:
+            dn = distance or ds.attrs.get("distance") or other[0]
+            if dn not in other:
+                raise ValueError(f"distance {dn!r} is not a horizontal dim of the map {other}")
+            mesh = np.meshgrid(*[ds[d].values for d in other], indexing="ij")
+            names = np.asarray(mesh[other.index(dn)]).ravel().tolist()
+            extra = {d: np.asarray(m).ravel().tolist()
+                     for d, m in zip(other, mesh, strict=True) if d != dn}
     rows = []
-    for name, (pp, zz) in zip(names, pz, strict=True):
+    for i, (name, (pp, zz)) in enumerate(zip(names, pz, strict=True)):
         ok = np.isfinite(pp) & np.isfinite(zz)
         pp, zz = pp[ok], zz[ok]
         o = np.argsort(zz)
         pp, zz = pp[o], zz[o]
-        rows.append({"distance": name, "n_nodes": int(ok.sum()),
+        rows.append({"distance": name, **{d: v[i] for d, v in extra.items()},
+                     "n_nodes": int(ok.sum()),
                      "mantle_depth_km": _crossing(zz, pp, 0.5),
                      "depth_p25_km": _crossing(zz, pp, 0.25),
                      "depth_p75_km": _crossing(zz, pp, 0.75)})

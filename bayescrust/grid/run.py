@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .levels import MANTLE_KEY, level_design, node_rng, plan_levels
+from .store import Store
 from .weigh import (
     STAT_QUANTITIES,
     DesignTables,
@@ -100,9 +101,16 @@ _CACHE_SIZE = 3
 TIMES = {"design_s": 0.0, "tables_s": 0.0, "redo_nodes": 0}
 
 
+def _design_key(spec, zone, observables, run):
+    """Everything a level's design depends on: its stream (seed, zone and level index), its
+    depth and water depth (the pressure), its age range, the zone's priors and the model."""
+    return (spec["zone"], spec["key"], float(spec["depth_km"]), float(spec["water_depth_km"]),
+            spec.get("age_range"), run.seed, run.n_points, repr(zone), repr(run.options),
+            tuple(observables))
+
+
 def _design(spec, zone, observables, run):
-    key = (spec["zone"], spec["key"], spec.get("age_range"), run.seed, run.n_points, repr(zone),
-           repr(run.options), tuple(observables))
+    key = _design_key(spec, zone, observables, run)
     if key in _CACHE:
         _CACHE.move_to_end(key)
         return _CACHE[key]
@@ -134,9 +142,11 @@ def _design(spec, zone, observables, run):
 _TABLES: OrderedDict = OrderedDict()
 
 
-def _table_cache(spec, run):
-    """A per-level dict in which the level's table is kept (for the chunks of one process)."""
-    key = (spec["zone"], spec["key"], run)
+def _table_cache(spec, zone, observables, run, sigma):
+    """A per-level dict in which the level's table is kept (for the chunks of one process),
+    keyed by the level's design, the sigma and the table's observed values (the data range)."""
+    key = (_design_key(spec, zone, observables, run), float(sigma),
+           tuple(np.asarray(spec["table"], float).tolist()))
     if key not in _TABLES:
         _TABLES[key] = {}
         while len(_TABLES) > _CACHE_SIZE:
@@ -167,7 +177,8 @@ def run_chunk(task):
         ages = part.get("ages") if ratio is not None else None
         if spec["path"] == "tabulated":
             name = next(iter(values))
-            cache = _table_cache(spec, run)
+            cache = _table_cache(spec, zones[spec["zone"]], list(values), run,
+                                 sigmas[name][0])
             if "tab" not in cache:
                 t0 = time.perf_counter()
                 y_fine, tkeys, mat, err = level_table(model, q, tables, name,
@@ -292,50 +303,16 @@ def _tasks(grid, zones, run, specs, order, level_of, keys, todo):
 
 
 def _fingerprint(grid, zones, run):
+    """Hash of the input, the zones, the settings and the package version (a store is not
+    resumed by another version: its results would be mixed with the new version's)."""
+    from .. import __version__
+
     h = hashlib.sha256()
+    h.update(f"bayescrust {__version__}".encode())
     h.update(grid.fingerprint().encode())
     h.update(repr([repr(z) for z in zones]).encode())
     h.update(repr(run).encode())
     return h.hexdigest()[:16]
-
-
-# ----------------------------------------------------------------------------- the store
-class _Store:
-    """Finished chunks in a zarr group: one array per result, a ``done`` flag per chunk."""
-
-    def __init__(self, path, keys, n, n_chunks, chunk_size, fingerprint):
-        import zarr
-
-        self.path = str(path)
-        self.group = zarr.open_group(self.path, mode="a")
-        fp = self.group.attrs.get("fingerprint")
-        if fp is not None and fp != fingerprint:
-            raise ValueError(f"{self.path}: the checkpoint store belongs to another input or "
-                             "other settings; delete it or choose another store")
-        if fp is None:
-            for k in keys:
-                self.group.create_array(_zkey(k), shape=(max(n, 1),),
-                                        chunks=(max(1, chunk_size),), dtype="float32",
-                                        fill_value=np.nan)
-            self.group.create_array("done", shape=(max(n_chunks, 1),), chunks=(1,),
-                                    dtype="int8", fill_value=0)
-            self.group.attrs["fingerprint"] = fingerprint
-        self.keys = keys
-
-    def done(self):
-        return np.asarray(self.group["done"][:], bool)
-
-    def write(self, c, a, b, result):
-        for k in self.keys:
-            self.group[_zkey(k)][a:b] = result[k]
-        self.group["done"][c] = 1
-
-    def read(self, n):
-        return {k: np.asarray(self.group[_zkey(k)][:n]) for k in self.keys}
-
-
-def _zkey(k):
-    return k.replace(":", "__").replace(" ", "_")
 
 
 # ----------------------------------------------------------------------------- driver
@@ -406,7 +383,7 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     n = order.size
     n_chunks = int(math.ceil(n / run.chunk_size)) if n else 0
     fp = _fingerprint(grid, zones, run)
-    st = _Store(store, keys, n, n_chunks, run.chunk_size, fp) if store is not None else None
+    st = Store(store, keys, n, n_chunks, run.chunk_size, fp) if store is not None else None
     done = st.done()[:n_chunks] if st is not None else np.zeros(n_chunks, bool)
     todo = [c for c in range(n_chunks) if not done[c]]
     # results go straight into grid-ordered float32 arrays, which become the Dataset's

@@ -266,8 +266,9 @@ def grid_from_dataset(ds, mapping: GridMapping, *, source="<dataset>") -> GridDa
         valid = _check_values(source, obs, v, s, valid)
         values[obs], sigmas[obs] = v, s
     dname = m.distance or (other[0] if other else m.depth)
-    if dname not in coords:
-        raise GridInputError(source, dname, f"distance coordinate not among dims {dims}")
+    if dname not in coords or (other and dname not in other):
+        raise GridInputError(source, dname, f"distance coordinate not among the horizontal dims "
+                             f"{tuple(other)}")
     if other:
         mesh = np.meshgrid(*[coords[d] for d in other], indexing="ij")
         dist = np.asarray(mesh[other.index(dname)], float).ravel()

@@ -57,3 +57,139 @@ def test_bad_grid_study_exits_2_and_names_the_key(tmp_path, section, capsys):
     study.write_text(STUDY.format(sigma="-1"))
     assert main(["map", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
     assert "grid.sigmas.vp" in capsys.readouterr().err
+
+
+def test_map_refuses_a_store_that_is_a_user_folder_or_overlaps_the_output(tmp_path, section,
+                                                                          capsys):
+    study = _setup(tmp_path, section)
+    mine = tmp_path / "mydata"
+    mine.mkdir()
+    (mine / "notes.txt").write_text("keep me")
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "--store", str(mine), "-q",
+                 "--no-figures"]) == 2
+    err = capsys.readouterr().err
+    assert "--store" in err and "mydata" in err and "not a checkpoint store" in err
+    assert (mine / "notes.txt").read_text() == "keep me" and not out.exists()
+    for store in (out, out / "ckpt", tmp_path):  # equal to, inside, holding --out
+        assert main(["map", str(study), "--out", str(out), "--store", str(store), "-q",
+                     "--no-figures"]) == 2
+        assert "--store" in capsys.readouterr().err
+    assert (mine / "notes.txt").exists() and not out.exists()
+
+
+def test_map_resumes_from_and_then_removes_its_own_store(tmp_path, section):
+    from bayescrust.config.grid import load_grid_study
+    from bayescrust.grid import map_grid, read_grid
+
+    study = _setup(tmp_path, section)
+    st = load_grid_study(study)
+    store = tmp_path / "ck.zarr"
+    map_grid(read_grid(st.file, st.mapping), st.zones, seed=st.seed, store=store,
+             **st.options)
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "--store", str(store), "-q",
+                 "--no-figures"]) == 0
+    with xr.open_dataset(out / "map.nc") as ds:
+        assert ds.attrs["n_chunks_computed"] == 0          # everything came from the store
+    assert not store.exists()
+
+
+STUDY_3D = """
+seed = 3
+[grid]
+file = "g3.nc"
+depth = "z"
+seafloor = "sf"
+{distance}
+variables = {{ vp = "vp" }}
+sigmas = {{ vp = 0.1 }}
+level_km = 1.0
+n_points = 1024
+min_ess = 0
+[[grid.zones]]
+name = "lower"
+top_km = 0.0
+bottom_km = 20.0
+rocks = ["gabbro", "harzburgite"]
+"""
+
+
+def _setup_3d(tmp_path, distance=""):
+    """A tiny invented (x, y, z) volume with a seafloor varying over x and y."""
+    x, y, z = np.array([0.0, 10.0, 20.0]), np.array([0.0, 5.0]), np.arange(2.0, 12.0, 0.5)
+    sf = np.array([[2.0, 2.5], [3.0, 3.5], [4.0, 4.5]])
+    vp = np.clip(4.5 + 0.5 * (z[None, None, :] - sf[:, :, None]), 2.0, 8.2)
+    xr.Dataset({"vp": (("x", "y", "z"), vp), "sf": (("x", "y"), sf)},
+               coords={"x": x, "y": y, "z": z}).to_netcdf(tmp_path / "g3.nc", engine="h5netcdf")
+    p = tmp_path / "study3.toml"
+    p.write_text(STUDY_3D.format(distance=distance))
+    return p
+
+
+def test_map_of_a_3d_grid_writes_its_section_maps(tmp_path):
+    study = _setup_3d(tmp_path)
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "-q"]) == 0
+    assert (out / "maps" / "map_p_mantle.png").exists()
+    assert (out / "maps" / "map_p_mantle.pdf").exists()
+
+
+def test_overlapping_zones_are_refused_naming_the_file_and_both_zones(tmp_path, section,
+                                                                       capsys):
+    study = _setup(tmp_path, section)
+    study.write_text(STUDY.format(sigma="0.1") + '[[grid.zones]]\nname = "deep"\n'
+                     'top_km = 0.5\nbottom_km = 2.0\nrocks = ["gabbro"]\n')
+    assert main(["map", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
+    err = capsys.readouterr().err
+    assert "study.toml" in err and "grid.zones[0]" in err and "grid.zones[1]" in err
+    assert "overlap" in err and not (tmp_path / "o").exists()
+
+
+def test_the_distance_setting_reaches_the_column_summary_and_the_maps(tmp_path):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    import pandas as pd
+
+    from bayescrust.report.grid_maps import section_map
+
+    study = _setup_3d(tmp_path, distance='distance = "y"')
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "-q"]) == 0
+    df = pd.read_csv(out / "column_summary.csv")
+    assert list(df.columns[:2]) == ["distance", "x"]          # y is the distance; x beside it
+    assert len(df) == 6 and not df.duplicated(["distance", "x"]).any()
+    assert sorted(set(df["distance"])) == [0.0, 5.0] and sorted(set(df["x"])) == [0, 10, 20]
+    with xr.open_dataset(out / "map.nc") as ds:
+        assert ds.attrs["distance"] == "y"
+        fig = section_map(ds, "p_mantle")
+        assert fig.axes[0].get_xlabel() == "y"
+        plt.close(fig)
+
+
+def test_map_of_a_single_column_grid(tmp_path, section):
+    import pandas as pd
+
+    study = _setup(tmp_path, section)
+    section.isel(x=0).drop_vars("x").to_netcdf(tmp_path / "g.nc", engine="h5netcdf")  # (z,)
+    for extra in (["--no-figures"], []):
+        out = tmp_path / f"out{len(extra)}"
+        assert main(["map", str(study), "--out", str(out), "-q", *extra]) == 0
+        df = pd.read_csv(out / "column_summary.csv")
+        assert len(df) == 1 and df["n_nodes"][0] > 0 and np.isfinite(df["mantle_depth_km"][0])
+        with xr.open_dataset(out / "map.nc") as ds:
+            assert ds["p_mantle"].dims == ("z",)
+    assert (out / "maps" / "map_p_mantle.png").exists()
+
+
+def test_a_grid_study_without_seafloor_is_refused_naming_the_key(tmp_path, section, capsys):
+    study = _setup(tmp_path, section)
+    for ref in ("seafloor", "sea_level"):
+        study.write_text(STUDY.format(sigma="0.1").replace(
+            "seafloor = 3.0", f'depth_reference = "{ref}"'))
+        assert main(["map", str(study), "--out", str(tmp_path / "o"), "-q"]) == 2
+        err = capsys.readouterr().err
+        assert "study.toml" in err and "grid.seafloor" in err and "missing" in err
+    assert not (tmp_path / "o").exists()
