@@ -20,7 +20,14 @@ MAPPING = dict(variables={"vp": "vp"}, sigmas={"vp": 0.1}, depth="z", seafloor=3
 
 SCRIPT = textwrap.dedent("""
     import sys
+    import time
     from bayescrust.grid import GridMapping, Zone, map_grid, read_grid
+    from bayescrust.grid.store import Store
+    write = Store.write
+    def paced(self, *args):  # a pause after each chunk: the kill lands mid-run even under load
+        write(self, *args)
+        time.sleep(0.3)
+    Store.write = paced
     zones = [Zone("upper", 0.0, 1.5, rocks=("basalt", "diabase")),
              Zone("lower", 1.5, 20.0, rocks=("gabbro", "harzburgite"))]
     g = read_grid(sys.argv[1], GridMapping(variables={"vp": "vp"}, sigmas={"vp": 0.1},
