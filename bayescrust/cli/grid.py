@@ -92,10 +92,15 @@ def cmd_map(args) -> int:
                 raise InputError("--store needs zarr (pip install 'bayescrust[grid]')") from None
             say(args, "map: zarr is not installed; running without a checkpoint store")
             args.no_checkpoint = True
-    with AtomicFolder(out, overwrite=args.overwrite) as tmp:
-        do_map(args, study, tmp, store=None if args.no_checkpoint else store,
-               figures=not args.no_figures,
-               validate=args.validate if args.validate is not None else study.validate_nodes)
+    from ..grid.store import StoreMismatch
+
+    try:
+        with AtomicFolder(out, overwrite=args.overwrite) as tmp:
+            do_map(args, study, tmp, store=None if args.no_checkpoint else store,
+                   figures=not args.no_figures,
+                   validate=args.validate if args.validate is not None else study.validate_nodes)
+    except StoreMismatch as exc:  # bad input (--store), not a failed run
+        raise InputError(f"{exc} (--store)") from None
     if not args.no_checkpoint and store.exists():
         # created by this run or verified by map_grid (same fingerprint): the finished map
         # holds everything it held

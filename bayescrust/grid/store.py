@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-__all__ = ["Store", "store_status", "MARKER"]
+__all__ = ["Store", "StoreMismatch", "store_status", "MARKER"]
 
 #: group attribute written when a store is created (before its arrays)
 MARKER = "bayescrust_checkpoint"
@@ -41,6 +41,10 @@ def store_status(path) -> str:
     return "incomplete" if MARKER in attrs else "foreign"
 
 
+class StoreMismatch(ValueError):
+    """A checkpoint store that belongs to another input, other settings or another version."""
+
+
 class Store:
     """Finished chunks in a zarr group: one array per result, a ``done`` flag per chunk."""
 
@@ -62,7 +66,7 @@ class Store:
                 why = ("another input or other settings" if made == __version__ else
                        f"bayescrust {made}, not this {__version__} (the two versions' results "
                        "are not mixed)")
-                raise ValueError(f"{self.path}: the checkpoint store belongs to {why}; delete "
+                raise StoreMismatch(f"{self.path}: the checkpoint store belongs to {why}; delete "
                                  "it or choose another store")
             return
         # absent, or ours but interrupted while being created: (re)create it, fingerprint last

@@ -95,6 +95,24 @@ def test_map_resumes_from_and_then_removes_its_own_store(tmp_path, section):
     assert not store.exists()
 
 
+def test_map_refuses_a_store_of_other_settings_as_bad_input(tmp_path, section, capsys):
+    # a store made with another seed: exit 2 naming --store, no output folder, store kept
+    from bayescrust.config.grid import load_grid_study
+    from bayescrust.grid import map_grid, read_grid
+
+    study = _setup(tmp_path, section)
+    st = load_grid_study(study)
+    store = tmp_path / "ck.zarr"
+    map_grid(read_grid(st.file, st.mapping), st.zones, seed=st.seed + 1, store=store,
+             **st.options)
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "--store", str(store), "-q",
+                 "--no-figures"]) == 2
+    err = capsys.readouterr().err
+    assert "another input or other settings" in err and "--store" in err
+    assert not out.exists() and store.exists()
+
+
 STUDY_3D = """
 seed = 3
 [grid]
