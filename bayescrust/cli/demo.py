@@ -53,7 +53,6 @@ def demo_grid(args, folder: Path, study_folder: Path, final_study_folder=None) -
     per-level fast path (tabulated where a level has one sigma).
     """
     from ..config.grid import parse_grid_study
-    from ..grid import write_netcdf
     from ..grid.synthetic import tallowmere_section
     from .grid import do_map
 
@@ -65,14 +64,11 @@ def demo_grid(args, folder: Path, study_folder: Path, final_study_folder=None) -
     study = parse_grid_study(text, source=str(final / "tallowmere_section.toml"),
                              base=study_folder)
     map_args = argparse.Namespace(seed=args.seed, quiet=True, scheduler=None, workers=None)
-    ds = do_map(map_args, study, folder, figures=True,
-                maps=("p_mantle", "p_hot_mantle", "p_melt_present"), dpi=110)
-    # the grid was read from the temporary folder, whose name the map recorded as its source;
-    # record the name the input has once the output folder is in place
-    source = str(final / "tallowmere_section.nc")
-    if ds.attrs.get("source") != source:
-        ds.attrs["source"] = source
-        write_netcdf(ds, folder / "map.nc")
+    # the grid is read from the temporary folder; the map records the name the input has once
+    # the output folder is in place
+    do_map(map_args, study, folder, figures=True,
+           maps=("p_mantle", "p_hot_mantle", "p_melt_present"), dpi=110,
+           source=final / "tallowmere_section.nc")
     return time.perf_counter() - t0
 
 

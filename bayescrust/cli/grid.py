@@ -12,8 +12,9 @@ __all__ = ["add_parser", "cmd_map", "do_map"]
 
 
 def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, maps=None,
-           dpi=150):
-    """Map ``study`` (a GridStudy) into ``folder``; returns the Dataset."""
+           dpi=150, source=None):
+    """Map ``study`` (a GridStudy) into ``folder``; returns the Dataset. ``source`` (default:
+    the path read) is the input's name recorded in ``map.nc``."""
     from ..grid import GridInputError, column_summary, map_grid, read_grid, write_netcdf
 
     warn = Warnings(args)
@@ -30,6 +31,8 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
                       n_workers=getattr(args, "workers", None),
                       progress=not getattr(args, "quiet", True), **study.options)
     t_map = time.perf_counter() - t0
+    if source is not None:
+        ds.attrs["source"] = str(source)
     say(args, f"map: {grid.n_nodes} nodes ({ds.attrs['n_masked']} masked), "
               f"{ds.attrs['path_choice']}, {ds.attrs['execution']}, {t_map:.1f} s; "
               f"{ds.attrs['n_refined']} refined, {ds.attrs['n_poor']} below the quality "
