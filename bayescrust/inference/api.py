@@ -311,8 +311,11 @@ def invert_layer(
         attrs=_attrs(model, seed_val, "mcmc", settings),
     )
     summary = summarize(_summary_vars(model, post))
+    # the rule-of-three bound of a class with no draw uses the ensemble-average ESS, as its
+    # MCSE does (the walker ESS counted walkers as independent chains: up to 1.7x larger)
+    ess_ref = _ess_ref(run)
     table = hypothesis_table(p_prior, p_post, se_post, n_prior_draws,
-                             n_post=float(np.min(run.ess)))
+                             n_post=ess_ref if np.isfinite(ess_ref) else float(np.min(run.ess)))
     _trust(model, hyps, post, summary, table, diagnostics, sampler_converged=run.converged,
            method="mcmc")
     return LayerResult(

@@ -154,6 +154,17 @@ def test_bayes_factors_are_bounded_never_infinite():
     assert len(zero) > 0  # the test has something to check: classes without posterior draws
     assert (zero["bayes_factor_bound"] == "<").all()
     assert zero["evidence_category"].str.contains("bound|undetermined").all()
+    # the bound (posterior below 3 / n, Hanley & Lippman-Hand 1983) and the MCSE of a class with
+    # no draw use one effective sample size, the ensemble average's (the bound used the walker
+    # ESS, up to 1.7x larger: too tight)
+    from scipy.optimize import brentq
+
+    for _, row in zero.iterrows():
+        pi, se = row["prior_probability"], row["posterior_mcse"]
+        odds = row["bayes_factor"] * pi / (1 - pi)
+        n_bound = 3.0 / (odds / (1 + odds))
+        n_mcse = brentq(lambda n, s2=se**2: (2 / (n + 4)) * (1 - 2 / (n + 4)) / n - s2, 1.0, 1e9)
+        assert n_bound == pytest.approx(n_mcse, rel=1e-6)
 
 
 def test_rule_of_three():
