@@ -64,14 +64,14 @@ _THERMAL_PARAMS = {
 #: conductivity, a mush at or below the solidus (``mush_offset_c <= 0``).
 THERMAL_RANGES = {
     "age_myr": (0.0, 200.0, True, "Myr"),
-    "mantle_temperature_c": (800.0, 2000.0, False, "deg C"),
+    "mantle_temperature_c": (800.0, 1800.0, False, "deg C"),
     "plate_thickness_km": (10.0, 300.0, False, "km"),
     "conductivity_w_mk": (0.0, 10.0, True, "W/m/K"),
     "lens_depth_km": (0.0, 100.0, True, "km"),
     "mush_offset_c": (-500.0, 0.0, False, "deg C"),
     "scatter_c": (0.0, 500.0, True, "deg C"),
-    "lo": (-5.0, 2000.0, False, "deg C"),
-    "hi": (-5.0, 2000.0, False, "deg C"),
+    "lo": (-5.0, 1800.0, False, "deg C"),
+    "hi": (-5.0, 1800.0, False, "deg C"),
 }
 _NUMBER_ONLY = ("scatter_c", "lo", "hi")
 
@@ -214,7 +214,7 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
     tr = p.get("temperature_range_c", [0.0, 1600.0])
     if not (isinstance(tr, list) and len(tr) == 2):
         r.got("profile.temperature_range_c", tr, "[lo, hi] deg C")
-    t_lo, t_hi = (r.number(f"profile.temperature_range_c[{i}]", tr[i], -5.0, 2000.0,
+    t_lo, t_hi = (r.number(f"profile.temperature_range_c[{i}]", tr[i], -5.0, 1800.0,
                            unit="deg C") for i in (0, 1))
     if not t_lo < t_hi:
         r.got("profile.temperature_range_c", tr, "[lo, hi] deg C with lo < hi")

@@ -13,10 +13,10 @@ __all__ = ["THERMAL_KINDS", "read_thermal", "read_thermal_name"]
 #: Thermal-state prior kinds: key -> (kind of value, lo, hi, unit); "prior" takes a number or a
 #: prior table, "number" a number only. Bounds are input sanity limits.
 THERMAL_KINDS: dict[str, dict[str, tuple[str, float, float, str]]] = {
-    "uniform": {"lo": ("number", -5.0, 2000.0, "deg C"), "hi": ("number", -5.0, 2000.0, "deg C")},
+    "uniform": {"lo": ("number", -5.0, 1800.0, "deg C"), "hi": ("number", -5.0, 1800.0, "deg C")},
     "half_space": {
         "age_myr": ("prior", 0.0, 200.0, "Myr"),
-        "mantle_temperature_c": ("prior", 800.0, 2000.0, "deg C"),
+        "mantle_temperature_c": ("prior", 800.0, 1800.0, "deg C"),
         "scatter_c": ("number", 0.0, 500.0, "deg C"),
         "surface_temperature_c": ("number", -5.0, 50.0, "deg C"),
         "diffusivity_m2_s": ("number", 1e-8, 1e-4, "m^2/s"),

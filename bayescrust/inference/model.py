@@ -55,7 +55,7 @@ SCALAR_PARAMETERS = (
 
 #: Allowed range of each scalar parameter's prior support (physical validity of the forward model).
 PARAMETER_RANGES = {
-    "temperature_c": (-5.0, 2000.0),
+    "temperature_c": (-5.0, 1800.0),  # the mineral data's range (physics.minerals)
     "porosity": (0.0, 0.5),
     "aspect_ratio": (1e-4, 1.0),
     "melt_fraction": (0.0, 0.3),

@@ -45,6 +45,9 @@ CASES = [
      ["rocks[0]", "gabro", "did you mean 'gabbro'"]),
     ("inverted prior bounds", GOOD + 'priors = { temperature_c = { dist = "uniform", lo = 900, '
      'hi = 100 } }\n', ["layers[0].priors.temperature_c.hi", "got 100"]),
+    # the mineral data stop at 1800 C (e.g. olivine to 1800 C: physics/data/minerals.toml)
+    ("temperature beyond the mineral data", GOOD + 'priors = { temperature_c = { dist = '
+     '"uniform", lo = 100, hi = 1900 } }\n', ["layers[0].priors.temperature_c.hi", "got 1900"]),
     ("unknown prior kind", GOOD + 'priors = { porosity = { dist = "unifrom", lo = 0, hi = 0.1 }'
      ' }\n', ["layers[0].priors.porosity.dist", "'uniform'"]),
     ("no layers", "water_depth_km = 3.0\n", ["layers", "missing"]),

@@ -109,6 +109,7 @@ def test_bad_observations(kwargs, match):
         ({"porosity": bc.priors.Uniform(0.0, 0.9)}, "porosity"),
         ({"temperature_c": "hot"}, "temperature_c"),
         ({"melt_fraction": math.inf}, "melt_fraction"),
+        ({"temperature_c": bc.priors.Uniform(0, 1900)}, r"must lie in \[-5, 1800\]"),
     ],
 )
 def test_bad_priors(priors, match):

@@ -85,7 +85,7 @@ def test_profile_command_bad_file_exit_code(tmp_path):
     ('state = "half_space"', 'state = "plate"\nplate_thickness_km = 5.0',
      "profile.thermal.plate_thickness_km", "[10, 300] km"),
     ("age_myr = [1.0, 20.0]", "age_myr = [1.0, 20.0]\nmantle_temperature_c = 100.0",
-     "profile.thermal.mantle_temperature_c", "[800, 2000] deg C"),
+     "profile.thermal.mantle_temperature_c", "[800, 1800] deg C"),
     ("age_myr = [1.0, 20.0]", "age_myr = 5000.0", "profile.thermal.age_myr", "(0, 200] Myr"),
     ("age_myr = [1.0, 20.0]", "age_myr = [1.0, 20.0]\nconductivity_w_mk = -3.0",
      "profile.thermal.conductivity_w_mk", "(0, 10] W/m/K"),
