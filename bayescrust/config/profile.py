@@ -291,19 +291,33 @@ def _prior_value(p):
     return None
 
 
-def _thermal_dict(state) -> dict:
+def _state_name(state):
     from ..profile.thermal import THERMAL_STATES
 
-    name = next(k for k, cls in THERMAL_STATES.items() if type(state) is cls)
+    return next(k for k, cls in THERMAL_STATES.items() if type(state) is cls)
+
+
+def _param(state, k):
+    return _prior_value(state.scatter_c if k == "scatter_c" else state.params[k])
+
+
+def _thermal_dict(state, compared=()) -> dict:
+    """The ``[profile.thermal]`` table: a parameter is written unless it is the default of
+    every state that reads it (compared states share the table and keep their own defaults,
+    so a value the file set equal to the main state's default is still written when a compared
+    state's default differs)."""
+    name = _state_name(state)
     d = {"state": name}
     if not state.coupled:
         return {**d, "lo": float(state.lo), "hi": float(state.hi)}
-    default = type(state)()
+    readers = [state] + [s for s in compared if s.coupled]
     for k in _THERMAL_PARAMS[name]:
-        v, v0 = (_prior_value(s.scatter_c if k == "scatter_c" else s.params[k])
-                 for s in (state, default))
-        if v is not None and v != v0:  # a default stays unwritten: compared states share the
-            d[k] = v                    # table and keep their own defaults
+        v = _param(state, k)
+        if v is None:
+            continue
+        if any(k in _THERMAL_PARAMS[_state_name(s)] and _param(s, k) != _param(type(s)(), k)
+               for s in readers):
+            d[k] = v
     return d
 
 
@@ -311,9 +325,9 @@ def profile_study_to_dict(study: ProfileStudy) -> dict:
     """The profile study as read, with the defaults it resolved (rocks of every layer, the
     temperature range, the pressure mode, ...), as plain data in the study-file layout.
 
-    Thermal parameters at their defaults are left out (the compared states share the
-    ``[profile.thermal]`` table and keep their own defaults); ``ThermalState.describe()`` is the
-    complete form."""
+    Thermal parameters at the defaults of every state that reads them are left out (the
+    compared states share the ``[profile.thermal]`` table and keep their own defaults);
+    ``ThermalState.describe()`` is the complete form."""
     import dataclasses
 
     prof = study.profile
@@ -321,7 +335,7 @@ def profile_study_to_dict(study: ProfileStudy) -> dict:
          "basement_km": prof.basement_km, "temperature_range_c": list(prof.temperature_range_c)}
     if study.compare:
         p["compare"] = list(study.compare)
-    p["thermal"] = _thermal_dict(prof.thermal)
+    p["thermal"] = _thermal_dict(prof.thermal, tuple(study.compare.values()))
     if prof.heat_flow is not None:
         p["heat_flow"] = dataclasses.asdict(prof.heat_flow)
     layers = []
