@@ -44,6 +44,9 @@ class Ensemble:
         Observables the layer already has, ``{name: (value, sigma)}``.
     model_error : dict
         Forward-model error fraction of every observable.
+    error_correlation : float, optional
+        Correlation of the Vp and Vs model errors (the layer model's); ``None``: the calibrated
+        :data:`bayescrust.inference.likelihood.MODEL_ERROR_CORRELATION`.
     likelihood, nu : the layer's likelihood kind and Student-t degrees of freedom.
     source : str
         ``"exact design"`` or ``"posterior draws"``.
@@ -67,6 +70,7 @@ class Ensemble:
     prior_probabilities: np.ndarray
     existing: dict = field(default_factory=dict)
     model_error: dict = field(default_factory=dict)
+    error_correlation: float | None = None
     likelihood: str = "gaussian"
     nu: float = 4.0
     source: str = "given"
@@ -168,8 +172,9 @@ def ensemble_from_design(model, hypotheses, rng, n_points=2**14, *, model_error=
         quantities=q, log_weights=loglik, hypotheses=ind, boxes=dict(hypotheses), classes=classes,
         class_names=names,
         prior_probabilities=_class_probs(classes, len(names)), existing=dict(model.observed),
-        model_error=_model_errors(model, model_error), likelihood=model.likelihood, nu=model.nu,
-        source="exact design", model=model, u=u, current_loglik=loglik)
+        model_error=_model_errors(model, model_error), error_correlation=model.error_correlation,
+        likelihood=model.likelihood, nu=model.nu, source="exact design", model=model, u=u,
+        current_loglik=loglik)
 
 
 def _model_errors(model, user):
@@ -219,5 +224,8 @@ def ensemble_from_result(result, hypotheses=None, *, model=None, model_error=Non
     return Ensemble(
         quantities=q, log_weights=np.zeros(q[next(iter(q))].shape[0]), hypotheses=ind,
         boxes=hyps, classes=classes, class_names=names, prior_probabilities=pc, existing=observed,
-        model_error=me, likelihood=result.settings.get("likelihood", "gaussian"),
+        model_error=me, error_correlation=(
+            model.error_correlation if model is not None
+            else result.settings.get("model_error_correlation")),
+        likelihood=result.settings.get("likelihood", "gaussian"),
         nu=float(result.settings.get("nu") or 4.0), source="posterior draws", model=model)

@@ -17,7 +17,8 @@ scale are used with a t kernel (an approximation, stated in the docs).
 
 When the candidate is Vp or Vs and the layer observed the other one (Gaussian likelihood, no
 Vp/Vs datum), the two forward-model errors are correlated as in the layer's own likelihood
-(:data:`bayescrust.inference.likelihood.MODEL_ERROR_CORRELATION`), and the new datum's factor is the
+(the layer model's ``error_correlation``; by default the calibrated
+:data:`bayescrust.inference.likelihood.MODEL_ERROR_CORRELATION`), and the new datum's factor is the
 conditional density given the other datum (the same bivariate-normal conditional).
 
 Heat flow (profiles) has no forward-model error in the profile's likelihood

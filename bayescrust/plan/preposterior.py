@@ -260,7 +260,7 @@ def _loc_scale(ens, cand, q):
         # Vp and Vs model errors are correlated, as in the layer's own likelihood
         from ..inference.likelihood import MODEL_ERROR_CORRELATION
 
-        rho = getattr(ens.model, "error_correlation", MODEL_ERROR_CORRELATION)
+        rho = MODEL_ERROR_CORRELATION if ens.error_correlation is None else ens.error_correlation
         y_o, s_o = ens.existing[other]
         partner = (q[other], y_o, s_o, ens.model_error.get(other, 0.0), rho)
     return datum_location_scale(q[obs], sigma=cand.sigma, model_error=me, existing=existing,

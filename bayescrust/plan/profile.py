@@ -173,7 +173,7 @@ def profile_ensemble(profile, design, states, question, group=None) -> Ensemble:
 
     kind, ind, names, pc, interval, _, _ = _questions_cache(profile, design, states)[question]
     q = {"heat_flow": states["heat_flow"], **states["thermal"], _INTERVAL: interval}
-    existing, me, lik, nu = {}, {}, "gaussian", 4.0
+    existing, me, lik, nu, rho = {}, {}, "gaussian", 4.0, None
     if group is not None:
         i = profile.names.index(group)
         model = design["models"][i]
@@ -182,13 +182,14 @@ def profile_ensemble(profile, design, states, question, group=None) -> Ensemble:
         q[_INTERVAL] = interval
         existing = dict(profile.layers[i].observed)
         me = _model_errors(model, profile.model_error)
-        lik, nu = model.likelihood, float(model.nu or 4.0)
+        lik, nu, rho = model.likelihood, float(model.nu or 4.0), model.error_correlation
     classes = assign_classes(ind, names)
     lw = np.where(classes >= 0, states["log_weights"], -np.inf)
     return Ensemble(quantities=q, log_weights=lw, hypotheses=ind, boxes={},
                     classes=np.maximum(classes, 0), class_names=tuple(names),
                     prior_probabilities=np.asarray(pc, float), existing=existing,
-                    model_error=me, likelihood=lik, nu=nu, source="profile exact design",
+                    model_error=me, error_correlation=rho, likelihood=lik, nu=nu,
+                    source="profile exact design",
                     rerun=_rerun_cache(profile, design, states).for_question(question))
 
 

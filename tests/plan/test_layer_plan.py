@@ -101,6 +101,24 @@ def test_new_datum_likelihood_is_the_layer_likelihood(likelihood):
     np.testing.assert_allclose(got, ref, rtol=1e-12)
 
 
+def test_new_vs_datum_uses_the_layers_own_error_correlation():
+    # a model_error with its own Vp/Vs error sets the Vp-Vs error correlation of the layer's
+    # likelihood (here 0.875); the candidate Vs datum's factor must use it, not the calibrated
+    # 0.643: equal to the likelihood of a layer that observed Vs, to rounding
+    from bayescrust.plan.preposterior import _loc_scale
+
+    me = {"vp": 0.02, "vs": 0.02, "vp_vs": 0.01}
+    model, hyps = _setup(LAYER, ROCKS, PRIORS, HYPS, me, "gaussian", 4.0, None)
+    ens = ensemble_from_design(model, hyps, np.random.default_rng(0), 2**8, model_error=me)
+    assert ens.error_correlation == pytest.approx(0.875)
+    both, _ = _setup(dataclasses.replace(LAYER, vs=(3.9, 0.1)), ROCKS, PRIORS, HYPS, me,
+                     "gaussian", 4.0, None)
+    q = {"vp": np.array([7.0, 7.3]), "vs": np.array([3.8, 4.1])}
+    loc, scale = _loc_scale(ens, Candidate("vs", 0.1), q)
+    got = datum_log_likelihood(3.9, loc, scale, likelihood="gaussian")
+    np.testing.assert_allclose(got, both.log_likelihood_terms(q)["vs"], rtol=1e-12)
+
+
 def test_repeat_datum_shares_the_model_error():
     # joint law of two measurements of one quantity with a shared forward-model error:
     # bivariate normal (scipy.stats.multivariate_normal); old factor x new factor == joint
