@@ -398,9 +398,11 @@ def exact_layer(
     defensive mixture of the prior and a Gaussian kernel mixture fitted to the first stage (in
     the prior's unit hypercube; :func:`bayescrust.inference.evidence.adaptive_design`) and uses
     those weights instead, in ``n_scrambles`` independent replicates (own kernel centres, own
-    draws) whose spread gives the errors, with the Agresti & Coull floor of the MCMC path for
-    classes no replicate reached (the delta-method error of one mixture understated the
-    spread over seeds 1.3-1.5x, and ~10x for a rare class); prior probabilities always come
+    draws) whose spread gives the errors, with the Agresti & Coull floor of the MCMC path on
+    every class (effective count capped at the importance ESS: conservative for rare classes,
+    and what covers a class no replicate reached; the delta-method error of one mixture
+    understated the spread over seeds 1.3-1.5x, and ~10x for a rare class); prior
+    probabilities always come
     from the first-stage prior design. Practical up to ~4 free parameters; a
     :class:`~bayescrust.inference.sampler.ConvergenceWarning` is issued when the weights'
     effective size falls below 500.
@@ -477,8 +479,9 @@ def exact_layer(
             p, se = p_rep[k], se_rep[k]
             p_post[k] = p
             # a class that no replicate reached has a zero spread (hot mantle at 0.0014 came
-            # out 0.0002 +- 0.0001): the Agresti & Coull (1998) floor of the MCMC path, with
-            # the class's effective count from the importance ESS
+            # out 0.0002 +- 0.0001): the Agresti & Coull (1998) floor of the MCMC path on every
+            # class, its effective count capped at the importance ESS (conservative for rare
+            # classes that were reached)
             n_eff = ess if not (0.0 < p < 1.0 and se > 0) else min(ess, p * (1 - p) / se**2)
             n_eff = max(n_eff, 1.0)
             pt = (n_eff * p + 2.0) / (n_eff + 4.0)
