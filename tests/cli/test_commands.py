@@ -249,4 +249,3 @@ def test_demo_map_records_the_final_name_of_its_input(tmp_path):
     demo_grid(argparse.Namespace(seed=0), work / "map", work / "study", final / "study")
     with xr.open_dataset(work / "map" / "map.nc") as ds:
         assert ds.attrs["source"] == str(final / "study" / "tallowmere_section.nc")
-    assert not (work / "map" / "map.nc.part").exists()

@@ -35,8 +35,13 @@ CASES = {  # (first map, second map): grid settings, run settings
 }
 
 
-@pytest.mark.parametrize("path", ["batched", "tabulated"])
-@pytest.mark.parametrize("case", list(CASES))
+# sigma and the data range enter only the tabulated path's table cache: the batched path has
+# no table, so those two cases run on the tabulated path alone (a batched run could not fail)
+PAIRS = [(c, p) for c in CASES for p in ("batched", "tabulated")
+         if p == "tabulated" or c in ("water depth", "level depth")]
+
+
+@pytest.mark.parametrize("case, path", PAIRS)
 def test_a_second_map_in_one_process_equals_a_fresh_one(case, path):
     (ga, ka), (gb, kb) = CASES[case]
     _clear()
