@@ -142,6 +142,9 @@ def write_netcdf(ds, path):
     return p
 
 
+_SUMMARY_COLUMNS = ("distance", "n_nodes", "mantle_depth_km", "depth_p25_km", "depth_p75_km")
+
+
 def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
     """Per column: depth below the seafloor where P(mantle) first exceeds 0.5, with a range.
 
@@ -182,8 +185,10 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
                 raise ValueError(f"distance {dn!r} is not a horizontal dim of the map {other}")
             mesh = np.meshgrid(*[ds[d].values for d in other], indexing="ij")
             names = np.asarray(mesh[other.index(dn)]).ravel().tolist()
-            extra = {d: np.asarray(m).ravel().tolist()
-                     for d, m in zip(other, mesh, strict=True) if d != dn}
+            # a dim named like a summary column (e.g. "distance" when it is not the distance
+            # setting) gets a "_coordinate" suffix instead of overwriting that column
+            extra = {(f"{d}_coordinate" if d in _SUMMARY_COLUMNS else d): np.asarray(m).ravel()
+                     .tolist() for d, m in zip(other, mesh, strict=True) if d != dn}
     rows = []
     for i, (name, (pp, zz)) in enumerate(zip(names, pz, strict=True)):
         ok = np.isfinite(pp) & np.isfinite(zz)

@@ -211,3 +211,21 @@ def test_a_grid_study_without_seafloor_is_refused_naming_the_key(tmp_path, secti
         err = capsys.readouterr().err
         assert "study.toml" in err and "grid.seafloor" in err and "missing" in err
     assert not (tmp_path / "o").exists()
+
+
+def test_a_dim_named_distance_does_not_overwrite_the_distance_column():
+    # distance setting "y"; the other horizontal dim happens to be called "distance": its values
+    # go to "distance_coordinate", the distance column keeps y (it took the other dim's values)
+    from bayescrust.grid.output import column_summary
+
+    d, y, z = np.array([0.0, 10.0]), np.array([100.0, 200.0, 300.0]), np.arange(0.0, 10.0)
+    p = np.broadcast_to(np.clip((z - 5) / 4 + 0.5, 0, 1), (2, 3, 10)).copy()
+    zz = np.broadcast_to(z, (2, 3, 10)).copy()
+    ds = xr.Dataset({"p_mantle": (("distance", "y", "z"), p),
+                     "depth_below_seafloor": (("distance", "y", "z"), zz),
+                     "seafloor_depth": (("distance", "y"), np.zeros((2, 3)))},
+                    coords={"distance": d, "y": y, "z": z}, attrs={"distance": "y"})
+    df = column_summary(ds)
+    assert sorted(set(df["distance"])) == [100.0, 200.0, 300.0]
+    assert sorted(set(df["distance_coordinate"])) == [0.0, 10.0]
+    assert np.allclose(df["mantle_depth_km"], 5.0)  # P(mantle) crosses 0.5 at z = 5 (by design)
