@@ -18,7 +18,14 @@ from .evidence import (
 )
 from .hypotheses import default_hypotheses, indicators, validate_hypotheses
 from .model import DERIVED_QUANTITIES, SCALAR_PARAMETERS, LayerModel
-from .results import LayerResult, build_idata, hypothesis_table, probabilities_mcmc, summarize
+from .results import (
+    LayerResult,
+    agresti_coull_se,
+    build_idata,
+    hypothesis_table,
+    probabilities_mcmc,
+    summarize,
+)
 from .sampler import MOVES_DESCRIPTION, run_ensemble
 
 __all__ = ["invert_layer", "exact_layer", "resolve_rng", "resolved_settings"]
@@ -483,9 +490,7 @@ def exact_layer(
             # class, its effective count capped at the importance ESS (conservative for rare
             # classes that were reached)
             n_eff = ess if not (0.0 < p < 1.0 and se > 0) else min(ess, p * (1 - p) / se**2)
-            n_eff = max(n_eff, 1.0)
-            pt = (n_eff * p + 2.0) / (n_eff + 4.0)
-            se = max(se, math.sqrt(pt * (1 - pt) / n_eff))
+            se = max(se, agresti_coull_se(p, n_eff))
         se_post[k] = se
     if scr is not None:
         p_post, se_post = scr

@@ -163,7 +163,7 @@ class LayerModel(ObservationErrors):
         Parameters are those of :func:`bayescrust.invert_layer`.
         """
         from ..physics import thermal
-        from ..physics.inclusions import KT_MAX_POROSITY_OVER_ASPECT
+        from ..physics.inclusions import KT_MAX_POROSITY_OVER_ASPECT, kt_crack_sum
         from ..physics.rocks import ForwardModel
 
         if not isinstance(layer, Layer):
@@ -262,8 +262,8 @@ class LayerModel(ObservationErrors):
             # a dilute theory (physics.inclusions.KT_MAX_POROSITY_OVER_ASPECT): a prior reaching
             # beyond it would be cut silently where the forward model returns NaN
             b = {p: scalar_priors[p].bounds for p in scalar_priors}
-            worst = (b["porosity"][1] / b["aspect_ratio"][0]
-                     + b["melt_fraction"][1] / b["melt_aspect_ratio"][0])
+            worst = kt_crack_sum(b["porosity"][1], b["aspect_ratio"][0],
+                                 b["melt_fraction"][1], b["melt_aspect_ratio"][0])
             if worst > KT_MAX_POROSITY_OVER_ASPECT:
                 raise ValueError(
                     "inclusion_scheme 'kuster_toksoz' is a dilute theory: the priors must keep "

@@ -283,6 +283,15 @@ def _summary_rows(az, pd, posterior, ess_override, mcmc):
     return pd.DataFrame(rows).set_index("quantity")
 
 
+def agresti_coull_se(p: float, n: float) -> float:
+    """Error of a proportion ``p`` seen in ``n`` (effective) draws by the Agresti & Coull (1998,
+    Am. Stat. 52, 119) adjusted proportion: ``sqrt(p~ (1 - p~) / n)``, ``p~ = (n p + 2) / (n + 4)``
+    (``n`` at least 1), so that 0 of n (or n of n) is not +- 0."""
+    n = max(float(n), 1.0)
+    pt = (n * p + 2.0) / (n + 4.0)
+    return math.sqrt(pt * (1 - pt) / n)
+
+
 def probabilities_mcmc(hyps: dict, q: dict, ess_ref: float | None = None):
     """Posterior probability and MCSE of each hypothesis from (walker, draw) quantity arrays.
 
@@ -305,8 +314,6 @@ def probabilities_mcmc(hyps: dict, q: dict, ess_ref: float | None = None):
         ess = float(m.size) if ess_ref is None or not np.isfinite(ess_ref) else float(ess_ref)
         if 0.0 < pm < 1.0 and mc > 0:
             ess = min(float(m.size), pm * (1.0 - pm) / mc**2)
-        ess = max(ess, 1.0)
-        pt = (ess * pm + 2.0) / (ess + 4.0)
-        se[name] = math.sqrt(pt * (1 - pt) / ess)
+        se[name] = agresti_coull_se(pm, ess)
         p[name] = pm
     return p, se

@@ -425,6 +425,12 @@ _SCHEME_PARAMS = """
 """
 
 
+def kt_crack_sum(porosity, aspect_ratio, melt_fraction, melt_aspect_ratio):
+    """``porosity / aspect_ratio + melt_fraction / melt_aspect_ratio``: the sum of
+    ``frac_i / aspect_i`` that Kuster-Toksoz keeps at or below ``KT_MAX_POROSITY_OVER_ASPECT``."""
+    return porosity / aspect_ratio + melt_fraction / melt_aspect_ratio
+
+
 def kuster_toksoz(k_m, g_m, k_i, g_i, aspect_i, frac_i):
     """Kuster-Toksöz (1974) dilute estimate for spheroidal inclusions in a solid matrix.
     {params}

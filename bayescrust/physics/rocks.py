@@ -285,7 +285,8 @@ class ForwardModel:
         if self.inclusion_scheme == "kuster_toksoz":
             # a dilute theory: rows beyond its limit are not a model result (NaN, which the
             # inference treats as outside the model); rock_properties refuses them
-            beyond = phi / ar + melt / mar > inclusions.KT_MAX_POROSITY_OVER_ASPECT
+            beyond = (inclusions.kt_crack_sum(phi, ar, melt, mar)
+                      > inclusions.KT_MAX_POROSITY_OVER_ASPECT)
             vp[beyond] = vs[beyond] = rho[beyond] = np.nan
         return vp, vs, rho
 
@@ -511,11 +512,12 @@ def rock_properties(
             f"porosity + melt_fraction must be <= 0.5; got {float(np.max(phi + melt)):g}"
         )
     dilute = inclusions.KT_MAX_POROSITY_OVER_ASPECT
-    if inclusion_scheme == "kuster_toksoz" and np.any(phi / ar + melt / mar > dilute):
+    crack = inclusions.kt_crack_sum(phi, ar, melt, mar)
+    if inclusion_scheme == "kuster_toksoz" and np.any(crack > dilute):
         raise ValueError(
             "inclusion_scheme='kuster_toksoz' is a dilute theory: porosity / aspect_ratio + "
             f"melt_fraction / melt_aspect_ratio must be <= {dilute:g}; got "
-            f"{float(np.max(phi / ar + melt / mar)):g} (use 'dem' or 'self_consistent')"
+            f"{float(np.max(crack)):g} (use 'dem' or 'self_consistent')"
         )
     fm = ForwardModel(
         rocks=rocks,

@@ -30,6 +30,7 @@ import warnings
 
 import numpy as np
 
+from ..inference.results import agresti_coull_se
 from .likelihood import datum_location_scale, datum_log_likelihood, simulate_datum
 
 __all__ = ["DegeneracyWarning", "Settings", "update", "evaluate", "current_state"]
@@ -438,8 +439,7 @@ def evaluate(ensemble, candidate, rng, settings: Settings | None = None) -> dict
     mean, se = _stratified(x, deg, rr_idx, x_rr)
     # the chance of a decisive answer is a proportion: its error is floored by the Agresti &
     # Coull (1998, Am. Stat. 52, 119) adjusted proportion, so 0 of m (or m of m) is not +- 0
-    pt = (m * mean[2] + 2.0) / (m + 4.0)
-    se[2] = max(se[2], math.sqrt(pt * (1.0 - pt) / m)) if candidate.informative else 0.0
+    se[2] = max(se[2], agresti_coull_se(mean[2], m)) if candidate.informative else 0.0
     cal_mean, cal_se = _stratified(hx, deg, rr_idx, hx_rr)
     still = int(np.sum(rr[2] < s.min_ess)) if rr is not None else n_deg
     return {
