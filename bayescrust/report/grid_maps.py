@@ -26,8 +26,9 @@ def _section(ds, var, distance=None):
     others = [d for d in da.dims if d != depth_dim]
     if not others:  # a single column: a profile
         return da, depth_dim, None
-    dist = distance or ds.attrs.get("distance")
-    dist = dist if dist in others else others[0]
+    dist = distance or ds.attrs.get("distance") or others[0]
+    if dist not in others:  # as grid.output.column_summary
+        raise ValueError(f"distance {dist!r} is not a horizontal dim of the map {others}")
     da = da.isel({d: da.sizes[d] // 2 for d in others if d != dist})
     return da, depth_dim, dist
 
