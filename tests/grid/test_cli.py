@@ -1,6 +1,7 @@
 """``bayescrust map``: outputs, CF attributes, bad input with exit code 2."""
 
 import numpy as np
+import pytest
 import xarray as xr
 
 from bayescrust.cli import main
@@ -229,3 +230,16 @@ def test_a_dim_named_distance_does_not_overwrite_the_distance_column():
     assert sorted(set(df["distance"])) == [100.0, 200.0, 300.0]
     assert sorted(set(df["distance_coordinate"])) == [0.0, 10.0]
     assert np.allclose(df["mantle_depth_km"], 5.0)  # P(mantle) crosses 0.5 at z = 5 (by design)
+
+
+def test_section_map_refuses_a_distance_that_is_not_a_horizontal_dim():
+    # as the column summary does; the maps used to fall back to the first dim silently
+    from bayescrust.report.grid_maps import _section
+
+    z = np.arange(0.0, 4.0)
+    ds = xr.Dataset({"p_mantle": (("x", "z"), np.zeros((2, 4))),
+                     "seafloor_depth": (("x",), np.zeros(2))},
+                    coords={"x": [0.0, 1.0], "z": z}, attrs={"distance": "y"})
+    with pytest.raises(ValueError, match="'y' is not a horizontal dim"):
+        _section(ds, "p_mantle")
+    assert _section(ds, "p_mantle", distance="x")[2] == "x"
