@@ -476,24 +476,24 @@ def exact_layer(
     if ess < 500 and n > 1:
         warnings.warn(f"exact reference resolved poorly: importance effective size {ess:.0f} "
                       f"of {n} points; increase n_points", ConvergenceWarning, stacklevel=2)
-    p_post, se_post = {}, {}
-    for k, v in ind.items():
-        v = v.astype(float)
-        p = float(np.sum(wts * v) / sw)
-        p_post[k] = p
-        se = float(np.sqrt(np.sum(wts**2 * (v - p) ** 2)) / sw)
-        if stages == 2:
-            p, se = p_rep[k], se_rep[k]
-            p_post[k] = p
-            # a class that no replicate reached has a zero spread (hot mantle at 0.0014 came
-            # out 0.0002 +- 0.0001): the Agresti & Coull (1998) floor of the MCMC path on every
-            # class, its effective count capped at the importance ESS (conservative for rare
-            # classes that were reached)
+    if stages == 2:
+        # a class that no replicate reached has a zero spread (hot mantle at 0.0014 came out
+        # 0.0002 +- 0.0001): the Agresti & Coull (1998) floor of the MCMC path on every class,
+        # its effective count capped at the importance ESS (conservative for rare classes
+        # that were reached)
+        p_post, se_post = p_rep, {}
+        for k, p in p_rep.items():
+            se = se_rep[k]
             n_eff = ess if not (0.0 < p < 1.0 and se > 0) else min(ess, p * (1 - p) / se**2)
-            se = max(se, agresti_coull_se(p, n_eff))
-        se_post[k] = se
-    if scr is not None:
+            se_post[k] = max(se, agresti_coull_se(p, n_eff))
+    elif scr is not None:
         p_post, se_post = scr
+    else:  # one design (a single scramble): delta-method errors of the weighted means
+        p_post, se_post = {}, {}
+        for k, v in ind.items():
+            v = v.astype(float)
+            p_post[k] = p = float(np.sum(wts * v) / sw)
+            se_post[k] = float(np.sqrt(np.sum(wts**2 * (v - p) ** 2)) / sw)
     idx = r_draw.choice(n, size=n_draws, p=wts / sw)
     qd = {k: np.asarray(v)[idx] if np.ndim(v) else np.full(n_draws, v) for k, v in q.items()}
     post = _posterior_dict(model, qd, (1, n_draws))
