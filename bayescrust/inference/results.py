@@ -168,8 +168,9 @@ def build_idata(*, posterior: dict, prior: dict, log_likelihood: dict, sample_st
     ``observed`` is ``{name: (value, sigma)}``: the values go to ``observed_data``, the 1-sigma
     errors to ``constant_data`` as ``<name>_sigma`` (with any other ``constant_data``).
     """
-    import arviz as az
+    from ._arviz import module
 
+    az = module()
     with warnings.catch_warnings():
         # arviz warns when there are more chains (walkers) than draws; that is by design here.
         warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
@@ -199,15 +200,16 @@ VARIABLE_UNITS = {
 }
 
 
-def _from_dict(az, **groups):
+def _from_dict(az, *, dims=None, coords=None, **groups):
     """``az.from_dict`` of arviz 0.2x (keyword groups, InferenceData) or 1.x (one dict of
     groups, DataTree); both have the same groups and write the same NetCDF layout."""
     if _major(az) >= 1:
         attrs = groups.pop("attrs", None)
-        tree = az.from_dict({k: v for k, v in groups.items() if v is not None})
+        tree = az.from_dict({k: v for k, v in groups.items() if v is not None}, dims=dims,
+                            coords=coords)
         tree.attrs.update(attrs or {})  # provenance at the root, where 0.2x reads it too
         return tree
-    return az.from_dict(**groups)
+    return az.from_dict(dims=dims, coords=coords, **groups)
 
 
 def _major(az) -> int:

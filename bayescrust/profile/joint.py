@@ -192,9 +192,9 @@ def _burn_in(jm, init, rng, steps, moves):
 
 
 def _ess(ind_chains):
-    import arviz as az
+    from ..inference._arviz import numpy_diagnostics
 
-    with np.errstate(all="ignore"):
+    with np.errstate(all="ignore"), numpy_diagnostics() as az:
         e = float(az.ess(np.asarray(ind_chains, float)))
     return e
 

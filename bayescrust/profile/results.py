@@ -76,8 +76,10 @@ class ProfileResult:
         return float(row["probability"].iloc[0])
 
     def to_idata(self):
-        """arviz ``InferenceData``: posterior with a ``layer`` dimension (one chain of draws)."""
-        import arviz as az
+        """arviz ``InferenceData`` (a DataTree under arviz 1.x): posterior with a ``layer``
+        dimension (one chain of draws), the observed values per layer in ``observed_data``."""
+        from ..inference._arviz import module
+        from ..inference.results import _from_dict
 
         d = self.draws
         post = {k: v[None] for k, v in d["thermal"].items()}
@@ -89,18 +91,13 @@ class ProfileResult:
         for k in ("vp", "vs", "vp_vs", "density"):
             vals = [x.observed.get(k, (math.nan, math.nan))[0] for x in self.profile.layers]
             obs[f"observed_{k}"] = np.array(vals)
-        idata = az.from_dict(posterior=post, dims=dims,
-                             coords={"layer": list(self.profile.names)},
-                             observed_data=obs,
-                             attrs={"method": self.method,
-                                    "thermal": self.profile.thermal.describe(),
-                                    "log_evidence": self.log_evidence,
-                                    "log_evidence_error": self.log_evidence_error})
-        for k in obs:
-            idata.observed_data[k] = idata.observed_data[k].rename({idata.observed_data[k].dims[0]:
-                                                                   "layer"})
-        idata.observed_data = idata.observed_data.assign_coords(layer=list(self.profile.names))
-        return idata
+            dims[f"observed_{k}"] = ["layer"]
+        return _from_dict(module(), posterior=post, observed_data=obs, dims=dims,
+                          coords={"layer": list(self.profile.names)},
+                          attrs={"method": self.method,
+                                 "thermal": self.profile.thermal.describe(),
+                                 "log_evidence": self.log_evidence,
+                                 "log_evidence_error": self.log_evidence_error})
 
 
 def boundary_from_mantle(profile, mantle):

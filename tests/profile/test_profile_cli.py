@@ -68,6 +68,10 @@ def test_profile_command_writes_tables_and_netcdf(tmp_path):
     assert idata.posterior["temperature_c"].dims[-1] == "layer"
     assert list(idata.posterior["layer"].values) == ["upper", "lower"]
     assert "boundary_km" in idata.posterior
+    # the observed values per layer, on the same layer coordinate (arviz 0.2x and 1.x alike)
+    vp = idata.observed_data["observed_vp"]
+    assert vp.dims == ("layer",) and list(vp["layer"].values) == ["upper", "lower"]
+    assert vp.values.tolist() == [5.5, 7.0]
     assert (out / "report.md").read_text().count("Thermal state favoured") == 1
 
 
