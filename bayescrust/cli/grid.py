@@ -98,7 +98,8 @@ def cmd_map(args) -> int:
     from ..grid.store import StoreMismatch
 
     try:
-        with AtomicFolder(out, overwrite=args.overwrite) as tmp:
+        with AtomicFolder(out, overwrite=args.overwrite,
+                          protect=[args.study, study.file, store]) as tmp:
             do_map(args, study, tmp, store=None if args.no_checkpoint else store,
                    figures=not args.no_figures,
                    validate=args.validate if args.validate is not None else study.validate_nodes)

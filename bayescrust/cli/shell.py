@@ -12,7 +12,7 @@ from pathlib import Path
 
 from ..config import layer_slug
 
-__all__ = ["InputError", "AtomicFolder", "FIG_FORMATS", "slug", "say", "write_text",
+__all__ = ["InputError", "AtomicFolder", "RESULTS_MARKER", "FIG_FORMATS", "slug", "say", "write_text",
            "write_table", "save_figure", "use_agg", "layer_seed", "Warnings",
            "add_common_options", "seed_value", "folder_command"]
 
@@ -28,17 +28,25 @@ class InputError(Exception):
 # ---------------------------------------------------------------------------------------------
 
 
+#: File that marks a folder as written by bayescrust: ``--overwrite`` replaces no other folder.
+RESULTS_MARKER = ".bayescrust-results"
+
+
 class AtomicFolder:
     """Context manager yielding a temporary folder that becomes ``final`` on success.
 
-    Refuses a non-empty existing folder unless ``overwrite``; on any failure the temporary folder
-    (and any parent folders it had to create) is removed, so no partial output is left.
+    Refuses a non-empty existing folder unless ``overwrite``, and even then unless it is a
+    results folder of bayescrust (:data:`RESULTS_MARKER`, or the ``run.toml`` of earlier
+    versions) holding none of the run's inputs (``protect``: the study file, an input grid). On
+    any failure the temporary folder (and any parent folders it had to create) is removed, so no
+    partial output is left.
     """
 
-    def __init__(self, final, *, overwrite: bool = False, option: str = "--out"):
+    def __init__(self, final, *, overwrite: bool = False, option: str = "--out", protect=()):
         self.final = Path(final)
         self.overwrite = overwrite
         self.option = option
+        self.protect = [Path(p) for p in protect if p]
         self.tmp: Path | None = None
         self.created: list[Path] = []
 
@@ -47,9 +55,8 @@ class AtomicFolder:
         if final.exists() or final.is_symlink():
             if not final.is_dir():
                 raise InputError(f"{final}: {self.option}: exists and is not a folder")
-            if any(final.iterdir()) and not self.overwrite:
-                raise InputError(f"{final}: {self.option}: folder already holds results; choose "
-                                 "another folder or pass --overwrite")
+            if any(final.iterdir()):
+                self._check_replaceable(final)
         parent = final.absolute().parent
         missing = []
         p = parent
@@ -62,12 +69,31 @@ class AtomicFolder:
                 self.created.append(d)
             self.tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.partial-", dir=parent))
             self.tmp.chmod(_folder_mode())  # mkdtemp makes 0o700; results are for sharing
+            from .. import __version__
+
+            (self.tmp / RESULTS_MARKER).write_text(
+                f"written by bayescrust {__version__}; `--overwrite` may replace this folder\n",
+                encoding="utf-8")
         except OSError as exc:
             self._cleanup()
             reason = exc.strerror or str(exc)
             raise InputError(f"{final}: {self.option}: cannot write to this folder ({reason})"
                              ) from None
         return self.tmp
+
+    def _check_replaceable(self, final: Path):
+        if not self.overwrite:
+            raise InputError(f"{final}: {self.option}: folder already holds results; choose "
+                             "another folder or pass --overwrite")
+        here = final.resolve()
+        for p in self.protect:
+            if here in p.resolve().parents:
+                raise InputError(f"{final}: {self.option}: --overwrite would delete {p}, an "
+                                 "input of this run; choose another folder")
+        if not _is_results_folder(final):
+            raise InputError(f"{final}: {self.option}: --overwrite replaces only a results "
+                             f"folder written by bayescrust (it holds {RESULTS_MARKER}); this "
+                             "one is not: choose another folder")
 
     def _cleanup(self):
         if self.tmp is not None:
@@ -106,6 +132,17 @@ class AtomicFolder:
         finally:
             if old is not None:
                 shutil.rmtree(old, ignore_errors=True)
+        return False
+
+
+def _is_results_folder(folder: Path) -> bool:
+    """Whether ``folder`` was written by bayescrust (its marker; earlier versions: run.toml)."""
+    if (folder / RESULTS_MARKER).is_file():
+        return True
+    run = folder / "run.toml"
+    try:
+        return run.is_file() and "bayescrust_version" in run.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError):
         return False
 
 
@@ -171,7 +208,8 @@ def folder_command(args, run) -> int:
     ``--no-figures``, ``run(tmp)`` into an atomic folder at ``args.out``, then print it."""
     if not args.no_figures:
         use_agg()
-    with AtomicFolder(args.out, overwrite=args.overwrite) as tmp:
+    with AtomicFolder(args.out, overwrite=args.overwrite,
+                      protect=[getattr(args, "study", None)]) as tmp:
         run(tmp)
     print(args.out)
     return 0

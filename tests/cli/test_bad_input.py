@@ -88,7 +88,7 @@ def test_existing_results_refused_then_overwritten(tmp_path, capsys):
     p = tmp_path / "s.toml"
     p.write_text(GOOD)
     out = tmp_path / "out"
-    out.mkdir()
+    assert main(["invert", str(p), "--out", str(out), "-q", "--no-figures"]) == 0
     (out / "keep.txt").write_text("earlier results")
     rc = main(["invert", str(p), "--out", str(out), "-q", "--no-figures"])
     err = capsys.readouterr().err
@@ -98,6 +98,33 @@ def test_existing_results_refused_then_overwritten(tmp_path, capsys):
     assert rc == 0
     assert not (out / "keep.txt").exists() and (out / "hypotheses.csv").is_file()
     assert sorted(q.name for q in tmp_path.iterdir()) == ["out", "s.toml"]
+
+
+def test_overwrite_spares_folders_bayescrust_did_not_write(tmp_path, capsys):
+    # --overwrite replaced any folder: a user's thesis folder went, files and all
+    p = tmp_path / "s.toml"
+    p.write_text(GOOD)
+    mine = tmp_path / "thesis"
+    mine.mkdir()
+    (mine / "thesis.tex").write_text("years of work")
+    rc = main(["invert", str(p), "--out", str(mine), "-q", "--no-figures", "--overwrite"])
+    err = capsys.readouterr().err
+    assert rc == 2 and "replaces only a results folder written by bayescrust" in err
+    assert (mine / "thesis.tex").read_text() == "years of work"
+
+
+def test_overwrite_spares_the_study_file_inside_the_folder(tmp_path, capsys):
+    # a results folder holding the study file that is being read: replacing it deleted the study
+    out = tmp_path / "run"
+    first = tmp_path / "s.toml"
+    first.write_text(GOOD)
+    assert main(["invert", str(first), "--out", str(out), "-q", "--no-figures"]) == 0
+    study = out / "study.toml"
+    study.write_text(GOOD)
+    rc = main(["invert", str(study), "--out", str(out), "-q", "--no-figures", "--overwrite"])
+    err = capsys.readouterr().err
+    assert rc == 2 and "an input of this run" in err
+    assert study.read_text() == GOOD
 
 
 def test_unwritable_folder(tmp_path, capsys):
