@@ -12,8 +12,8 @@ from pathlib import Path
 
 from ..config import layer_slug
 
-__all__ = ["InputError", "AtomicFolder", "RESULTS_MARKER", "FIG_FORMATS", "slug", "say", "write_text",
-           "write_table", "save_figure", "use_agg", "layer_seed", "Warnings",
+__all__ = ["InputError", "AtomicFolder", "RESULTS_MARKER", "FIG_FORMATS", "slug", "say",
+           "write_text", "write_table", "save_figure", "use_agg", "layer_seed", "Warnings",
            "add_common_options", "seed_value", "folder_command"]
 
 FIG_FORMATS = ("png", "pdf")
