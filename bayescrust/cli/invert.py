@@ -9,6 +9,7 @@ from .layers import assumptions, run_one, run_toml, select_layers, study_command
 from .shell import (
     Warnings,
     add_common_options,
+    alert,
     layer_seed,
     save_figure,
     say,
@@ -84,8 +85,12 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
         top = res.hypotheses["posterior_probability"].idxmax()
         flag = " -- DATA MISFIT, see report.md" if res.misfit else ""
         flag += "" if res.converged else " -- NOT CONVERGED"
-        say(args, f"layer {name!r}: most probable {top!r} "
-                  f"{res.hypotheses.loc[top, 'posterior_probability']:.2f}{flag}")
+        line = (f"layer {name!r}: most probable {top!r} "
+                f"{res.hypotheses.loc[top, 'posterior_probability']:.2f}{flag}")
+        if flag:  # printed with or without -q
+            alert(line)
+        else:
+            say(args, line)
     if warn.messages:
         lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
     lines += ["## Files", "", "- `summary.*`, `hypotheses.*`: all layers (CSV, Markdown, LaTeX)",

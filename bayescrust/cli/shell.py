@@ -12,7 +12,7 @@ from pathlib import Path
 
 from ..config import layer_slug
 
-__all__ = ["InputError", "AtomicFolder", "RESULTS_MARKER", "FIG_FORMATS", "slug", "say",
+__all__ = ["InputError", "AtomicFolder", "RESULTS_MARKER", "FIG_FORMATS", "slug", "say", "alert",
            "write_text", "write_table", "save_figure", "use_agg", "layer_seed", "Warnings",
            "add_common_options", "seed_value", "folder_command"]
 
@@ -161,8 +161,15 @@ def slug(name: str) -> str:
 
 
 def say(args, msg: str):
+    """Progress and information on stderr (silenced by ``-q``)."""
     if not getattr(args, "quiet", False):
         print(msg, file=sys.stderr)
+
+
+def alert(msg: str):
+    """A warning on stderr, with or without ``-q``: a misfit or a run that did not converge
+    must reach the user even when progress is silenced."""
+    print(f"bayescrust: warning: {msg}", file=sys.stderr)
 
 
 def write_text(path: Path, text: str):
@@ -243,7 +250,7 @@ class Warnings:
             msg = f"{context}: {w.category.__name__}: {w.message}"
             if msg not in self.messages:
                 self.messages.append(msg)
-                say(self.args, f"bayescrust: warning: {msg}")
+                alert(msg)
 
 
 def seed_value(text: str) -> int:
@@ -262,7 +269,8 @@ def seed_value(text: str) -> int:
 
 def add_common_options(sp, *, out=True, seed=True, method=True, layer=None, figures=True):
     """Options shared by the study commands (quiet, output folder, seed, method, ...)."""
-    sp.add_argument("-q", "--quiet", action="store_true", help="no progress or messages")
+    sp.add_argument("-q", "--quiet", action="store_true",
+                    help="no progress or messages (warnings are still printed)")
     if out:
         sp.add_argument("--out", required=out is True, default=None if out is True else out,
                         metavar="DIR", help="output folder (created atomically)")

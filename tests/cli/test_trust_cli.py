@@ -47,6 +47,11 @@ def test_misfit_is_flagged_in_cli_output_report_and_tables(misfit_study, tmp_pat
     assert "Definitions" in report and "mixed / transition" in report
     hyp = (out / "layers" / "deep" / "hypotheses.csv").read_text()
     assert "MISFIT" in hyp
+    # -q silences progress, never the warnings (it silenced the misfit line too)
+    assert main(["invert", str(misfit_study), "--out", str(tmp_path / "q"), "--no-figures",
+                 "-q"]) == 0
+    err = capsys.readouterr().err
+    assert "DATA MISFIT" in err and "bayescrust: warning:" in err
 
 
 def test_defaults_depend_on_depth_and_partition(misfit_study, tmp_path):
