@@ -123,6 +123,8 @@ def run_toml(study, extra: dict) -> str:
     data = study_to_dict(study)
     if extra.get("seed") is not None:
         data["seed"] = extra["seed"]  # the seed actually used (--seed overrides the study's)
+    if extra.get("method") is not None:  # the method actually used (--method overrides it)
+        data.setdefault("sampler", {})["method"] = extra["method"]
     # provenance goes under [run], which study files may carry and the reader ignores
     data["run"] = {"bayescrust_version": __version__, "study_file": str(study.source), **extra,
                    "defaults_used": defaults_used(study, extra.get("method"))}

@@ -90,6 +90,20 @@ def test_run_toml_records_the_seed_used_and_reruns(small_study, tmp_path):
     assert (a / "hypotheses.csv").read_text() == (b / "hypotheses.csv").read_text()
 
 
+def test_run_toml_records_the_method_used(small_study, tmp_path):
+    # --method exact on an MCMC study: run.toml kept method = "mcmc", so re-running it
+    # silently changed every probability
+    small_study.write_text(small_study.read_text().replace('method = "exact"',
+                                                           'method = "mcmc"'))
+    a, b = tmp_path / "a", tmp_path / "b"
+    assert main(["invert", str(small_study), "--out", str(a), "-q", "--no-figures",
+                 "--layer", "lower crust", "--method", "exact"]) == 0
+    assert tomllib.loads((a / "run.toml").read_text())["sampler"]["method"] == "exact"
+    assert main(["invert", str(a / "run.toml"), "--out", str(b), "-q", "--no-figures",
+                 "--layer", "lower crust"]) == 0
+    assert (a / "hypotheses.csv").read_text() == (b / "hypotheses.csv").read_text()
+
+
 def test_invert_mcmc_small_run(small_study, tmp_path):
     text = small_study.read_text().replace(
         'method = "exact"\nexact_points = 2048',
