@@ -16,7 +16,8 @@ def assumptions(study, layer=None, thermal=None) -> dict:
     a = {
         "forward model": ", ".join(f"{k}={v}" for k, v in study.forward.items())
         or "package defaults (Hill mixing, DEM inclusions, lizardite, anelastic correction)",
-        "rocks": ", ".join(study.rocks_for(layer) if layer else study.rocks),
+        "rocks": (", ".join(study.rocks_for(layer)) if layer is not None
+                  else _rocks_by_layer(study)),
         "likelihood": study.likelihood + (
             f" (model error {study.model_error_for(layer)})" if layer is not None
             and study.model_error_for(layer) is not None else " (default forward-model error)"),
@@ -29,6 +30,17 @@ def assumptions(study, layer=None, thermal=None) -> dict:
         a["thermal-state prior"] = f"{th.name} ({th.kind})"
     a["interpretations"] = "as named in the study file (or the package defaults)"
     return a
+
+
+def _rocks_by_layer(study) -> str:
+    """The rocks each layer is inverted with (depth defaults filled in), layers with the same
+    set grouped: ``"basalt (upper); gabbro, harzburgite (gabbro layer, deep layer)"``."""
+    groups: dict[tuple, list] = {}
+    for name, s in defaults_used(study).items():
+        groups.setdefault(tuple(s["rocks"]), []).append(name)
+    if len(groups) == 1:
+        return ", ".join(next(iter(groups)))
+    return "; ".join(f"{', '.join(r)} ({', '.join(n)})" for r, n in groups.items())
 
 
 def build(study, layer, **kw):

@@ -156,3 +156,18 @@ def test_interrupt_prints_one_clean_line(misfit_study, tmp_path, monkeypatch, ca
     assert cap.err.strip() == "bayescrust: interrupted; no output written"
     assert "Traceback" not in cap.out + cap.err
     assert not (tmp_path / "o").exists()
+
+
+def test_assumptions_list_the_rocks_each_layer_used():
+    # the report's "rocks:" line gave the study-wide list (gabbro, harzburgite in the demo)
+    # although the upper layers were inverted with basalt and diabase
+    from importlib import resources
+
+    from bayescrust.cli.layers import assumptions
+    from bayescrust.config import load_study
+
+    path = resources.files("bayescrust") / "demo" / "tallowmere_ridge.toml"
+    with resources.as_file(path) as p:
+        rocks = assumptions(load_study(p))["rocks"]
+    assert rocks.startswith("basalt (upper extrusives); diabase, gabbro (sheeted dikes)")
+    assert "gabbro, harzburgite (gabbro layer" in rocks
