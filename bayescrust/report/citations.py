@@ -10,12 +10,16 @@ from __future__ import annotations
 
 import re
 
-__all__ = ["INFERENCE_REFERENCES", "references", "bibtex", "methods_paragraph"]
+__all__ = ["INFERENCE_REFERENCES", "SETTING_REFERENCES", "references", "bibtex",
+           "methods_paragraph"]
 
 #: References of the inference and diagnostics (not data; cited by every run).
 INFERENCE_REFERENCES = (
     "Foreman-Mackey, D., Hogg, D. W., Lang, D. & Goodman, J. (2013) emcee: The MCMC Hammer. "
     "Publ. Astron. Soc. Pac. 125:306-312",
+    "ter Braak, C. J. F. (2006) A Markov Chain Monte Carlo version of the genetic algorithm "
+    "Differential Evolution: easy Bayesian computing for real parameter spaces. Stat. Comput. "
+    "16:239-249",
     "ter Braak, C. J. F. & Vrugt, J. A. (2008) Differential Evolution Markov Chain with snooker "
     "updater and fewer chains. Stat. Comput. 18:435-446",
     "Vehtari, A., Gelman, A., Simpson, D., Carpenter, B. & Buerkner, P.-C. (2021) "
@@ -27,6 +31,17 @@ INFERENCE_REFERENCES = (
     "Kumar, R., Carroll, C., Hartikainen, A. & Martin, O. (2019) ArviZ a unified library for "
     "exploratory analysis of Bayesian models in Python. J. Open Source Softw. 4:1143",
 )
+
+#: References of the averaging rules and inclusion schemes a methods paragraph may name that
+#: the data files do not cite (listed when the run used them).
+SETTING_REFERENCES = {
+    "voigt": "Voigt, W. (1928) Lehrbuch der Kristallphysik. Teubner, Leipzig",
+    "reuss": "Reuss, A. (1929) Berechnung der Fliessgrenze von Mischkristallen auf Grund der "
+             "Plastizitaetsbedingung fuer Einkristalle. Z. Angew. Math. Mech. 9:49-58",
+    "kuster_toksoz": "Kuster, G. T. & Toksoz, M. N. (1974) Velocity and attenuation of seismic "
+                     "waves in two-phase media: Part I. Theoretical formulations. Geophysics "
+                     "39:587-606",
+}
 
 _FULL = re.compile(r"^(?P<authors>(?:[A-Z]|[a-z]+ [A-Z])[^()]{1,200}?) "
                    r"\((?P<year>\d{4})[a-z]?\) (?P<rest>.+)$")
@@ -62,7 +77,12 @@ def references(rocks_or_result=None) -> list[str]:
             first = authors.split()[0].rstrip(",")
             if not any(r.startswith(first) and f"({year})" in r for r in out):
                 short.append(f"{authors} ({year})")
-    return list(dict.fromkeys(out + short + list(INFERENCE_REFERENCES)))
+    used = []
+    if hasattr(rocks_or_result, "settings"):  # a run: the rules its forward model named
+        fwd = rocks_or_result.settings.get("forward") or {}
+        used = [SETTING_REFERENCES[v] for v in (fwd.get("mixing"), fwd.get("inclusion_scheme"))
+                if v in SETTING_REFERENCES]
+    return list(dict.fromkeys(out + short + used + list(INFERENCE_REFERENCES)))
 
 
 #: An inline citation "Surname[, Surname][ & Surname| et al.] [(]YYYY" inside a source note.
@@ -109,44 +129,93 @@ def bibtex(refs) -> str:
     return "\n\n".join(entries) + "\n"
 
 
+#: The averaging rule of the solid, as a methods sentence names it (``[forward] mixing``).
+_MIXING_TEXT = {
+    "hill": "Voigt-Reuss-Hill average (Hill, 1952)",
+    "voigt": "Voigt average (Voigt, 1928)",
+    "reuss": "Reuss average (Reuss, 1929)",
+    "hashin_shtrikman": "mean of the Hashin-Shtrikman bounds (Hashin & Shtrikman, 1963)",
+}
+#: The inclusion scheme for pores, cracks and melt (``[forward] inclusion_scheme``).
+_INCLUSION_TEXT = {
+    "dem": "differential effective medium; Berryman, 1980; Norris, 1985",
+    "self_consistent": "self-consistent scheme; Berryman, 1980",
+    "kuster_toksoz": "Kuster & Toksoz, 1974",
+}
+#: The anelastic correction (``[forward] attenuation_law``).
+_ANELASTIC_TEXT = {
+    "jackson2002": "corrects velocities for anelastic dispersion with the attenuation law of "
+                   "Jackson et al. (2002) and the first-order correction of Karato (1993)",
+    "yamauchi_takei2016": "corrects velocities for anelasticity with the near-solidus master "
+                          "curve of Yamauchi & Takei (2016)",
+}
+
+
+def _grouped(per_layer: dict) -> str:
+    """``{layer: text}`` as one phrase; layers with the same text share it."""
+    groups: dict[str, list] = {}
+    for name, text in per_layer.items():
+        groups.setdefault(text, []).append(name)
+    if len(groups) == 1:
+        return next(iter(groups))
+    return "; ".join(f"{', '.join(names)}: {text}" for text, names in groups.items())
+
+
 def methods_paragraph(results: dict) -> str:
     """A methods paragraph for a run (forward model, priors, sampler, diagnostics), with the
-    references it cites; ``results`` maps layer names to ``LayerResult`` objects."""
+    references it cites; ``results`` maps layer names to ``LayerResult`` objects. The forward
+    model, priors and rocks are read from each layer's own settings."""
+    from ..config.forward import DEFAULT_ATTENUATION_LAW
+    from ..inference.sampler import MOVES_DESCRIPTION
     from ..inference.trust import PPC_ALPHA, RHAT_MAX
 
     first = next(iter(results.values()))
     s = first.settings
-    fwd = s.get("forward") or {}
-    mixing = fwd.get("mixing", "hill")
-    incl = fwd.get("inclusion_scheme", "dem")
-    rocks = sorted({r for res in results.values() for r in res.settings.get("rocks", ())})
     method = s.get("method")
     names = {"temperature_c": "temperature (deg C)", "serpentinization": "serpentinisation"}
-    pri = "; ".join(f"{names.get(k, k.replace('_', ' '))}: {v}"
-                    for k, v in (s.get("priors") or {}).items())
+
+    def forward_text(fwd):
+        mixing = _MIXING_TEXT.get(fwd.get("mixing", "hill"), fwd.get("mixing"))
+        incl = fwd.get("inclusion_scheme", "dem")
+        if fwd.get("anelastic", True):
+            law = fwd.get("attenuation_law", DEFAULT_ATTENUATION_LAW)
+            anel = _ANELASTIC_TEXT.get(law, f"corrects velocities for anelasticity ({law})")
+        else:
+            anel = "uses unrelaxed velocities (no anelastic correction)"
+        return (f"single-mineral elastic data with the {mixing}, adds pores, cracks and melt as "
+                f"spheroidal inclusions ({_INCLUSION_TEXT.get(incl, incl)}), and {anel}")
+
+    def prior_text(st):
+        return "; ".join(f"{names.get(k, k.replace('_', ' '))}: {v}"
+                         for k, v in (st.get("priors") or {}).items()) or "the package defaults"
+
+    per = {n: r.settings for n, r in results.items()}
+    rocks = _grouped({n: ", ".join(st.get("rocks", ())) for n, st in per.items()})
     lines = [
         f"Each of {len(results)} layer(s) was interpreted by Bayesian inference with "
-        f"bayescrust. The forward model mixes end-member rocks ({', '.join(rocks)}) from "
-        f"single-mineral elastic data with the {mixing.replace('_', '-').title()} average "
-        "(Hill, 1952), adds pores, cracks and melt as spheroidal inclusions "
-        f"({'differential effective medium' if incl == 'dem' else incl.replace('_', '-')}; "
-        "Berryman, 1980; Norris, 1985), and corrects velocities for anelastic dispersion; "
+        f"bayescrust. The forward model mixes end-member rocks ({rocks}) from "
+        f"{_grouped({n: forward_text(st.get('forward') or {}) for n, st in per.items()})}; "
         "melt is effective only above the solidus and serpentinisation only below the "
         "serpentine stability limit.",
-        f"Priors were: {pri or 'the package defaults'}; the likelihood was "
-        f"{s.get('likelihood', 'gaussian')}, with measurement and forward-model errors "
-        "added in quadrature.",
+        f"Priors were: {_grouped({n: prior_text(st) for n, st in per.items()})}; the "
+        f"likelihood was {s.get('likelihood', 'gaussian')}, with measurement and "
+        "forward-model errors added in quadrature.",
     ]
     if method == "mcmc":
         smp = s.get("sampler") or {}
         lines.append(
-            f"The posterior was sampled with emcee (Foreman-Mackey et al., 2013) using "
-            f"differential-evolution and snooker moves (ter Braak & Vrugt, 2008), "
-            f"{smp.get('n_walkers', '')} walkers, run for at least "
-            f"{smp.get('tau_factor', 50):g} autocorrelation times and an effective sample size "
-            f"of at least {smp.get('min_ess', '')}; a run counts as converged when that rule "
-            f"is met and every rank-normalised R-hat is below {RHAT_MAX:g} (Vehtari et al., "
-            "2021). Evidences were estimated by importance sampling.")
+            f"The posterior was sampled with emcee (Foreman-Mackey et al., 2013) using a "
+            f"mixture of moves ({MOVES_DESCRIPTION}; ter Braak, 2006; ter Braak & Vrugt, "
+            f"2008), {smp.get('n_walkers', '')} walkers; a run stops once it has lasted at "
+            f"least {smp.get('tau_factor', 50):g} autocorrelation times and reached an "
+            f"effective sample size of at least {smp.get('min_ess', '')}, and counts as "
+            f"converged when that rule is met and every rank-normalised R-hat is below "
+            f"{RHAT_MAX:g} (Vehtari et al., 2021). Evidences were estimated by importance "
+            "sampling.")
+        unconverged = [n for n, r in results.items() if not r.converged]
+        if unconverged:
+            lines.append(f"The run(s) of layer(s) {', '.join(unconverged)} did NOT meet this "
+                         "rule (not converged); their numbers are not reliable.")
     else:
         lines.append(
             "The posterior and the evidence were computed by randomised quasi-Monte Carlo "

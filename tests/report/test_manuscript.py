@@ -66,6 +66,29 @@ def test_methods_paragraph_names_model_priors_sampler_and_checks(res):
         assert word in text, word
 
 
+def test_methods_paragraph_follows_each_run_settings(res):
+    # it said "Voigt average (Hill, 1952)" for Voigt mixing, "corrects velocities for anelastic
+    # dispersion" with the correction off, and gave the first layer's priors for every layer
+    import warnings
+
+    other = bc.exact_layer(bc.Layer("upper", vp=(7.3, 0.1), top_km=5, bottom_km=6,
+                                    water_depth_km=3), rocks=("gabbro", "harzburgite"), seed=2,
+                           n_points=1024, priors={"porosity": 0.0, "melt_fraction": 0.0},
+                           forward={"mixing": "voigt", "anelastic": False})
+    text = methods_paragraph({"lower crust": res, "upper": other})
+    assert "Voigt average (Voigt, 1928)" in text and "Voigt-Reuss-Hill average (Hill, 1952)" in text
+    assert "no anelastic correction" in text and "Jackson et al. (2002)" in text
+    assert "lower crust:" in text and "upper:" in text  # per-layer priors and forward models
+    assert any(r.startswith("Voigt, W. (1928)") for r in references(other))
+    assert not any(r.startswith("Voigt, W.") for r in references(res))
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        short = bc.invert_layer(bc.Layer("lower crust", vp=(7.1, 0.1), top_km=4, bottom_km=6,
+                                         water_depth_km=3), seed=1, max_steps=60, min_ess=50)
+    assert not short.converged
+    assert "did NOT meet this rule" in methods_paragraph({"lower crust": short})
+
+
 def test_corner_shows_effective_not_latent(res):
     from bayescrust.report.figures import effective_names, free_parameters
 
