@@ -476,7 +476,9 @@ def run_ensemble(
             bar.close()
     wall = time.perf_counter() - t0
     n = sampler.iteration
-    burn = min(burn, n - 1)
+    # an unconverged run keeps at least its second half: a burn-in from a tau estimate as long
+    # as the chain kept one step (64 draws, an MCSE below even the independent-draw error)
+    burn = min(burn, n - 1) if converged else min(burn, n // 2)
     thin = max(1, int(np.min(tau) // 2)) if np.all(np.isfinite(tau)) else 1
     thin = min(thin, n - burn)  # emcee keeps steps discard + thin - 1, ... : never none
     if not converged:

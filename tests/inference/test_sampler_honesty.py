@@ -158,3 +158,14 @@ def test_progress_bar_ends_at_full_length(capsys):
     err = capsys.readouterr().err
     last = err.replace("\r", "\n").strip().splitlines()[-1]
     assert "100%" in last and f"{run.n_steps}/{run.n_steps}" in last, last
+
+
+def test_an_unconverged_run_keeps_half_its_chain():
+    # stopped at max_steps, the burn-in (5 tau from an early tau estimate) reached the end of
+    # the chain and one step was kept: 64 draws, an MCSE below even the independent-draw error
+    layer = bc.Layer("lower crust", vp=(7.1, 0.1), top_km=4, bottom_km=6, water_depth_km=3)
+    with pytest.warns(bc.ConvergenceWarning):
+        r = bc.invert_layer(layer, seed=1, max_steps=100, min_ess=1000)
+    assert not r.converged and r.diagnostics["n_steps"] == 100
+    assert r.diagnostics["burn"] <= 50
+    assert r.idata.posterior.sizes["draw"] * r.diagnostics["thin"] >= 50
