@@ -79,6 +79,11 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
                   "cannot reproduce the observations there (posterior-predictive check); the "
                   "probabilities of those layers are conditional on a model that does not fit.",
                   ""]
+    unconverged = [n for n, r in results.items() if not r.converged]
+    if unconverged:
+        lines += [f"> **Warning: layer(s) {', '.join(unconverged)} did not converge.** Their "
+                  "probabilities and ranges are not reliable; run longer (raise `max_steps` "
+                  "or `min_ess` in the [sampler] table).", ""]
     lines += [caution_text(assumptions(study)), "## Interpretations", ""]
     for name, res in results.items():
         lines += layer_section(name, res)

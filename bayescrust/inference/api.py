@@ -94,6 +94,8 @@ def _trust(model, hyps, post, summary, hyp_table, diagnostics, *, sampler_conver
     hyp_table["mixing_q95"] = [mix[k][2] for k in hyp_table.index]
     hyp_table["data_fit"] = ("MISFIT (" + ", ".join(check["flagged"]) + ")"
                              if check["misfit"] else "ok")
+    # a table read on its own must say when its numbers come from an unconverged run
+    hyp_table["converged"] = bool(verdict["converged"])
     if check["misfit"]:
         warnings.warn(f"layer {model.layer.name!r}: {misfit_message(check)}", MisfitWarning,
                       stacklevel=3)
@@ -103,6 +105,14 @@ def _trust(model, hyps, post, summary, hyp_table, diagnostics, *, sampler_conver
                       f"{verdict['rule']}); run longer (raise min_ess)", ConvergenceWarning,
                       stacklevel=3)
 # --- end trust ---------------------------------------------------------------------------
+
+
+def _stamp(idata, table, diagnostics):
+    """The data-fit and convergence verdicts as attributes of the InferenceData (posterior.nc
+    read on its own carries them)."""
+    idata.attrs["data_fit"] = str(table["data_fit"].iloc[0]) if len(table) else "ok"
+    idata.attrs["converged"] = "yes" if diagnostics["converged"] else "NO"
+    return idata
 
 
 def resolved_settings(layer, *, rocks=("gabbro", "harzburgite"), priors=None, hypotheses=None,
@@ -331,6 +341,7 @@ def invert_layer(
                              n_post=ess_ref if np.isfinite(ess_ref) else float(np.min(run.ess)))
     _trust(model, hyps, post, summary, table, diagnostics, sampler_converged=run.converged,
            method="mcmc")
+    _stamp(idata, table, diagnostics)
     return LayerResult(
         idata=idata, hypotheses=table, summary=summary, log_evidence=log_z,
         log_evidence_error=log_z_err, diagnostics=diagnostics, layer=layer, settings=settings,
@@ -534,6 +545,7 @@ def exact_layer(
     table = hypothesis_table(p_prior, p_post, se_post, n_prior_draws, n_post=ess)
     _trust(model, hyps, post, summary, table, diagnostics, sampler_converged=ess >= 500,
            method="exact", importance_ess=ess)
+    _stamp(idata, table, diagnostics)
     return LayerResult(
         idata=idata, hypotheses=table, summary=summary,
         log_evidence=log_z, log_evidence_error=log_z_err, diagnostics=diagnostics,

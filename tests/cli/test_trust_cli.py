@@ -171,3 +171,35 @@ def test_assumptions_list_the_rocks_each_layer_used():
         rocks = assumptions(load_study(p))["rocks"]
     assert rocks.startswith("basalt (upper extrusives); diabase, gabbro (sheeted dikes)")
     assert "gabbro, harzburgite (gabbro layer" in rocks
+
+
+def test_an_unconverged_run_says_so_in_report_tables_and_netcdf(tmp_path, capsys):
+    # only the per-layer section and the screen said so; the top of report.md, the tables and
+    # posterior.nc (each read on its own) did not
+    import xarray as xr
+
+    study = tmp_path / "short.toml"
+    study.write_text(textwrap.dedent("""\
+        water_depth_km = 3.0
+        [sampler]
+        method = "mcmc"
+        max_steps = 100
+        [[layers]]
+        name = "lower crust"
+        top_km = 4.0
+        bottom_km = 6.0
+        vp = [7.1, 0.1]
+        """), encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["invert", str(study), "--out", str(out), "--no-figures", "-q"]) == 0
+    assert "NOT CONVERGED" in capsys.readouterr().err
+    report = (out / "report.md").read_text()
+    assert "did not converge" in report.split("## Interpretations")[0]
+    import pandas as pd
+
+    hyp = pd.read_csv(out / "hypotheses.csv")
+    assert "converged" in hyp.columns and not hyp["converged"].astype(str).str.lower().eq(
+        "true").any()
+    with xr.open_dataset(out / "layers" / "lower_crust" / "posterior.nc") as ds:  # root
+        attrs = dict(ds.attrs)
+    assert attrs.get("converged") == "NO"

@@ -46,7 +46,8 @@ def test_same_seed_bit_identical_and_result_structure():
                                           "log10_bayes_factor", "log10_bayes_factor_mcse",
                                           "evidence_category", "mixing_quantity",
                                           "mixing_median", "mixing_q05", "mixing_q95",
-                                          "data_fit"]
+                                          "data_fit", "converged"]
+    assert idata.attrs["data_fit"] == "ok" and idata.attrs["converged"] in ("yes", "NO")
     assert {"mean", "sd", "median", "hdi_low", "hdi_high", "r_hat", "ess_bulk"} <= set(
         a.summary.columns)
     assert a.settings["seed"] == 5 and a.settings["rocks"] == ["gabbro", "harzburgite"]

@@ -169,3 +169,5 @@ def test_an_unconverged_run_keeps_half_its_chain():
     assert not r.converged and r.diagnostics["n_steps"] == 100
     assert r.diagnostics["burn"] <= 50
     assert r.idata.posterior.sizes["draw"] * r.diagnostics["thin"] >= 50
+    # the verdict travels with the tables and posterior.nc, each of which may be read alone
+    assert not r.hypotheses["converged"].any() and r.idata.attrs["converged"] == "NO"
