@@ -140,7 +140,7 @@ def test_vectorised_equals_looped():
     fp, fs, q = anelastic._anelastic_factors(t, p, f, d, vp, vs)
     for idx in np.ndindex(shape):
         a, b, c = anelastic._anelastic_factors(t[idx], p[idx], f[idx], d[idx], vp[idx], vs[idx])
-        assert (fp[idx], fs[idx], q[idx]) == pytest.approx((a, b, c), rel=1e-14)
+        np.testing.assert_allclose([fp[idx], fs[idx], q[idx]], [a, b, c], rtol=1e-14)
 
 
 # --- errors --------------------------------------------------------------------------------------

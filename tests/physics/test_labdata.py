@@ -124,3 +124,41 @@ def test_serpentinite_above_its_stability_warns():
     assert notes and "not stable" in notes[0]
     _, notes = apply_stability("serpentinite", temperature_c=100.0, pressure_gpa=0.2)
     assert notes == []
+
+
+#: Every published laboratory band the model misses, with the size of the miss (model minus the
+#: nearer edge of the band; units of the observable). Each is a strict xfail below, so a new miss
+#: fails and a mended one is noticed; the README's caution gives the same sizes.
+KNOWN_MISSES = {
+    ("gabbro_200MPa", "vp"): "+0.037 km/s",
+    ("gabbro_200MPa", "vp_vs"): "-0.017",
+    ("gabbro_600MPa", "vp_vs"): "-0.011",
+    ("gabbro_600MPa", "density"): "+0.004 g/cm^3",
+    ("altered_gabbro_200MPa", "vp"): "+0.111 km/s",
+    ("altered_gabbro_200MPa", "vp_vs"): "-0.031",
+    ("altered_gabbro_200MPa", "density"): "+0.015 g/cm^3",
+    ("diabase_200MPa", "vp"): "+0.175 km/s",
+    ("diabase_200MPa", "density"): "+0.038 g/cm^3",
+    ("dunite_1GPa", "density"): "+0.026 g/cm^3",
+    ("antigorite_serpentinite_200MPa", "density"): "+0.011 g/cm^3",
+}
+
+
+def _lab_cases():
+    out = []
+    for r in labdata.lab_misfit():
+        key = (r["id"], r["observable"])
+        marks = ([pytest.mark.xfail(strict=True, reason=f"{key[0]} {key[1]}: the model misses "
+                                    f"the published band by {KNOWN_MISSES[key]}")]
+                 if key in KNOWN_MISSES else [])
+        out.append(pytest.param(r, id=f"{key[0]}-{key[1]}", marks=marks))
+    return out
+
+
+@pytest.mark.parametrize("row", _lab_cases())
+def test_model_inside_every_published_laboratory_band(row):
+    # each row's band and its source are in physics/data/labdata.toml (Christensen 1996,
+    # Christensen & Mooney 1995, Carlson & Miller 2003/2004, ...; tags per row); only the
+    # model's value is computed here
+    assert row["low"] <= row["model"] <= row["high"], (row["id"], row["observable"],
+                                                       row["model"], row["source"])

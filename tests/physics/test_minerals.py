@@ -343,13 +343,19 @@ def test_olivine_temperature_derivatives_of_velocity():
     assert (vs_hi - vs_lo) / (2 * h) == pytest.approx(dvs, rel=2e-2)
 
 
-def test_olivine_high_temperature_moduli_near_linear_trend():
-    # Isaak 1992 [from memory]: Fo90 Ks and G fall nearly linearly to 1500 K. Constant
-    # Anderson-Grueneisen parameters curve slightly; at 1300 K the model must lie within 5 % of
-    # the linear extrapolation (G_lin = 64.5, K_lin = 113.4 GPa).
+@pytest.mark.xfail(strict=True, reason=(
+    "Fo90 at 1300 K, 0 GPa: Ks 109.9 and G 62.1 GPa, 1.4 GPa below the softest ends of Isaak's "
+    "(1992) linear slopes (Vp 0.07, Vs 0.05 km/s slow): constant Anderson-Grueneisen parameters "
+    "with a rising alpha(T) steepen dM/dT at high temperature"))
+def test_olivine_high_temperature_moduli_within_published_slopes():
+    # Isaak 1992 JGR 97:1871 [from memory, as in the olivine row's source]: Fo90 Ks and G fall
+    # nearly linearly over 300-1500 K, dKs/dT = -0.016 +- 0.002, dG/dT = -0.0135 +- 0.001
+    # GPa/K. At 1300 K the model must lie within those slopes. (This test allowed 5 % of the
+    # central trend before, which the model's 3.0 % and 3.7 % passed.)
     p = mineral_properties("olivine", temperature_c=1300.0 - CELSIUS_TO_KELVIN, pressure_gpa=0.0)
-    assert float(p.shear_modulus) == pytest.approx(78.0 - 0.0135 * (1300 - 298.15), rel=0.05)
-    assert float(p.bulk_modulus) == pytest.approx(129.4 - 0.016 * (1300 - 298.15), rel=0.05)
+    dt = 1300.0 - 298.15
+    assert 129.4 - 0.018 * dt <= float(p.bulk_modulus) <= 129.4 - 0.014 * dt
+    assert 78.0 - 0.0145 * dt <= float(p.shear_modulus) <= 78.0 - 0.0125 * dt
 
 
 def test_olivine_pressure_derivatives_of_velocity():

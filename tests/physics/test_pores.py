@@ -40,6 +40,17 @@ def test_cracks_above_closing_pressure_are_shut():
     assert float(phi) == 0.02 and float(ar) == 1e-3
 
 
+def test_cracks_thin_linearly_below_the_closing_pressure():
+    # Walsh 1965: a penny crack's aperture falls linearly with normal stress and its radius stays,
+    # so porosity and aspect ratio both scale by (1 - P_e / P_c) between the end points (only
+    # the end points were checked: squaring the factor passed every test)
+    pc = float(walsh_closing_pressure_gpa(1e-3, 80.0, 40.0))
+    for x in (0.25, 0.5, 0.9):
+        phi, ar = close_cracks(0.02, 1e-3, x * pc, 80.0, 40.0)
+        assert float(phi) == pytest.approx(0.02 * (1 - x), rel=1e-12)
+        assert float(ar) == pytest.approx(1e-3 * (1 - x), rel=1e-12)
+
+
 def test_thin_cracks_close_at_depth_in_the_forward_model():
     # 1 % cracks of aspect 1e-3 in gabbro: open at zero effective pressure, shut at 0.2 GPa
     # (P_c ~ 0.1 GPa); shut cracks return the crack-free rock

@@ -184,3 +184,19 @@ def test_kuster_toksoz_rows_beyond_the_dilute_limit_are_nan():
                          porosity=np.array([0.05, 0.1]), aspect_ratio=0.1,
                          inclusion_scheme="kuster_toksoz")
     np.testing.assert_array_equal(vp[[0, 2]], ok.vp)
+
+
+def test_bulk_density_is_the_volume_average_of_solid_melt_and_pore_water():
+    # mass balance (common practice): rho = (1 - phi - m) rho_solid + phi rho_water + m rho_melt,
+    # each phase at the rock's temperature and its own pressure (pore water at the pore
+    # pressure; equal to the confining one here, so no crack closes). Nothing checked the
+    # density with melt: melt given the water's density passed.
+    from bayescrust.physics.fluids import basaltic_melt, seawater
+
+    t, p, pp, phi, m = 1250.0, 0.1, 0.1, 0.01, 0.03
+    solid = rock_properties("harzburgite", temperature_c=t, pressure_gpa=p)
+    rock = rock_properties("harzburgite", temperature_c=t, pressure_gpa=p, porosity=phi,
+                           aspect_ratio=0.5, melt_fraction=m, pore_pressure_gpa=pp)
+    rho_w, rho_l = seawater(t, pp)[0], basaltic_melt(t, p)[0]
+    expected = (1 - phi - m) * float(solid.density) + phi * rho_w + m * rho_l
+    assert float(rock.density) == pytest.approx(expected, rel=1e-12)

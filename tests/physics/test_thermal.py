@@ -65,12 +65,16 @@ def test_antigorite_matches_ulmer_trommsdorff():
     assert serpentine_stability_c([2.0, 3.0, 5.0]) == pytest.approx([720.0, 690.0, 620.0])
 
 
-def test_antigorite_near_bromiley_pawley_brackets():
+@pytest.mark.xfail(strict=True, reason=(
+    "the curve follows Ulmer & Trommsdorff's natural antigorite (verified above): 720 C at 2.0 "
+    "GPa and 693 C at 2.9 GPa, 20 and 13 C above the tops of Bromiley & Pawley's Al-bearing "
+    "(MASH) brackets"))
+def test_antigorite_within_bromiley_pawley_brackets():
     # Bromiley & Pawley (2003) abstract [verified], Al-bearing (MASH) antigorite breakdown:
-    # 660-700 C at 2.0 GPa, 660-680 C at 2.9 GPa. The curve follows Ulmer & Trommsdorff's
-    # natural samples, which sit up to ~40 C higher; tolerance 40 C around the bracket centre.
+    # 660-700 C at 2.0 GPa, 660-680 C at 2.9 GPa. (This test allowed 40 C around the bracket
+    # centre before, exactly the model's offset at 2.0 GPa.)
     t = serpentine_stability_c([2.0, 2.9])
-    assert t == pytest.approx([680.0, 670.0], abs=40.0)
+    assert 660.0 <= t[0] <= 700.0 and 660.0 <= t[1] <= 680.0
 
 
 def test_lizardite_limit():
