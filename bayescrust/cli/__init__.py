@@ -50,15 +50,23 @@ def _quiet_interrupt():
 
     def handler(signum, frame):
         sys.stdout = sys.stderr = sink
+        _received["signal"] = signum
         raise KeyboardInterrupt
 
-    previous = signal.signal(signal.SIGINT, handler)
+    # SIGTERM (a batch system ending a job, `timeout`) ends a run as Ctrl-C does: through the
+    # atomic folder's clean-up, so no partial folder is left behind
+    previous = {sig: signal.signal(sig, handler) for sig in (signal.SIGINT, signal.SIGTERM)}
     try:
         yield
     finally:
-        signal.signal(signal.SIGINT, previous)
+        for sig, prev in previous.items():
+            signal.signal(sig, prev)
         sys.stdout, sys.stderr = streams
         sink.close()
+
+
+#: The signal that ended the last run (exit code 128 + signal number, the shell's convention).
+_received: dict = {}
 
 
 def main(argv=None) -> int:
@@ -78,7 +86,7 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         sys.stdout, sys.stderr = streams
         print("bayescrust: interrupted; no output written", file=sys.stderr)
-        return 130
+        return 128 + int(_received.pop("signal", 2))
     except Exception as exc:  # noqa: BLE001 - one clean message, no traceback
         print(f"bayescrust: run failed: {type(exc).__name__}: {exc}", file=sys.stderr)
         return 1

@@ -203,3 +203,34 @@ def test_an_unconverged_run_says_so_in_report_tables_and_netcdf(tmp_path, capsys
     with xr.open_dataset(out / "layers" / "lower_crust" / "posterior.nc") as ds:  # root
         attrs = dict(ds.attrs)
     assert attrs.get("converged") == "NO"
+
+
+@pytest.mark.parametrize("sig, code", [("SIGTERM", 143), ("SIGINT", 130)])
+def test_a_terminated_run_leaves_no_partial_folder(misfit_study, tmp_path, monkeypatch, capsys,
+                                                   sig, code):
+    # SIGTERM (a batch system, `timeout`) left the hidden .NAME.partial-* folder behind; it now
+    # ends the run as Ctrl-C does. Exit code 128 + signal number (shell convention).
+    import signal
+
+    import bayescrust.inference.api as api
+
+    def ended(*a, **k):
+        import time
+
+        os.kill(os.getpid(), getattr(signal, sig))
+        time.sleep(2)
+
+    monkeypatch.setattr(api, "exact_layer", ended)
+    rc = main(["invert", str(misfit_study), "--out", str(tmp_path / "o"), "--no-figures", "-q"])
+    assert rc == code
+    assert capsys.readouterr().err.strip() == "bayescrust: interrupted; no output written"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["misfit.toml"]
+
+
+def test_python_dash_m_bayescrust_runs_the_command_line():
+    import subprocess
+    import sys
+
+    out = subprocess.run([sys.executable, "-m", "bayescrust", "--help"], capture_output=True,
+                         text=True, timeout=120)
+    assert out.returncode == 0 and "invert" in out.stdout
