@@ -33,6 +33,7 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
     warn = Warnings(args)
     results = {}
     summaries, hyps, seeds, times = [], [], {}, {}
+    shown_summaries, shown_hyps = [], []  # manuscript-ready versions (units, rounding)
     for k, (i, layer) in enumerate(chosen):
         s = layer_seed(seed, i)
         seeds[layer.name] = s
@@ -56,6 +57,11 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
         sm = res.summary.reset_index()
         sm.insert(0, "layer", layer.name)
         summaries.append(sm)
+        for shown, table in ((shown_summaries, printable_summary(res.summary)),
+                             (shown_hyps, printable_hypotheses(res.hypotheses))):
+            table = table.reset_index()
+            table.insert(0, "layer", layer.name)
+            shown.append(table)
         hy = res.hypotheses.reset_index()
         hy.insert(0, "layer", layer.name)
         hy["log_evidence"] = res.log_evidence
@@ -66,9 +72,11 @@ def do_invert(args, study, dest: Path, *, method, figures: bool, layer_names=Non
                 _layer_figures(res, layer, sub / "figures", method)
     summary = pd.concat(summaries, ignore_index=True).set_index("layer")
     hypotheses = pd.concat(hyps, ignore_index=True).set_index("layer")
-    write_table(dest, "summary", summary, caption="Posterior summary per layer (94 % HDI)")
+    write_table(dest, "summary", summary, caption="Posterior summary per layer (94 % HDI)",
+                printable=pd.concat(shown_summaries, ignore_index=True).set_index("layer"))
     write_table(dest, "hypotheses", hypotheses,
-                 caption="Interpretations per layer: prior and posterior probabilities")
+                caption="Interpretations per layer: prior and posterior probabilities",
+                printable=pd.concat(shown_hyps, ignore_index=True).set_index("layer"))
     extra = {"command": "invert", "method": method, "seed": seed,
              "layer_seeds": seeds, "wall_time_s": times}
     write_text(dest / "run.toml", run_toml(study, extra))

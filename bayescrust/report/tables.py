@@ -35,11 +35,23 @@ READABLE = {"temperature_c": "temperature", "solidus_c": "solidus", "vp": "Vp", 
             "melt_fraction_effective": "melt fraction (effective)"}
 
 
-def _decimals(sd: float, sig: int = 2) -> int:
-    """Decimal places that give ``sd`` ``sig`` significant figures (at least 0)."""
-    if not (isinstance(sd, float) and math.isfinite(sd)) or sd <= 0:
+def _decimals(sd: float, sig: int = 2, scale: float = 0.0) -> int:
+    """Decimal places that give ``sd`` ``sig`` significant figures (0 to 6). An sd that is
+    floating-point noise against ``scale`` (below 1e-9 of it: a quantity constant in every
+    draw) counts as zero: 3 decimals, not the 18 its noise would ask for."""
+    if (not (isinstance(sd, float) and math.isfinite(sd)) or sd <= 0
+            or sd <= 1e-9 * abs(scale)):
         return 3
-    return max(0, sig - 1 - int(math.floor(math.log10(sd))))
+    return min(6, max(0, sig - 1 - int(math.floor(math.log10(sd)))))
+
+
+def _with_error(p: float, se: float) -> tuple[str, str]:
+    """A probability and its Monte Carlo error at the decimal place of two significant figures
+    of the error (2 to 5 decimals): 0.705 and 0.034, 0.00012 and 0.00012 (not 0.000 +- 0.000)."""
+    if not math.isfinite(p):
+        return "", ""
+    d = min(5, max(2, _decimals(float(se)) if math.isfinite(se) and se > 0 else 3))
+    return f"{p:.{d}f}", ("" if not math.isfinite(se) else f"{se:.{d}f}")
 
 
 def printable_summary(df):
@@ -50,7 +62,7 @@ def printable_summary(df):
 
     rows = []
     for q, r in df.iterrows():
-        d = _decimals(float(r["sd"]))
+        d = _decimals(float(r["sd"]), scale=float(r["mean"]))
 
         def f(x, d=d):
             return "" if not math.isfinite(float(x)) else f"{float(x):.{d}f}"
@@ -67,8 +79,9 @@ def printable_summary(df):
 
 
 def printable_hypotheses(df):
-    """Interpretation table for a manuscript: probabilities to 3 decimals with their Monte Carlo
-    error, the Bayes factor to 3 significant figures with its bound, and the category."""
+    """Interpretation table for a manuscript: probabilities and their Monte Carlo error at the
+    decimal place of two significant figures of that error, the Bayes factor to 3 significant
+    figures with its bound, log10 of it with its Monte Carlo error, and the category."""
     import pandas as pd
 
     rows = []
@@ -77,12 +90,21 @@ def printable_hypotheses(df):
         side = str(r.get("bayes_factor_bound", "="))
         bf_s = "undefined" if not math.isfinite(bf) else (
             ("" if side in ("=", "") else side + " ") + format_value(bf, 3))
-        rows.append({"interpretation": h,
-                     "prior probability": f"{float(r['prior_probability']):.3f}",
-                     "posterior probability": f"{float(r['posterior_probability']):.3f}",
-                     "MC error": f"{float(r['posterior_mcse']):.3f}",
-                     "Bayes factor": bf_s, "evidence": str(r["evidence_category"]),
-                     "data fit": str(r.get("data_fit", ""))})
+        pri, _ = _with_error(float(r["prior_probability"]),
+                             float(r.get("prior_mcse", math.nan)))
+        post, err = _with_error(float(r["posterior_probability"]), float(r["posterior_mcse"]))
+        lbf, lbf_se = float(r.get("log10_bayes_factor", math.nan)), float(
+            r.get("log10_bayes_factor_mcse", math.nan))
+        lbf_s = "" if not math.isfinite(lbf) else (
+            f"{lbf:.2f}" + (f" ± {lbf_se:.2f}" if math.isfinite(lbf_se) else "")
+            if side in ("=", "") else f"{side} {lbf:.2f} (bound)")
+        rows.append({"interpretation": h, "prior probability": pri,
+                     "posterior probability": post, "MC error": err,
+                     "Bayes factor": bf_s, "log10 Bayes factor": lbf_s,
+                     "evidence": str(r["evidence_category"]),
+                     "data fit": str(r.get("data_fit", "")),
+                     "converged": "" if "converged" not in r.index else (
+                         "yes" if bool(r["converged"]) else "NO")})
     return pd.DataFrame(rows).set_index("interpretation")
 
 

@@ -33,6 +33,32 @@ def test_summary_has_units_and_sd_based_rounding(res):
     assert r"g/cm$^{3}$" in tex and r"$^{\circ}$C" in tex and r"\toprule" in tex
 
 
+def test_printed_digits_follow_the_errors():
+    # a quantity constant in every draw printed 18 decimals of its floating-point sd; a rare
+    # class printed "0.000 +- 0.000" for 0.00012 +- 0.00012; the Bayes factor had no error
+    from bayescrust.report.tables import printable_hypotheses
+
+    summ = pd.DataFrame({"mean": [1.0], "sd": [2e-16], "median": [1.0], "hdi_low": [1.0],
+                         "hdi_high": [1.0], "r_hat": [np.nan], "ess_bulk": [np.nan]},
+                        index=["gabbroic_fraction"])
+    assert printable_summary(summ).loc["gabbroic fraction", "mean"] == "1.000"
+    hyp = pd.DataFrame({"prior_probability": [0.0381, 0.44], "prior_mcse": [0.0007, 0.001],
+                        "posterior_probability": [0.000123, 0.7045],
+                        "posterior_mcse": [0.000118, 0.034], "bayes_factor_bound": ["=", "="],
+                        "bayes_factor": [0.0031, 3.0], "log10_bayes_factor": [-2.51, 0.48],
+                        "log10_bayes_factor_mcse": [0.43, 0.05],
+                        "evidence_category": ["against: very strong", "positive"],
+                        "data_fit": ["ok", "ok"], "converged": [True, False]},
+                       index=["rare", "common"])
+    t = printable_hypotheses(hyp)
+    assert t.loc["rare", "posterior probability"] == "0.00012"
+    assert t.loc["rare", "MC error"] == "0.00012"
+    assert t.loc["common", "posterior probability"] == "0.705"
+    assert t.loc["common", "MC error"] == "0.034"
+    assert t.loc["rare", "log10 Bayes factor"] == "-2.51 ± 0.43"
+    assert t.loc["common", "converged"] == "NO"
+
+
 def test_latex_labels_unique_per_layer(tmp_path):
     from bayescrust.cli import main
 
@@ -46,6 +72,11 @@ def test_latex_labels_unique_per_layer(tmp_path):
         p.read_text() for p in out.rglob("*.tex")))
     assert len(labels) == len(set(labels)) == 6
     assert (out / "methods.md").is_file() and (out / "references.bib").is_file()
+    # the top-level tables are the manuscript versions too (they were raw dumps: no units,
+    # hdi_low/hdi_high without their level, every digit)
+    top = (out / "summary.md").read_text()
+    assert "94 % HDI" in top and "unit" in top and "hdi_low" not in top
+    assert "log10 Bayes factor" in (out / "hypotheses.md").read_text()
 
 
 def test_references_are_clean_and_bibtex_parses(res):
