@@ -85,10 +85,16 @@ def layer_section(name: str, res) -> list[str]:
         lines += warn + [""]
     lines += [to_markdown(interpretation_table(res.hypotheses)), ""]
     total = float(res.hypotheses["posterior_probability"].sum())
+    # a partition puts every draw in exactly one class, so the class fractions of one set of
+    # draws sum to 1 exactly; the prior draws cover the whole space (posterior draws may miss
+    # an overlap: "mantle", "not mantle" and "hot gabbro" summed to 1 after the data, 1.116
+    # before)
+    prior_total = float(res.hypotheses["prior_probability"].sum())
+    partition = abs(total - 1.0) < 1e-9 and abs(prior_total - 1.0) < 1e-9
     lines += [f"Posterior probabilities sum to {total:.3f}"
-              + (" (the interpretations partition the parameter space)."
-                 if abs(total - 1.0) < 1e-9 else
-                 " (the interpretations overlap or leave gaps; they are not a partition)."), ""]
+              + (" (the interpretations partition the parameter space)." if partition else
+                 f", prior probabilities to {prior_total:.3f} (the interpretations overlap or "
+                 "leave gaps; they are not a partition)."), ""]
     lines += ["Definitions (every bound inclusive unless marked `<`):", ""]
     lines += definitions_text(res.settings) + [""]
     if check:

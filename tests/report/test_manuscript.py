@@ -151,3 +151,21 @@ def test_comparison_figure_draws_priors_and_the_evidence_scale():
     assert hi - lo >= 2.0  # a 0.1 difference in log10 evidence does not fill the axis
     # Kass & Raftery (1995): 2 ln B < 2 is "not worth more than a bare mention"
     assert BARE_MENTION_LOG10 == pytest.approx(2 / (2 * np.log(10)))
+
+
+def test_partition_claim_needs_the_prior_draws_too():
+    # "mantle", "not mantle" and "hot gabbro" overlap (prior probabilities sum to ~1.1), but
+    # no posterior draw of a fast layer lies in the overlap: the posterior sum of 1 alone made
+    # the report call them a partition
+    from bayescrust.report.layer_report import layer_section
+
+    layer = bc.Layer("um", vp=(8.1, 0.05), top_km=7.5, bottom_km=8.5, water_depth_km=3.0)
+    hyp = {"mantle": {"ultramafic_fraction": (0.8, None)},
+           "not mantle": {"ultramafic_fraction": (None, 0.79999)},
+           "hot gabbro": {"gabbro": (0.8, None), "temperature_c": (600, None)}}
+    res = bc.invert_layer(layer, rocks=("gabbro", "harzburgite"), priors={"porosity": 0.0},
+                          hypotheses=hyp, seed=2, forward={"inclusion_scheme": "kuster_toksoz"})
+    assert res.hypotheses["prior_probability"].sum() > 1.05
+    assert abs(res.hypotheses["posterior_probability"].sum() - 1.0) < 1e-9
+    line = next(x for x in layer_section("um", res) if "sum to" in x)
+    assert "not a partition" in line
