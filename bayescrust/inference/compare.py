@@ -28,6 +28,10 @@ class PriorComparison:
         all priors are given equal prior weight.
     bayes_factors : pandas.DataFrame
         ``log10`` Bayes factor of the row prior against the column prior.
+    bayes_factor_errors : pandas.DataFrame
+        Their Monte Carlo errors, ``hypot(err_i, err_j) / ln 10`` from the log-evidence errors
+        taken as independent. The priors share a seed, so the real errors of these differences
+        are smaller (positively correlated estimates): the stated errors are conservative.
     """
 
     results: dict
@@ -35,6 +39,7 @@ class PriorComparison:
     errors: object
     evidence: object
     bayes_factors: object
+    bayes_factor_errors: object = None
 
 
 def compare_priors(layer, *, thermal_priors: dict, method: str = "exact", **kwargs):
@@ -77,13 +82,25 @@ def compare_priors(layer, *, thermal_priors: dict, method: str = "exact", **kwar
         post = np.exp(lz - np.nanmax(lz))
         post = post / np.nansum(post)
     names = list(results)
+    best = int(np.nanargmax(lz))
+    # delta method with independent log-evidence errors (conservative, see PriorComparison):
+    # dP_k / d ln Z_j = P_k (delta_kj - P_j)
+    jac = post[:, None] * (np.eye(len(post)) - post[None, :])
+    post_err = np.sqrt(np.sum((jac * le[None, :]) ** 2, axis=1))
+    bf_err = np.hypot(le[:, None], le[None, :]) / math.log(10.0)
+    np.fill_diagonal(bf_err, 0.0)
     evidence = pd.DataFrame({"log_evidence": lz, "log_evidence_error": le,
                              "log10_bayes_factor_vs_best": (lz - np.nanmax(lz)) / math.log(10.0),
-                             "posterior_probability": post}, index=pd.Index(names, name="prior"))
+                             "log10_bayes_factor_vs_best_error": bf_err[:, best],
+                             "posterior_probability": post,
+                             "posterior_probability_error": post_err},
+                            index=pd.Index(names, name="prior"))
     bf = (lz[:, None] - lz[None, :]) / math.log(10.0)
     bayes_factors = pd.DataFrame(bf, index=pd.Index(names, name="prior"), columns=names)
     return PriorComparison(results=results, probabilities=probs, errors=errs, evidence=evidence,
-                           bayes_factors=bayes_factors)
+                           bayes_factors=bayes_factors,
+                           bayes_factor_errors=pd.DataFrame(
+                               bf_err, index=pd.Index(names, name="prior"), columns=names))
 
 
 def probability_chart(layer, vp_values, *, thermal_priors: dict, seed=None, n_points=2**15,

@@ -171,3 +171,27 @@ def test_an_unconverged_run_keeps_half_its_chain():
     assert r.idata.posterior.sizes["draw"] * r.diagnostics["thin"] >= 50
     # the verdict travels with the tables and posterior.nc, each of which may be read alone
     assert not r.hypotheses["converged"].any() and r.idata.attrs["converged"] == "NO"
+
+
+def test_prior_comparison_errors_cover_a_larger_design():
+    # compare_priors gave the Bayes factors between thermal-state priors and the priors'
+    # probabilities with no Monte Carlo error; their stated errors (independent log-evidence
+    # errors, conservative: the priors share a seed) must cover a 16x larger design
+    layer = bc.Layer("lc", vp=(7.1, 0.1), top_km=4, bottom_km=6, water_depth_km=3)
+    tp = {"uniform": bc.UniformTemperature(0, 1400), "hot axis": bc.HotAxial()}
+    kw = dict(rocks=("gabbro", "harzburgite"), priors={"porosity": 0.0}, method="exact",
+              forward={"inclusion_scheme": "kuster_toksoz"})
+    ref = bc.compare_priors(layer, thermal_priors=tp, seed=99, n_points=2**16, **kw)
+    b_ref = ref.bayes_factors.loc["hot axis", "uniform"]
+    e_ref = ref.bayes_factor_errors.loc["hot axis", "uniform"]
+    p_ref, pe_ref = ref.evidence.loc["hot axis", ["posterior_probability",
+                                                  "posterior_probability_error"]]
+    assert 0 < e_ref < 0.05 and 0 < pe_ref < 0.05
+    for s in range(6):
+        c = bc.compare_priors(layer, thermal_priors=tp, seed=s, n_points=2**12, **kw)
+        b, e = (c.bayes_factors.loc["hot axis", "uniform"],
+                c.bayes_factor_errors.loc["hot axis", "uniform"])
+        assert abs(b - b_ref) < 3 * math.hypot(e, e_ref), (s, b, e, b_ref)
+        p, pe = c.evidence.loc["hot axis", ["posterior_probability",
+                                            "posterior_probability_error"]]
+        assert abs(p - p_ref) < 3 * math.hypot(pe, pe_ref), (s, p, pe, p_ref)
