@@ -239,9 +239,14 @@ class Warnings:
 
     @contextlib.contextmanager
     def catch(self, context: str):
-        with warnings.catch_warnings(record=True) as rec:
+        with warnings.catch_warnings(record=True) as rec, _captured_logs() as logged:
             warnings.simplefilter("always")
             yield
+        for name, text in logged:  # corner and arviz report through logging, not warnings
+            msg = f"{context}: {name}: {text}"
+            if msg not in self.messages:
+                self.messages.append(msg)
+                alert(msg)
         for w in rec:
             if issubclass(w.category, (DeprecationWarning, PendingDeprecationWarning)):
                 continue
@@ -251,6 +256,34 @@ class Warnings:
             if msg not in self.messages:
                 self.messages.append(msg)
                 alert(msg)
+
+
+@contextlib.contextmanager
+def _captured_logs(names=("", "arviz")):
+    """Collect WARNING-and-above log records of the root and arviz loggers inside the block,
+    instead of the stray "WARNING:root:..." / "arviz - WARNING - ..." lines they would print
+    (the loggers' own handlers and propagation are restored after)."""
+    import logging
+
+    records: list[tuple[str, str]] = []
+
+    class _Keep(logging.Handler):
+        def emit(self, record):
+            records.append((f"{record.name} log", record.getMessage()))
+
+    keep = _Keep(level=logging.WARNING)
+    saved = []
+    for name in names:
+        log = logging.getLogger(name)
+        saved.append((log, log.handlers[:], log.propagate))
+        log.handlers = [keep]
+        log.propagate = False
+    try:
+        yield records
+    finally:
+        for log, handlers, propagate in saved:
+            log.handlers = handlers
+            log.propagate = propagate
 
 
 def seed_value(text: str) -> int:

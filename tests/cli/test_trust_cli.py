@@ -234,3 +234,23 @@ def test_python_dash_m_bayescrust_runs_the_command_line():
     out = subprocess.run([sys.executable, "-m", "bayescrust", "--help"], capture_output=True,
                          text=True, timeout=120)
     assert out.returncode == 0 and "invert" in out.stdout
+
+
+def test_library_log_lines_become_collected_warnings(capsys):
+    # corner ("WARNING:root:Too few points to create valid contours") and arviz ("arviz -
+    # WARNING - Shape validation failed") printed stray lines outside the warning format
+    import argparse
+    import logging
+
+    from bayescrust.cli.shell import Warnings
+
+    w = Warnings(argparse.Namespace(quiet=True))
+    before = logging.getLogger().handlers[:]
+    with w.catch("figures of layer 'x'"):
+        logging.warning("Too few points to create valid contours")
+        logging.getLogger("arviz").warning("Shape validation failed")
+    err = capsys.readouterr().err
+    assert "WARNING:root" not in err and "arviz - WARNING" not in err
+    assert err.count("bayescrust: warning: figures of layer 'x': ") == 2
+    assert any("Too few points" in m for m in w.messages)
+    assert logging.getLogger().handlers == before  # the loggers are given back as they were
