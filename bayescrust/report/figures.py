@@ -206,7 +206,8 @@ def predictive_figure(idata, *, fig=None, sigma=None):
         raise ValueError("predictive_figure: no observed quantity with a posterior prediction")
     has_prior = hasattr(idata, "prior")
     with style_context():
-        fig = _fig(fig, (3.0 * len(obs) + 0.4, 2.8))
+        # wide enough for the title and the legend row even with one panel (3.4 in cut both)
+        fig = _fig(fig, (max(3.0 * len(obs) + 0.4, 6.6), 2.8 if len(obs) > 1 else 3.0))
         axes = fig.subplots(1, len(obs), squeeze=False)[0]
         for ax, n in zip(axes, obs, strict=True):
             value = float(np.asarray(idata.observed_data[n].values).ravel()[0])
@@ -233,8 +234,10 @@ def predictive_figure(idata, *, fig=None, sigma=None):
             ax.set_yticks([])
         axes[0].set_ylabel("probability density")
         fig.legend(*axes[-1].get_legend_handles_labels(), loc="outside lower center",
-                   ncols=4)  # below the panels, clear of the data
-        fig.suptitle("Predicted versus observed (forward-model predictions, no noise added)")
+                   ncols=4 if len(obs) > 1 else 2)  # below the panels, clear of the data
+        fig.suptitle("Predicted versus observed\n(forward-model predictions, no noise added)"
+                     if len(obs) == 1 else
+                     "Predicted versus observed (forward-model predictions, no noise added)")
     return fig
 
 

@@ -169,3 +169,19 @@ def test_partition_claim_needs_the_prior_draws_too():
     assert abs(res.hypotheses["posterior_probability"].sum() - 1.0) < 1e-9
     line = next(x for x in layer_section("um", res) if "sum to" in x)
     assert "not a partition" in line
+
+
+def test_predictive_figure_of_one_observable_keeps_title_and_legend_on_the_canvas(res):
+    # at 3.4 in wide the title and the four-column legend of a Vp-only layer were cut off
+    import matplotlib.pyplot as plt
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    from bayescrust.report.figures import predictive_figure
+
+    fig = predictive_figure(res.idata)
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    for artist in [*fig.texts, *fig.legends]:
+        box = artist.get_window_extent(canvas.get_renderer())
+        assert box.x0 >= 0 and box.x1 <= fig.bbox.width, (artist, box)
+    plt.close(fig)
