@@ -256,8 +256,15 @@ class LayerModel(ObservationErrors):
         # sec. 8): effective pressure = confining - pore pressure closes thin cracks (Walsh 1965)
         pore_pressure = float(min(pressure, thermal.hydrostatic_pore_pressure_gpa(
             layer.water_depth_km + layer.mid_depth_km)))
-        per_sol = float(thermal.peridotite_solidus_c(pressure))
-        gab_sol = float(thermal.gabbro_solidus_c(pressure))
+        try:
+            per_sol = float(thermal.peridotite_solidus_c(pressure))
+            gab_sol = float(thermal.gabbro_solidus_c(pressure))
+        except ValueError as exc:  # name what the user wrote: the layer's depth
+            key, what = (("pressure_gpa", "lower pressure") if layer.pressure_gpa is not None
+                         else ("top_km/bottom_km", "shallower layer"))
+            raise ValueError(
+                f"{key}: the layer's pressure, {pressure:.2f} GPa, lies beyond the range of "
+                f"the solidus laws ({exc}); give a {what}") from None
         if getattr(fm, "inclusion_scheme", None) == "kuster_toksoz":
             # a dilute theory (physics.inclusions.KT_MAX_POROSITY_OVER_ASPECT): a prior reaching
             # beyond it would be cut silently where the forward model returns NaN

@@ -61,6 +61,11 @@ CASES = [
      '"kuster_toksoz"\n[sampler]'), ["layer 'deep'", "dilute theory", "reach 1.3"]),
     ("water deeper than any ocean", GOOD.replace("water_depth_km = 3.0", "water_depth_km = 11.2"),
      ["water_depth_km", "got 11.2"]),
+    # the gabbro solidus (Lambert & Wyllie 1972) is defined to 3 GPa: the message named an
+    # internal pressure_gpa the user had not written
+    ("layer below the solidus laws' range", GOOD.replace("top_km = 4.0", "top_km = 90.0")
+     .replace("bottom_km = 6.0", "bottom_km = 100.0"),
+     ["layer 'deep'", "top_km/bottom_km", "3.08 GPa", "shallower layer"]),
 ]
 
 
