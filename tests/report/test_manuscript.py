@@ -185,3 +185,16 @@ def test_predictive_figure_of_one_observable_keeps_title_and_legend_on_the_canva
         box = artist.get_window_extent(canvas.get_renderer())
         assert box.x0 >= 0 and box.x1 <= fig.bbox.width, (artist, box)
     plt.close(fig)
+
+
+def test_corner_titles_say_what_interval_they_give(res):
+    # corner's panel titles are a median and 5/95 % quantiles; the tables give 94 % HDIs, and
+    # nothing on the figure said which was which
+    import matplotlib.pyplot as plt
+
+    from bayescrust.report.figures import corner_figure
+
+    fig = corner_figure(res.idata)
+    assert any("5 % and 95 % quantiles" in t.get_text() and "94 % HDI" in t.get_text()
+               for t in fig.texts)
+    plt.close(fig)
