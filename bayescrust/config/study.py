@@ -88,7 +88,15 @@ def parse_study(text: str, *, source: str = "<string>") -> StudySpec:
     return read_study(Reader(source), data)
 
 
+#: Top-level tables that make a file another kind of study, and the command that reads it.
+OTHER_KINDS = {"profile": "`bayescrust profile` (or `bayescrust plan`)",
+               "grid": "`bayescrust map`"}
+
+
 def read_study(r: Reader, data: dict) -> StudySpec:
+    for key, command in OTHER_KINDS.items():
+        if key in data and key not in TOP_KEYS:  # say which command, not "unknown key"
+            r.fail(key, f"a [{key}] study; run it with {command}")
     r.keys("", data, TOP_KEYS)
     if "water_depth_km" not in data:
         r.fail("water_depth_km", "missing; water depth above the seafloor in km")

@@ -63,6 +63,11 @@ CASES = [
      ["water_depth_km", "got 11.2"]),
     # the gabbro solidus (Lambert & Wyllie 1972) is defined to 3 GPa: the message named an
     # internal pressure_gpa the user had not written
+    # a study of another kind said "profile: unknown key; did you mean 'title'?"
+    ("a profile study given to invert", "[profile]\ntitle = 'x'\n" + GOOD,
+     ["profile", "bayescrust profile"]),
+    ("a grid study given to invert", "[grid]\nsource = 'x.nc'\n" + GOOD,
+     ["grid", "bayescrust map"]),
     ("layer below the solidus laws' range", GOOD.replace("top_km = 4.0", "top_km = 90.0")
      .replace("bottom_km = 6.0", "bottom_km = 100.0"),
      ["layer 'deep'", "top_km/bottom_km", "3.08 GPa", "shallower layer"]),
