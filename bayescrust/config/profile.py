@@ -179,6 +179,10 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise StudyError(source, "(file)", f"not valid TOML: {exc}") from exc
+    if "profile" not in data and ("layers" in data or "grid" in data):
+        other = "bayescrust map" if "grid" in data else "bayescrust invert"
+        r.fail("profile", f"missing: this is a {'grid' if 'grid' in data else 'layer'} study; "
+                          f"run it with `{other}`")
     r.keys("(top level)", data, ("profile", "run", "plan"))
     if "profile" not in data:
         r.fail("profile", "missing: a profile study needs a [profile] table")

@@ -183,3 +183,12 @@ def test_bad_options(capsys, argv, words):
     assert rc == 2 and "Traceback" not in err
     for w in words:
         assert w in err
+
+
+def test_profile_given_a_layer_study_names_the_command(tmp_path, capsys):
+    # it said "water_depth_km: unknown key"
+    p = tmp_path / "layer.toml"
+    p.write_text(GOOD)
+    assert main(["profile", str(p), "--out", str(tmp_path / "o"), "-q"]) == 2
+    err = capsys.readouterr().err
+    assert "layer study" in err and "bayescrust invert" in err
