@@ -80,10 +80,12 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
             wide = wide.loc[order[0], order[1]]
             wide_prior = sub.pivot(index="hypothesis", columns="thermal_prior",
                                    values="prior_probability").loc[order[0], order[1]]
+            wide_err = sub.pivot(index="hypothesis", columns="thermal_prior",
+                                 values="posterior_mcse").loc[order[0], order[1]]
             e = ev[ev["layer"] == layer.name].set_index("thermal_prior")
             with warn.catch(f"comparison figure of {layer.name!r}"):
                 fig = F.comparison_figure(wide, e, prior_probabilities=wide_prior,
-                                          title=f"{layer.name}")
+                                          errors=wide_err, title=f"{layer.name}")
                 save_figure(fig, dest / "figures", f"comparison_{slug(layer.name)}")
     extra = {"command": "compare", "method": method, "seed": seed,
              "thermal_priors_compared": [t.name for t in thermals]}

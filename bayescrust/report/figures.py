@@ -352,8 +352,8 @@ def probability_chart(table, *, fig=None, observed=None, title=None):
 BARE_MENTION_LOG10 = 1.0 / np.log(10.0)
 
 
-def comparison_figure(probabilities, evidence=None, *, prior_probabilities=None, fig=None,
-                      title=None):
+def comparison_figure(probabilities, evidence=None, *, prior_probabilities=None, errors=None,
+                      fig=None, title=None):
     """Interpretation probabilities under each thermal-state prior, and each prior's evidence.
 
     Parameters
@@ -368,6 +368,8 @@ def comparison_figure(probabilities, evidence=None, *, prior_probabilities=None,
     prior_probabilities : pandas.DataFrame, optional
         Same shape as ``probabilities``: each interpretation's prior probability under each
         thermal-state prior, drawn as an outline bar beside the posterior's filled bar.
+    errors : pandas.DataFrame, optional
+        Same shape as ``probabilities``: their Monte Carlo errors, drawn as error bars.
     """
     hyps = list(probabilities.index)
     priors = list(probabilities.columns)
@@ -391,11 +393,15 @@ def comparison_figure(probabilities, evidence=None, *, prior_probabilities=None,
                 off += w
             ax.bar(x + off, probabilities[pr].to_numpy(float), w, color=c,
                    hatch=hatches[j % len(hatches)], edgecolor="white", lw=0.5,
-                   label=f"{_readable(pr)}: posterior" if per == 2 else _readable(pr))
+                   label=f"{_readable(pr)}: posterior" if per == 2 else _readable(pr),
+                   yerr=None if errors is None else errors.loc[hyps, pr].to_numpy(float),
+                   error_kw={"ecolor": "#000000", "elinewidth": 0.8, "capsize": 2})
         ax.set_xticks(x, [str(h) for h in hyps], rotation=25, ha="right")
-        ax.set_ylim(0, 1)
-        ax.set_ylabel("probability")
-        ax.legend(title="thermal-state prior", loc="upper right", fontsize=7)
+        ax.set_ylim(0, 1.02)
+        ax.set_ylabel("probability" + ("" if errors is None else " (bars: ±1 MC error)"))
+        # below the panels: inside, it covered the bars of the last interpretations
+        fig.legend(*ax.get_legend_handles_labels(), title="thermal-state prior",
+                   loc="outside lower center", ncols=min(len(priors) * per, 6), fontsize=7)
         if axe is not None:
             le = evidence.loc[priors, "log_evidence"].to_numpy(float)
             err = evidence.loc[priors, "log_evidence_error"].to_numpy(float)
@@ -411,8 +417,8 @@ def comparison_figure(probabilities, evidence=None, *, prior_probabilities=None,
             axe.set_yticks(y, [_readable(p) for p in priors])
             axe.invert_yaxis()
             axe.set_xlabel("log10 evidence relative to best")
-            axe.set_title("evidence (Kass & Raftery 1995 scale)")
-            axe.legend(loc="lower left", fontsize=6.5)
+            axe.set_title("evidence\n(Kass & Raftery 1995 scale)")
+            axe.legend(loc="best", fontsize=6.5)
         if title:
             fig.suptitle(title)
     return fig

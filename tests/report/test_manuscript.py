@@ -145,7 +145,7 @@ def test_comparison_figure_draws_priors_and_the_evidence_scale():
                       index=["uniform", "hot"])
     fig = comparison_figure(post, ev, prior_probabilities=prior)
     ax, axe = fig.axes[:2]
-    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    labels = [t.get_text() for t in fig.legends[0].get_texts()]  # below the panels
     assert "uniform: prior" in labels and "hot: posterior" in labels
     lo, hi = axe.get_xlim()
     assert hi - lo >= 2.0  # a 0.1 difference in log10 evidence does not fill the axis
@@ -197,4 +197,29 @@ def test_corner_titles_say_what_interval_they_give(res):
     fig = corner_figure(res.idata)
     assert any("5 % and 95 % quantiles" in t.get_text() and "94 % HDI" in t.get_text()
                for t in fig.texts)
+    plt.close(fig)
+
+
+def test_comparison_figure_keeps_text_on_the_canvas_and_the_legend_off_the_bars():
+    # its right title ran off the canvas and its legend covered the bars; no MC error bars
+    import matplotlib.pyplot as plt
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    from bayescrust.report.figures import comparison_figure
+
+    hyps, priors = ["cold gabbro", "hot mantle"], ["uniform", "hot axial"]
+    p = pd.DataFrame([[0.9, 0.2], [0.1, 0.8]], index=hyps, columns=priors)
+    e = pd.DataFrame({"log_evidence": [-1.0, -2.0], "log_evidence_error": [0.01, 0.02]},
+                     index=priors)
+    fig = comparison_figure(p, e, prior_probabilities=p * 0 + 0.5, errors=p * 0 + 0.01)
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    r = canvas.get_renderer()
+    texts = [*fig.texts, *fig.legends, *(a.title for a in fig.axes)]
+    for t in texts:
+        box = t.get_window_extent(r)
+        assert box.x0 >= 0 and box.x1 <= fig.bbox.width, (t, box)
+    bars_ax = fig.axes[0]
+    assert bars_ax.get_legend() is None and fig.legends  # the legend sits below the panels
+    assert any(len(c) for c in bars_ax.containers if hasattr(c, "errorbar") and c.errorbar)
     plt.close(fig)
