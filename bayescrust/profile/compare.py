@@ -25,7 +25,8 @@ class ThermalComparison:
         method from the log-evidence errors).
     answers : pandas.DataFrame
         Long table of how each answer moves between states: state, layer, quantity
-        (hypothesis or boundary outcome), probability, mcse.
+        (hypothesis or boundary outcome), probability, mcse, data_fit (the layer's
+        posterior-predictive check under that state).
     """
 
     results: dict
@@ -64,9 +65,11 @@ def compare_thermal_states(profile, states: dict, *, done=None, **kwargs) -> The
     for name, r in results.items():
         for _, h in r.hypotheses.iterrows():
             rows.append({"thermal_state": name, "layer": h["layer"], "quantity": h["hypothesis"],
-                         "probability": h["probability"], "mcse": h["mcse"]})
+                         "probability": h["probability"], "mcse": h["mcse"],
+                         "data_fit": h.get("data_fit", "")})
         for _, b in r.boundary.iterrows():
             rows.append({"thermal_state": name, "layer": "crust-mantle boundary",
                          "quantity": b["outcome"], "probability": b["probability"],
-                         "mcse": b["mcse"]})
+                         "mcse": b["mcse"], "data_fit": r.data_fit})
     return ThermalComparison(results=results, evidence=evidence, answers=pd.DataFrame(rows))
+

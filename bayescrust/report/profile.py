@@ -11,7 +11,7 @@ import numpy as np
 from .style import PALETTE
 
 __all__ = ["hypothesis_table", "boundary_table", "thermal_table", "evidence_table",
-           "profile_figure", "interpretation_styles"]
+           "profile_figure", "interpretation_styles", "convergence_line", "misfit_title_line"]
 
 _HATCHES = ("", "//", "..", "xx", "\\\\", "oo")
 
@@ -40,8 +40,15 @@ def hypothesis_table(result):
     return result.hypotheses.set_index(["layer", "hypothesis"])
 
 
+def _with_fit(table, result):
+    """``table`` with the whole profile's ``data_fit`` (every layer enters these answers)."""
+    fit = result.data_fit
+    return table.assign(data_fit=fit) if fit else table
+
+
 def boundary_table(result):
-    """Crust-mantle boundary outcomes plus the thickness summary as trailing rows."""
+    """Crust-mantle boundary outcomes plus the thickness summary as trailing rows, with the
+    whole profile's ``data_fit``."""
     import pandas as pd
 
     b = result.boundary.set_index("outcome")
@@ -51,17 +58,54 @@ def boundary_table(result):
                           "probability": [np.nan] * 3, "mcse": [np.nan] * 3},
                          index=pd.Index(["thickness mean | boundary", "thickness sd | boundary",
                                          "thickness median | boundary"], name="outcome"))
-    return pd.concat([b, extra])
+    return _with_fit(pd.concat([b, extra]), result)
 
 
 def thermal_table(result):
-    """Thermal-parameter posterior summary."""
-    return result.thermal.set_index("parameter")
+    """Thermal-parameter posterior summary, with the whole profile's ``data_fit``."""
+    return _with_fit(result.thermal.set_index("parameter"), result)
 
 
 def evidence_table(comparison):
     """Evidence of each thermal state (from :func:`compare_thermal_states`)."""
     return comparison.evidence
+
+
+def convergence_line(result) -> str:
+    """MCMC: ``converged: yes|no`` (the sampler's stopping rule) with the smallest effective
+    sizes: of the chain (thermal parameters or joint coordinates) and, for the collapsed
+    scheme, of the layers' designs at the kept draws (below ~100 raise ``n_layer``,
+    docs/profile.md). ``""`` for the exact path."""
+    if result.method != "mcmc":
+        return ""
+    d = result.diagnostics
+    parts = []
+    ess, coords = d.get("ess") or [], d.get("coordinates") or []
+    if len(ess):
+        k = int(np.argmin(ess))
+        name = f" ({coords[k]})" if k < len(coords) else ""
+        parts.append(f"smallest chain ESS {float(ess[k]):.0f}{name}")
+    lay = d.get("layer_ess_min")
+    if lay:
+        k = int(np.argmin(lay))
+        flag = " (below ~100: raise n_layer)" if lay[k] < 100 else ""
+        parts.append(f"smallest layer importance ESS {float(lay[k]):.0f} "
+                     f"({result.profile.names[k]}){flag}")
+    rule = ("the sampler's stopping rule: a run of many autocorrelation times, stable tau, "
+            "ESS >= min_ess")
+    return (f"converged: {'yes' if d.get('converged') else 'NO'} ({rule}; "
+            + "; ".join(parts) + ")")
+
+
+def misfit_title_line(result) -> str:
+    """A figure-title line naming the misfitting layers (``""`` when every layer fits)."""
+    from ..inference.trust import misfit_details
+
+    checks = result.predictive_check
+    bad = result.misfit_layers
+    if not bad:
+        return ""
+    return "DATA MISFIT: " + "; ".join(f"{n}: {misfit_details(checks[n])}" for n in bad)
 
 
 def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=None):
@@ -176,8 +220,10 @@ def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=
             a.axhline(z, color="0.85", lw=0.5, zorder=0)
     axes[0].set_ylim(bots[-1], 0.0)
     method = {"exact": "exact path", "mcmc": "MCMC"}.get(result.method, result.method)
-    fig.suptitle(f"{prof.name}\n{prof.thermal.label()} ({method})", fontsize=9.5)
+    bad = misfit_title_line(result)  # in the title, where a reader looks first
+    fig.suptitle(f"{prof.name}\n{prof.thermal.label()} ({method})" + (f"\n{bad}" if bad else ""),
+                 fontsize=9.5, color="#b00000" if bad else None)
     # room for the interpretation legend below the panels (about 0.2 in per row of entries)
-    fig.subplots_adjust(left=0.05, right=0.99, top=0.88,
+    fig.subplots_adjust(left=0.05, right=0.99, top=0.85 if bad else 0.88,
                         bottom=min(0.45, (0.75 + 0.2 * n_rows) / fig.get_figheight()))
     return fig
