@@ -127,7 +127,7 @@ def do_profile(args, study, dest: Path, *, method="exact", figures=True, exact_o
     for time; the Monte Carlo errors in the tables say what precision was reached."""
     from ..profile import compare_thermal_states, exact_profile, invert_profile
     from ..report.caution import caution_text, misfit_banner
-    from ..report.profile import convergence_line, evidence_table
+    from ..report.profile import convergence_line, evidence_table, thermal_verdict
 
     seed = args.seed if getattr(args, "seed", None) is not None else (study.seed or 0)
     warn = Warnings(args)
@@ -170,10 +170,7 @@ def do_profile(args, study, dest: Path, *, method="exact", figures=True, exact_o
               f"crustal thickness given a boundary: {pb['mean_km']:.2f} +- {pb['sd_km']:.2f} km",
               ""]
     if comp is not None:
-        best = comp.evidence["log_evidence"].idxmax()
-        lines += [f"Thermal state favoured by the whole profile: **{best}** "
-                  f"(posterior probability {comp.evidence.loc[best, 'posterior_probability']:.3f}"
-                  " with equal prior weights).", ""]
+        lines += [thermal_verdict(comp), ""]
         other = {n: r.misfit_layers for n, r in comp.results.items() if r.misfit_layers}
         if other:
             lines += ["Data misfit under the compared thermal states: " + "; ".join(

@@ -11,7 +11,8 @@ import numpy as np
 from .style import PALETTE
 
 __all__ = ["hypothesis_table", "boundary_table", "thermal_table", "evidence_table",
-           "profile_figure", "interpretation_styles", "convergence_line", "misfit_title_line"]
+           "profile_figure", "interpretation_styles", "thermal_verdict", "convergence_line",
+           "misfit_title_line"]
 
 _HATCHES = ("", "//", "..", "xx", "\\\\", "oo")
 
@@ -69,6 +70,54 @@ def thermal_table(result):
 def evidence_table(comparison):
     """Evidence of each thermal state (from :func:`compare_thermal_states`)."""
     return comparison.evidence
+
+
+def thermal_verdict(comparison) -> str:
+    """Which thermal state the whole profile favours, in one Markdown paragraph.
+
+    The best state against the runner-up: log10 Bayes factor with its Monte Carlo error and
+    its Kass & Raftery (1995) category (:func:`bayescrust.inference.hypotheses.evidence_category`,
+    the package's one scale: ``2 ln B`` below 2 is "not worth more than a bare mention"). In
+    that category no state is called favoured; a factor within two of its errors is called
+    unresolved.
+    """
+    from ..inference.hypotheses import KASS_RAFTERY, evidence_category
+    from .tables import _decimals
+
+    ev = comparison.evidence.sort_values("log_evidence", ascending=False)
+    names = list(ev.index)
+    p = ev["posterior_probability"]
+    pe = ev["posterior_probability_error"] if "posterior_probability_error" in ev else 0 * p
+
+    def pm(x, e):  # rounded to the error's second significant figure (as the tables)
+        d = _decimals(float(e)) if e > 0 else 3
+        return f"{x:.{d}f} +- {e:.{d}f}"
+
+    def prob(n):
+        return pm(p[n], pe[n])
+
+    best = names[0]
+    if len(names) == 1:
+        return (f"Thermal state favoured by the whole profile: only **{best}** was computed "
+                "(no comparison).")
+    second = names[1]
+    le = ev["log_evidence_error"]
+    lbf = float(ev["log_evidence"].iloc[0] - ev["log_evidence"].iloc[1]) / np.log(10.0)
+    err = float(np.hypot(le.iloc[0], le.iloc[1])) / np.log(10.0)
+    cat = evidence_category(lbf)
+    tie = f"log10 Bayes factor {pm(lbf, err)}, \"{cat}\" (Kass & Raftery 1995)"
+    probs = (f"{best} {prob(best)} against {second} {prob(second)} (posterior probabilities "
+             "with equal prior weights)")
+    if cat == KASS_RAFTERY[0][1]:
+        return (f"Thermal state favoured by the whole profile: **none**. The best two are a "
+                f"statistical tie: {probs}; {tie}. Report the answers under each state "
+                "(answers_by_state.*), not one state's.")
+    bare = KASS_RAFTERY[0][0] / (2.0 * np.log(10.0))  # the category's edge in log10 B
+    unresolved = (" The Monte Carlo error does not resolve this factor (within two errors of "
+                  "a bare mention); rerun with larger designs before quoting it."
+                  if lbf - 2 * err < bare else "")
+    return (f"Thermal state favoured by the whole profile: **{best}**: {probs}; {tie} for "
+            f"{best} against {second}.{unresolved}")
 
 
 def convergence_line(result) -> str:
