@@ -14,10 +14,12 @@ from .shell import (
     add_common_options,
     folder_command,
     save_figure,
+    say,
     write_text,
 )
 
-__all__ = ["add_parser", "cmd_chart", "do_chart", "probability_table"]
+__all__ = ["add_parser", "cmd_chart", "do_chart", "probability_table", "misfit_ranges",
+           "COLUMNS"]
 
 
 def probability_table(study, layer, vp_values, *, thermals=None, method="exact", seed=0,
@@ -27,7 +29,9 @@ def probability_table(study, layer, vp_values, *, thermals=None, method="exact",
     Computed through the public API: with the exact method one prior design per thermal prior,
     weighed against every Vp (:func:`bayescrust.probability_chart`); with MCMC one inversion per
     (thermal prior, Vp). The layer's other observations are unchanged. Returns a long
-    DataFrame: thermal_prior, vp, hypothesis, probability, mcse.
+    DataFrame: thermal_prior, vp, hypothesis, probability, mcse, ppc_p_value and data_fit
+    (the posterior-predictive check of the layer's data with that Vp: ``"ok"`` or
+    ``"MISFIT (vp, ...)"``, the rule and threshold of every layer result).
     """
     import pandas as pd
 
@@ -51,8 +55,7 @@ def probability_table(study, layer, vp_values, *, thermals=None, method="exact",
                         **kw, **study.sampler.arguments("exact")))
                 except ValueError as exc:
                     raise InputError(f"{study.source}: layer {layer.name!r}: {exc}") from None
-        return pd.concat(frames, ignore_index=True)[
-            ["thermal_prior", "vp", "hypothesis", "probability", "mcse"]]
+        return pd.concat(frames, ignore_index=True)[list(COLUMNS)]
     rows = []
     total = len(thermals) * len(vp_values)
     bar = None
@@ -66,15 +69,60 @@ def probability_table(study, layer, vp_values, *, thermals=None, method="exact",
             for v in vp_values:
                 res = run_one(study, layer, method=method, seed=seed, progress=False,
                                thermal=th, observed={"vp": (float(v), sigma)})
+                p_min = min(c["p_value"] for c in
+                            res.predictive_check["observables"].values())
                 for h, row in res.hypotheses.iterrows():
                     rows.append({"thermal_prior": th.name, "vp": float(v), "hypothesis": h,
                                  "probability": row["posterior_probability"],
-                                 "mcse": row["posterior_mcse"]})
+                                 "mcse": row["posterior_mcse"], "ppc_p_value": p_min,
+                                 "data_fit": row["data_fit"]})
                 if bar is not None:
                     bar.update()
     if bar is not None:
         bar.close()
-    return pd.DataFrame(rows)
+    return pd.DataFrame(rows, columns=list(COLUMNS))
+
+
+#: Columns of ``chart.csv``.
+COLUMNS = ("thermal_prior", "vp", "hypothesis", "probability", "mcse", "ppc_p_value",
+           "data_fit")
+
+
+def misfit_ranges(table) -> dict:
+    """``{thermal prior: [(lo, hi), ...]}``: runs of consecutive chart Vp values whose data the
+    model cannot reproduce (``data_fit`` not ``"ok"``), km/s."""
+    out = {}
+    for th, sub in table.groupby("thermal_prior", sort=False):
+        per = sub.drop_duplicates("vp").sort_values("vp")
+        runs, cur = [], None
+        for v, bad in zip(per["vp"], per["data_fit"] != "ok", strict=True):
+            if bad:
+                cur = [float(v), float(v)] if cur is None else [cur[0], float(v)]
+            elif cur is not None:
+                runs.append(tuple(cur))
+                cur = None
+        if cur is not None:
+            runs.append(tuple(cur))
+        if runs:
+            out[str(th)] = runs
+    return out
+
+
+def _spans(runs) -> str:
+    return ", ".join(f"{lo:g}-{hi:g}" if hi > lo else f"{lo:g}" for lo, hi in runs)
+
+
+def _misfit_lines(ranges, vp_obs) -> list[str]:
+    """The report's opening warning for the misfit ranges of a chart ([] when none)."""
+    if not ranges:
+        return []
+    span = "; ".join(f"{th}: {_spans(r)}" for th, r in ranges.items())
+    inside = any(lo <= vp_obs <= hi for r in ranges.values() for lo, hi in r)
+    return [f"> **Warning: data misfit for observed Vp {span} km/s.** There the model cannot "
+            "reproduce the layer's data (posterior-predictive check, p < 0.01; `data_fit` in "
+            "`chart.csv`, hatched in the figure): the probabilities drawn there are conditional "
+            "on a model that does not fit, not evidence for any interpretation."
+            + (f" The layer's own Vp ({vp_obs:g} km/s) is among them." if inside else ""), ""]
 
 
 def _vp_grid(args, layer):
@@ -110,26 +158,34 @@ def do_chart(args, study, dest: Path, *, layer_name, method, figures: bool):
     from ..report.tables import to_csv
 
     write_text(dest / "chart.csv", to_csv(table, index=False))
+    ranges = misfit_ranges(table)
     if figures:
         from ..report import figures as F  # noqa: N812
 
         vp = layer.observations["vp"]
-        fig = F.probability_chart(table, observed=(vp.value, vp.sigma),
+        fig = F.probability_chart(table, observed=(vp.value, vp.sigma), misfit=ranges,
                                   title=f"{layer.name}: probability against observed Vp "
                                         f"(σ = {vp.sigma:g} km/s)")
         save_figure(fig, dest, "chart")
     extra = {"command": "chart", "layer": layer.name, "method": method, "seed": seed,
              "vp_grid": [float(v) for v in grid]}
     write_text(dest / "run.toml", run_toml(study, extra))
+    vp_obs = layer.observations["vp"].value
     lines = [f"# {study.title}: probability chart for {layer.name!r}", "",
+             *_misfit_lines(ranges, vp_obs),
              caution_text(assumptions(study, layer)),
              "`chart.csv` holds, for each thermal-state prior and each observed Vp (other "
              "observations and errors as in the study file), the posterior probability of each "
-             "interpretation and its Monte Carlo standard error. The shaded band in the figure "
-             "is the layer's observed Vp ± 1σ.", ""]
+             "interpretation, its Monte Carlo standard error, and the posterior-predictive check "
+             "of the data with that Vp (`ppc_p_value`, the smallest over the observables, and "
+             "`data_fit`). The shaded band in the figure is the layer's observed Vp ± 1σ; "
+             "hatched ranges are Vp values the model cannot reproduce.", ""]
     if warn.messages:
         lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
     write_text(dest / "report.md", "\n".join(lines))
+    for th, r in ranges.items():
+        say(args, f"chart of {layer.name!r} ({th}): DATA MISFIT for observed Vp {_spans(r)} "
+                  "km/s, see report.md")
     return table
 
 

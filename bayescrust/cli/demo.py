@@ -244,7 +244,7 @@ def _finish_second_part(args, future, result) -> dict:
 
 
 #: Reduced designs of the demo's profile plan (the study file's [plan] has the full ones).
-_DEMO_PROFILE_PLAN = {"n_layer": 2**11, "n_thermal": 256, "states_per_thermal": 8,
+_DEMO_PROFILE_PLAN = {"n_layer": 2**12, "n_thermal": 256, "states_per_thermal": 8,
                       "n_simulations": 200}
 
 

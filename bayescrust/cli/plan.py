@@ -93,8 +93,8 @@ def plan_study_layer(study, layer, *, method="exact", seed=0, candidates=None,
 
 def do_plan(args, study, dest: Path, *, layer_name, method, figures: bool):
     """Plan one layer into ``dest``: tables, figure, report and run.toml; returns the plan."""
-    from ..report.caution import caution_text
-    from ..report.plan import plan_figure, plan_table
+    from ..report.caution import caution_text, misfit_banner
+    from ..report.plan import misfit_title, plan_figure, plan_table
     from ..report.tables import to_csv, to_markdown
 
     spec_layer = getattr(getattr(study, "plan", None), "layer", None)
@@ -122,7 +122,7 @@ def do_plan(args, study, dest: Path, *, layer_name, method, figures: bool):
     write_text(dest / "plan.csv", to_csv(plan_table(plan)))  # the full table wins the .csv
     write_text(dest / "calibration.csv", to_csv(plan.calibration, index=False))
     if figures:
-        fig = plan_figure(plan, title=f"{layer.name}: value of a new datum")
+        fig = plan_figure(plan, title=misfit_title(f"{layer.name}: value of a new datum", plan))
         save_figure(fig, dest, "plan")
     import pandas as pd
 
@@ -130,7 +130,8 @@ def do_plan(args, study, dest: Path, *, layer_name, method, figures: bool):
                          index=pd.Index(plan.class_names, name="interpretation"))
     s = plan.settings
     lines = [f"# {study.title}: which observation would settle {layer.name!r}?", "",
-             caution_text(assumptions(study, layer)),
+             *misfit_banner({layer.name: plan.predictive_check}, what=_CONDITIONAL),
+             caution_text(assumptions(study, layer)), *_caveat_lines(plan),
              f"Method: preposterior simulation ({s['n_simulations']} simulated data per "
              f"candidate) from today's posterior ({s['ensemble']}, {s['ensemble_size']} states"
              + (f", importance effective size {s['ensemble_importance_ess']:.0f}"
@@ -146,8 +147,9 @@ def do_plan(args, study, dest: Path, *, layer_name, method, figures: bool):
              "## Today", "", to_markdown(today),
              f"Entropy {plan.today['entropy_bits']:.2f} bits; 94 % temperature interval "
              f"{plan.today['interval_width']:.0f} °C wide; decisive today: "
-             f"{'yes' if plan.today['decisive'] else 'no'}.", "",
-             "## Candidates, best first", ""]
+             f"{'yes' if plan.today['decisive'] else 'no'}"
+             + (" (under a model that does not fit the data)" if plan.misfit else "") + ".", "",
+             _candidates_heading(plan.misfit), ""]
     lines += [f"{int(plan.table.loc[lab, 'rank'])}. {txt}" for lab, txt in
               plan.sentences.items()]
     lines += ["", "`plan.csv` holds every column (with Monte Carlo errors); `plan.md`/`.tex` "
@@ -157,10 +159,39 @@ def do_plan(args, study, dest: Path, *, layer_name, method, figures: bool):
     if warn.messages:
         lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
     write_text(dest / "report.md", "\n".join(lines))
+    _say_trust(args, f"layer {layer.name!r}", plan.misfit, plan.caveats)
     extra = {"command": "plan", "layer": layer.name, "method": method, "seed": seed,
              "candidates": list(plan.table.index)}
     write_text(dest / "run.toml", run_toml(study, extra))
     return plan
+
+
+#: What a data misfit makes conditional in a plan (the report's opening warning).
+_CONDITIONAL = "today's probabilities and every value of a new datum in this plan"
+
+
+def _caveat_lines(plan) -> list[str]:
+    """The plan's caveats (today's posterior as a starting point) as a report section."""
+    if not plan.caveats:
+        return []
+    return ["## Read this first", ""] + [f"- {c}" for c in plan.caveats] + [""]
+
+
+def _candidates_heading(misfit: bool, question: str = "") -> str:
+    if misfit:
+        return ("## Candidates under a model that does not fit today's data (not "
+                "recommendations; see above)" + (f": {question}" if question else ""))
+    return "## Candidates, best first" + (f" for: {question}" if question else "")
+
+
+def _say_trust(args, what: str, misfit, caveats):
+    """One screen line per caveat of today's posterior (misfit first)."""
+    if misfit:
+        say(args, f"{what}: DATA MISFIT, see report.md: the model cannot reproduce today's "
+                  "data; the plan's values are no recommendations")
+    for c in caveats:
+        if not c.startswith("DATA MISFIT"):
+            say(args, f"{what}: {c}")
 
 
 def _profile_candidates(pstudy, cli):
@@ -175,8 +206,17 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
     ``options`` (keywords of :func:`bayescrust.plan.plan_profile`) override the study's."""
     from ..config.plan import PlanSpec
     from ..plan import plan_profile
-    from ..report.plan import plan_figure, plan_table, profile_plan_figure, profile_plan_table
+    from ..report.caution import caution_text, misfit_banner
+    from ..report.plan import (
+        data_fit_of,
+        misfit_title,
+        plan_figure,
+        plan_table,
+        profile_plan_figure,
+        profile_plan_table,
+    )
     from ..report.tables import to_csv
+    from .profile import profile_assumptions
 
     spec = pstudy.plan or PlanSpec()
     prof = pstudy.profile
@@ -205,18 +245,22 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
     write_table(dest, "plan", profile_plan_table(pp, readable=True),
                 caption=f"Value of candidate observations for every question of {prof.name}.")
     write_text(dest / "plan.csv", to_csv(profile_plan_table(pp)))  # every column
-    write_text(dest / "ranking.csv", to_csv(plan_table(pp.plans[rq])))
+    fit = data_fit_of(pp)
+    write_text(dest / "ranking.csv", to_csv(plan_table(pp.plans[rq]).assign(data_fit=fit)))
     import pandas as pd
 
     cal = pd.concat([p.calibration.assign(question=q) for q, p in pp.plans.items()
                      if pp.questions[q] != "thermal"], ignore_index=True)
     write_text(dest / "calibration.csv", to_csv(cal, index=False))
     if figures:
-        save_figure(profile_plan_figure(pp, title=f"{prof.name}: value of a new datum"), dest,
-                    "plan")
-        save_figure(plan_figure(pp.plans[rq], title=f"{prof.name}: {rq}"), dest, "ranking")
+        save_figure(profile_plan_figure(pp, title=misfit_title(
+            f"{prof.name}: value of a new datum", pp)), dest, "plan")
+        save_figure(plan_figure(pp.plans[rq], title=misfit_title(f"{prof.name}: {rq}", pp)),
+                    dest, "ranking")
     s = pp.settings
     lines = [f"# {prof.name}: which observation would settle the open questions?", "",
+             *misfit_banner(pp.predictive_check, what=_CONDITIONAL),
+             caution_text(profile_assumptions(prof)), *_caveat_lines(pp),
              f"Method: preposterior simulation ({s['n_simulations']} simulated data per "
              f"candidate and question) from today's posterior: {s['n_states']} joint states "
              f"drawn from the structured exact path ({s['n_thermal_points']} thermal points x "
@@ -235,8 +279,10 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
             top = int(np.argmax(p.today["class_probabilities"]))
             lines.append(f"- {q}: most probable {p.class_names[top]!r} "
                          f"({p.today['class_probabilities'][top]:.2f}); entropy "
-                         f"{p.today['entropy_bits']:.2f} bits")
-    lines += ["", f"## Candidates, best first for: {rq}", ""]
+                         f"{p.today['entropy_bits']:.2f} bits"
+                         + (" -- DATA MISFIT: the model cannot reproduce this layer's data"
+                            if q in pp.misfit_layers else ""))
+    lines += ["", _candidates_heading(bool(pp.misfit_layers), rq), ""]
     lines += [f"{int(pp.ranking.loc[lab, 'rank'])}. {txt}" for lab, txt in pp.sentences.items()]
     lines += ["", "`plan.csv` holds every (candidate, question) row with Monte Carlo errors; "
               "`ranking.csv` the ranked question's table; `calibration.csv` the "
@@ -244,6 +290,7 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
     if warn.messages:
         lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
     write_text(dest / "report.md", "\n".join(lines))
+    _say_trust(args, f"profile {prof.name!r}", pp.misfit_layers, pp.caveats)
     src = Path(pstudy.source)
     text = src.read_text(encoding="utf-8") if src.is_file() else ""
     head = [f"# bayescrust plan of profile {prof.name!r}: the study file as read, with the "

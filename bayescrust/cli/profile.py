@@ -19,7 +19,7 @@ from .shell import (
 )
 
 __all__ = ["add_parser", "cmd_profile", "do_profile", "profile_figure_curves",
-           "is_profile_study", "load_profile_study"]
+           "is_profile_study", "load_profile_study", "profile_assumptions"]
 
 
 def is_profile_study(path) -> bool:
@@ -41,6 +41,31 @@ def load_profile_study(path):
     except OSError as exc:
         raise InputError(f"{p}: cannot read the study file: {exc.strerror}") from exc
     return parse_profile_study(text, source=str(p))
+
+
+def profile_assumptions(profile) -> dict:
+    """Key assumptions of a profile run, for the caution text of its reports."""
+    hf = profile.heat_flow
+    a = {"thermal state": profile.thermal.label(),
+         "pressure": f"{profile.pressure} (temperature range {profile.temperature_range_c[0]:g}"
+                     f"-{profile.temperature_range_c[1]:g} deg C)",
+         "heat flow": ("none" if hf is None else
+                       f"{hf.value:g} +- {hf.sigma:g} mW/m^2, {hf.mode.replace('_', ' ')}"),
+         "rocks": "; ".join(f"{n}: {', '.join(r)}" for n, r in
+                            zip(profile.names, profile.rocks, strict=True)),
+         "likelihood": "gaussian (" + ("default forward-model error"
+                                       if profile.model_error is None
+                                       else f"model error {profile.model_error}") + ")",
+         "priors": "; ".join(f"{n}: " + (", ".join(f"{k} {_prior(v)}" for k, v in p.items())
+                                          or "defaults")
+                             for n, p in zip(profile.names, profile.priors, strict=True)),
+         "interpretations": "as named in the study file (or the package defaults)"}
+    return a
+
+
+def _prior(v) -> str:
+    return v.describe() if hasattr(v, "describe") else f"{v:g}" if isinstance(
+        v, (int, float)) else str(v)
 
 
 def profile_figure_curves(result, n=60):
@@ -101,7 +126,8 @@ def do_profile(args, study, dest: Path, *, method="exact", figures=True, exact_o
     ``exact_options`` (design sizes of :func:`exact_profile`) lets the demo trade precision
     for time; the Monte Carlo errors in the tables say what precision was reached."""
     from ..profile import compare_thermal_states, exact_profile, invert_profile
-    from ..report.profile import evidence_table
+    from ..report.caution import caution_text, misfit_banner
+    from ..report.profile import convergence_line, evidence_table, thermal_verdict
 
     seed = args.seed if getattr(args, "seed", None) is not None else (study.seed or 0)
     warn = Warnings(args)
@@ -125,25 +151,42 @@ def do_profile(args, study, dest: Path, *, method="exact", figures=True, exact_o
         write_table(dest, "answers_by_state", comp.answers.set_index(["thermal_state", "layer"]),
                     caption="How each answer moves between thermal states")
     wall = time.perf_counter() - t0
-    lines = [f"# Profile {prof.name}", "", f"Thermal state: {prof.thermal.describe()}; method: "
+    lines = [f"# Profile {prof.name}", "",
+             *misfit_banner(res.predictive_check,
+                            what="the answers of the whole profile (every layer enters them "
+                                 "through the thermal state)"),
+             caution_text(profile_assumptions(prof)),
+             f"Thermal state: {prof.thermal.describe()}; method: "
              f"{method}; seed {seed}; {wall:.1f} s.", ""]
     if method == "exact":
         lines += [f"log evidence {res.log_evidence:.3f} +- {res.log_evidence_error:.3f}", ""]
+    else:
+        lines += [convergence_line(res), ""]
+    lines += ["Data fit per layer (posterior-predictive check): " + "; ".join(
+        f"{n}: {c}" for n, c in dict(zip(res.hypotheses["layer"],
+                                         res.hypotheses["data_fit"], strict=True)).items()), ""]
     pb = res.thickness
     lines += [f"P(no crust-mantle boundary in the section) = {pb['p_no_boundary']:.3f}; igneous "
               f"crustal thickness given a boundary: {pb['mean_km']:.2f} +- {pb['sd_km']:.2f} km",
               ""]
     if comp is not None:
-        best = comp.evidence["log_evidence"].idxmax()
-        lines += [f"Thermal state favoured by the whole profile: **{best}** "
-                  f"(posterior probability {comp.evidence.loc[best, 'posterior_probability']:.3f}"
-                  " with equal prior weights).", ""]
+        lines += [thermal_verdict(comp), ""]
+        other = {n: r.misfit_layers for n, r in comp.results.items() if r.misfit_layers}
+        if other:
+            lines += ["Data misfit under the compared thermal states: " + "; ".join(
+                f"{n}: {', '.join(b)}" for n, b in other.items()) + ". The evidence of a "
+                "state that cannot fit the data measures how badly it fails, not which state "
+                "is right.", ""]
     if warn.messages:
         lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
     lines += ["Files: hypotheses.*, boundary.*, thermal.*, thermal_evidence.*, "
               "answers_by_state.* (CSV, Markdown, LaTeX); posterior.nc (arviz, layer "
               "dimension); figures/profile.(png|pdf).", ""]
     write_text(dest / "report.md", "\n".join(lines))
+    for n in res.misfit_layers:
+        say(args, f"layer {n!r}: DATA MISFIT, see report.md")
+    if method == "mcmc":
+        say(args, convergence_line(res))
     say(args, f"profile {prof.name}: done in {wall:.1f} s")
     return res, comp
 

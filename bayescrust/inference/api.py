@@ -72,7 +72,13 @@ def _trust(model, hyps, post, summary, hyp_table, diagnostics, *, sampler_conver
     import warnings
 
     from .sampler import ConvergenceWarning
-    from .trust import MisfitWarning, class_mixing, convergence_verdict, misfit_message
+    from .trust import (
+        MisfitWarning,
+        class_mixing,
+        convergence_verdict,
+        data_fit_label,
+        misfit_message,
+    )
     from .trust import predictive_check as _ppc
 
     flat = {k: np.asarray(v).ravel() for k, v in post.items()}
@@ -92,8 +98,7 @@ def _trust(model, hyps, post, summary, hyp_table, diagnostics, *, sampler_conver
     hyp_table["mixing_median"] = [mix[k][0] for k in hyp_table.index]
     hyp_table["mixing_q05"] = [mix[k][1] for k in hyp_table.index]
     hyp_table["mixing_q95"] = [mix[k][2] for k in hyp_table.index]
-    hyp_table["data_fit"] = ("MISFIT (" + ", ".join(check["flagged"]) + ")"
-                             if check["misfit"] else "ok")
+    hyp_table["data_fit"] = data_fit_label(check)
     # a table read on its own must say when its numbers come from an unconverged run
     hyp_table["converged"] = bool(verdict["converged"])
     if check["misfit"]:

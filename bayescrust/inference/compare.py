@@ -131,13 +131,20 @@ def probability_chart(layer, vp_values, *, thermal_priors: dict, seed=None, n_po
     Returns
     -------
     pandas.DataFrame
-        Long table: ``thermal_prior, vp, hypothesis, probability, mcse, importance_ess``.
+        Long table: ``thermal_prior, vp, hypothesis, probability, mcse, importance_ess``,
+        ``ppc_p_value`` and ``data_fit``: the posterior-predictive check of the layer's data
+        with that observed Vp (:func:`bayescrust.inference.trust.predictive_check` on the
+        weighted design: the rule and threshold of :func:`bayescrust.exact_layer`), its
+        smallest p-value and ``"ok"`` or ``"MISFIT (vp, ...)"``. Where it says MISFIT the model
+        cannot produce that Vp and the probabilities are conditional on a model that does not
+        fit.
     """
     import pandas as pd
 
     from .api import _setup, resolve_rng
     from .evidence import prior_design, weigh_design
     from .hypotheses import indicators
+    from .trust import data_fit_label, predictive_check
 
     if layer.vp is None:
         raise ValueError(f"layer {layer.name!r}: a probability chart needs an observed vp")
@@ -169,11 +176,16 @@ def probability_chart(layer, vp_values, *, thermal_priors: dict, seed=None, n_po
         w = np.exp(loglik - np.max(loglik, axis=1, keepdims=True))
         sw = w.sum(axis=1)
         ess = sw**2 / np.sum(w * w, axis=1)
+        checks = [predictive_check(model, q, weights=w[j], observed={"vp": float(x)})
+                  for j, x in enumerate(vp)]
+        p_min = [min(v["p_value"] for v in c["observables"].values()) for c in checks]
+        fit = [data_fit_label(c) for c in checks]
         for h, ind in indicators(hyps, q).items():
             v = ind.astype(float)
             p = (w @ v) / sw
             se = np.sqrt(np.sum(w**2 * (v[None, :] - p[:, None]) ** 2, axis=1)) / sw
             rows += [{"thermal_prior": name, "vp": float(x), "hypothesis": h,
-                      "probability": float(pi), "mcse": float(si), "importance_ess": float(e)}
-                     for x, pi, si, e in zip(vp, p, se, ess, strict=True)]
+                      "probability": float(pi), "mcse": float(si), "importance_ess": float(e),
+                      "ppc_p_value": pm, "data_fit": f}
+                     for x, pi, si, e, pm, f in zip(vp, p, se, ess, p_min, fit, strict=True)]
     return pd.DataFrame(rows)

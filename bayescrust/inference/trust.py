@@ -12,8 +12,8 @@ import numpy as np
 from scipy import special
 
 __all__ = ["MisfitWarning", "PPC_ALPHA", "RHAT_MAX", "EXACT_MIN_ESS", "predictive_check",
-           "misfit_message", "convergence_verdict", "rule_of_three", "class_mixing",
-           "ensemble_rhat", "RHAT_GROUPS"]
+           "misfit_message", "misfit_details", "data_fit_label", "convergence_verdict",
+           "rule_of_three", "class_mixing", "ensemble_rhat", "RHAT_GROUPS"]
 
 #: Two-sided posterior-predictive p-value below which an observable is flagged as misfit.
 #: 0.01 corresponds to a residual of ~2.6 predictive standard deviations for a Gaussian
@@ -33,7 +33,25 @@ EXACT_MIN_ESS = 500.0
 _LABEL = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density"}
 
 
-def predictive_check(model, q: dict, *, alpha: float = PPC_ALPHA) -> dict:
+def _mean(x, w):
+    """Plain mean, or the weighted mean with normalised weights ``w``."""
+    return float(np.mean(x)) if w is None else float(w @ x)
+
+
+def _draws(values, weights, extra=None):
+    """Finite draws (and their normalised weights, ``None`` for equal weights)."""
+    m = np.asarray(values, float).ravel()
+    ok = np.isfinite(m) if extra is None else (np.isfinite(m) & extra)
+    if weights is not None:
+        w = np.asarray(weights, float).ravel()
+        ok &= np.isfinite(w) & (w > 0)
+        w = w[ok]
+        return m[ok], (w / w.sum() if w.size else w), ok
+    return m[ok], None, ok
+
+
+def predictive_check(model, q: dict, *, alpha: float = PPC_ALPHA, weights=None,
+                     observed=None) -> dict:
     """Posterior-predictive check of every observable of a layer.
 
     For posterior draws ``theta_i`` with predictions ``m_i`` and likelihood scales ``s_i``
@@ -57,6 +75,13 @@ def predictive_check(model, q: dict, *, alpha: float = PPC_ALPHA) -> dict:
         Posterior quantities (flat arrays, one entry per draw) holding the predictions.
     alpha : float
         Flagging threshold on the two-sided p-value.
+    weights : array_like, optional
+        Posterior weight of each entry of ``q`` (an importance-weighted design, e.g. the exact
+        path's or the planner's); default equal weights (posterior draws). Every posterior
+        mean above becomes the weighted mean: the same check.
+    observed : dict, optional
+        ``{observable: value}`` replacing the layer's observed values (same errors): the check
+        of the posterior obtained with those values (the probability chart).
 
     Returns
     -------
@@ -64,34 +89,35 @@ def predictive_check(model, q: dict, *, alpha: float = PPC_ALPHA) -> dict:
         ``{"alpha", "misfit", "flagged": [names], "observables": {name: {...}}}``.
     """
     obs = {}
+    observed = dict(observed or {})
     for k, (y, _sd) in model.observed.items():
-        m = np.asarray(q[k], float).ravel()
-        m = m[np.isfinite(m)]
+        y = float(observed.get(k, y))
+        m, w, _ = _draws(q[k], weights)
         s = model.total_sigma(k, m)
         z_i = (y - m) / s
         if model.likelihood == "gaussian":
             cdf = special.ndtr(z_i)
-            var_noise = float(np.mean(s * s))
+            var_noise = _mean(s * s, w)
         else:
             nu = float(model.nu)
             from scipy import stats
 
             cdf = stats.t.cdf(z_i, nu)
-            var_noise = float(np.mean(s * s)) * (nu / (nu - 2.0) if nu > 2 else math.inf)
-        p_le = float(np.mean(cdf)) if m.size else math.nan
+            var_noise = _mean(s * s, w) * (nu / (nu - 2.0) if nu > 2 else math.inf)
+        p_le = _mean(cdf, w) if m.size else math.nan
         p = min(1.0, 2.0 * min(p_le, 1.0 - p_le))
-        mean = float(np.mean(m)) if m.size else math.nan
-        sd = math.sqrt(float(np.var(m)) + var_noise) if m.size else math.nan
-        obs[k] = {"observed": float(y), "predicted_mean": mean, "predicted_sd": sd,
-                  "z": (float(y) - mean) / sd if sd > 0 else math.nan, "p_value": p}
+        mean = _mean(m, w) if m.size else math.nan
+        sd = math.sqrt(_mean((m - mean) ** 2, w) + var_noise) if m.size else math.nan
+        obs[k] = {"observed": y, "predicted_mean": mean, "predicted_sd": sd,
+                  "z": (y - mean) / sd if sd > 0 else math.nan, "p_value": p}
     if "vp" in model.observed and "vs" in model.observed and "vp_vs" not in model.observed:
-        obs["vp_vs (from Vp, Vs)"] = _pair_ratio_check(model, q)
+        obs["vp_vs (from Vp, Vs)"] = _pair_ratio_check(model, q, weights, observed)
     flagged = [k for k, v in obs.items() if not v["p_value"] >= alpha]
     return {"alpha": float(alpha), "misfit": bool(flagged), "flagged": flagged,
             "observables": obs}
 
 
-def _pair_ratio_check(model, q: dict) -> dict:
+def _pair_ratio_check(model, q: dict, weights=None, observed=None) -> dict:
     """Predictive check of the observed Vp/Vs when Vp and Vs are both observed.
 
     Each marginal check can pass while the pair does not: a Vp and a Vs each within reach of
@@ -100,11 +126,13 @@ def _pair_ratio_check(model, q: dict) -> dict:
     the covariance of the correlated model errors (first-order propagation; Gaussian
     replicates, also used for the Student-t as an approximation).
     """
-    (yp, _), (ys, _) = model.observed["vp"], model.observed["vs"]
-    mp = np.asarray(q["vp"], float).ravel()
-    ms = np.asarray(q["vs"], float).ravel()
-    ok = np.isfinite(mp) & np.isfinite(ms) & (ms > 0)
-    mp, ms = mp[ok], ms[ok]
+    observed = observed or {}
+    yp = float(observed.get("vp", model.observed["vp"][0]))
+    ys = float(observed.get("vs", model.observed["vs"][0]))
+    ms_all = np.asarray(q["vs"], float).ravel()
+    with np.errstate(invalid="ignore"):
+        mp, w, ok = _draws(q["vp"], weights, np.isfinite(ms_all) & (ms_all > 0))
+    ms = ms_all[ok]
     sp, ss = model.total_sigma("vp", mp), model.total_sigma("vs", ms)
     rho = model.error_correlation if model.likelihood == "gaussian" else 0.0
     c = rho * model.model_error["vp"] * model.model_error["vs"] * mp * ms
@@ -112,28 +140,41 @@ def _pair_ratio_check(model, q: dict) -> dict:
     sd_i = np.sqrt(np.maximum(var, 1e-300))
     y = math.log(yp / ys)
     lm = np.log(mp / ms)
-    p_le = float(np.mean(special.ndtr((y - lm) / sd_i))) if mp.size else math.nan
+    p_le = _mean(special.ndtr((y - lm) / sd_i), w) if mp.size else math.nan
     p = min(1.0, 2.0 * min(p_le, 1.0 - p_le))
     ratio = mp / ms
-    mean = float(np.mean(ratio)) if mp.size else math.nan
-    sd = (math.sqrt(float(np.var(ratio)) + float(np.mean((ratio * sd_i) ** 2)))
+    mean = _mean(ratio, w) if mp.size else math.nan
+    sd = (math.sqrt(_mean((ratio - mean) ** 2, w) + _mean((ratio * sd_i) ** 2, w))
           if mp.size else math.nan)
     return {"observed": yp / ys, "predicted_mean": mean, "predicted_sd": sd,
             "z": (yp / ys - mean) / sd if sd > 0 else math.nan, "p_value": p}
+
+
+def data_fit_label(check: dict) -> str:
+    """The ``data_fit`` entry of a hypothesis table: ``"ok"`` or ``"MISFIT (vp, ...)"``."""
+    if not check.get("misfit"):
+        return "ok"
+    return "MISFIT (" + ", ".join(check["flagged"]) + ")"
+
+
+def misfit_details(check: dict) -> str:
+    """The flagged observables of a check, e.g. ``"Vp observed 9.5, predicted 8.1 +- 0.23
+    (z = +6.0, p = 1e-09)"`` ('' when the data fit)."""
+    parts = []
+    for k in check.get("flagged", ()):
+        v = check["observables"][k]
+        parts.append(f"{_LABEL.get(k, k)} observed {v['observed']:.3g}, predicted "
+                     f"{v['predicted_mean']:.3g} +- {v['predicted_sd']:.2g} "
+                     f"(z = {v['z']:+.1f}, p = {v['p_value']:.2g})")
+    return "; ".join(parts)
 
 
 def misfit_message(check: dict) -> str:
     """One-line warning text for a flagged check ('' when the data fit)."""
     if not check.get("misfit"):
         return ""
-    parts = []
-    for k in check["flagged"]:
-        v = check["observables"][k]
-        parts.append(f"{_LABEL.get(k, k)} observed {v['observed']:.3g}, predicted "
-                     f"{v['predicted_mean']:.3g} +- {v['predicted_sd']:.2g} "
-                     f"(z = {v['z']:+.1f}, p = {v['p_value']:.2g})")
     return ("DATA MISFIT: the model cannot reproduce the data (posterior-predictive p < "
-            f"{check['alpha']:g}): " + "; ".join(parts)
+            f"{check['alpha']:g}): " + misfit_details(check)
             + ". The probabilities are conditional on a model that does not fit; treat them "
             "with caution.")
 

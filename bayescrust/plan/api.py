@@ -3,9 +3,11 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import time
-from dataclasses import dataclass
+import warnings
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -49,6 +51,12 @@ class PlanResult:
         One plain-language sentence per candidate.
     class_names : tuple
     settings : dict
+    predictive_check : dict
+        Posterior-predictive check of today's data (:mod:`bayescrust.plan.today`; ``{}`` when
+        not made, e.g. a hand-built ensemble).
+    caveats : tuple of str
+        What makes today's posterior a poor starting point (data misfit, too few effective
+        states, an unconverged MCMC run); read them before the sentences.
     """
 
     table: object
@@ -57,10 +65,19 @@ class PlanResult:
     sentences: dict
     class_names: tuple
     settings: dict
+    predictive_check: dict = field(default_factory=dict)
+    caveats: tuple = ()
+
+    @property
+    def misfit(self) -> bool:
+        """True when the model cannot reproduce today's data (the sentences are then no
+        recommendations)."""
+        return bool(self.predictive_check.get("misfit", False))
 
     def __repr__(self) -> str:
         return (f"PlanResult(candidates={list(self.table.index)}, "
-                f"ranked_by={self.settings.get('rank_by')!r})")
+                f"ranked_by={self.settings.get('rank_by')!r}"
+                + (", DATA MISFIT" if self.misfit else "") + ")")
 
 
 def _pct(x):
@@ -222,4 +239,28 @@ def plan_layer(layer, *, candidates=None, result=None, rocks=("gabbro", "harzbur
         ens = ensemble_from_design(model, hyps, r_design, n_points, model_error=model_error)
     plan = preposterior(ens, cands, seed=r_plan, rank_by=rank_by, **settings)
     plan.settings.update(layer=layer.name, seed=seed_val, n_points=int(ens.n))
-    return plan
+    return _with_today_checks(plan, ens, result, layer.name)
+
+
+def _with_today_checks(plan, ens, result, name):
+    """The plan with today's predictive check and caveats (:mod:`.today`); warns on each."""
+    from ..inference.trust import MisfitWarning, misfit_message
+    from .preposterior import DegeneracyWarning
+    from .today import MISFIT_PREFIX, caveats, layer_check
+
+    check = layer_check(ens, result)
+    s = plan.settings
+    n_eff = s["ensemble_importance_ess"]
+    ess = {} if result is not None else {"today's design": n_eff}
+    notes = tuple(caveats({name: check}, ess, s["min_ess"], result=result))
+    if check.get("misfit"):
+        warnings.warn(f"plan of layer {name!r}: {misfit_message(check)} The plan's values are "
+                      "computed under that model: no recommendations.", MisfitWarning,
+                      stacklevel=3)
+    if ess and n_eff < s["min_ess"]:
+        warnings.warn(f"plan of layer {name!r}: today's design has an importance effective "
+                      f"size of {n_eff:.0f}, below min_ess = {s['min_ess']:g}; use more design "
+                      "points", DegeneracyWarning, stacklevel=3)
+    sentences = ({k: MISFIT_PREFIX + v for k, v in plan.sentences.items()}
+                 if check.get("misfit") else plan.sentences)
+    return dataclasses.replace(plan, predictive_check=check, caveats=notes, sentences=sentences)

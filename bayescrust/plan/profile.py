@@ -34,7 +34,7 @@ from __future__ import annotations
 import math
 import time
 import warnings
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -42,6 +42,7 @@ from .api import RANK_KEYS, PlanResult, preposterior, sentence
 from .candidates import Candidate, as_candidates
 from .ensemble import Ensemble, assign_classes, make_classes
 from .preposterior import DegeneracyWarning, Settings, current_state
+from .today import profile_today
 
 __all__ = ["plan_profile", "ProfilePlanResult", "profile_states", "profile_ensemble",
            "default_profile_candidates", "BOUNDARY_QUESTION", "HEAT_FLOW_SIGMAS"]
@@ -261,6 +262,13 @@ class ProfilePlanResult:
     questions : dict
         ``{question: kind}``.
     settings : dict
+        Also today's importance effective sizes: ``thermal_importance_ess`` and
+        ``layer_importance_ess`` (per layer, of its design's marginal posterior weights).
+    predictive_check : dict
+        ``{layer: posterior-predictive check of today's data}`` (:mod:`.today`).
+    caveats : tuple of str
+        What makes today's posterior a poor starting point (data misfit in a layer, too few
+        effective states); read them before the sentences.
     """
 
     plans: dict
@@ -269,10 +277,19 @@ class ProfilePlanResult:
     sentences: dict
     questions: dict
     settings: dict
+    predictive_check: dict = field(default_factory=dict)
+    caveats: tuple = ()
+
+    @property
+    def misfit_layers(self) -> list[str]:
+        """Layers whose data the model cannot reproduce today."""
+        return [n for n, c in self.predictive_check.items() if c.get("misfit")]
 
     def __repr__(self) -> str:
         return (f"ProfilePlanResult(candidates={list(self.ranking.index)}, "
-                f"questions={list(self.questions)})")
+                f"questions={list(self.questions)}"
+                + (f", DATA MISFIT in {self.misfit_layers}" if self.misfit_layers else "")
+                + ")")
 
 
 def _merge(parts):
@@ -478,7 +495,10 @@ def plan_profile(profile, *, candidates=None, seed=None, rank_question=BOUNDARY_
                     "states_per_thermal": int(states_per_thermal),
                     "profile": profile.name, "time_s": time.perf_counter() - t0}
     del out_settings["quantity"]
+    checks, notes, sentences = profile_today(profile, design, out_settings, s.min_ess,
+                                             _sentences(plans, questions, rank_question, mass))
     return ProfilePlanResult(plans=plans, table=_long_table(plans, questions, cands),
-                             ranking=plans[rank_question].table,
-                             sentences=_sentences(plans, questions, rank_question, mass),
-                             questions=questions, settings=out_settings)
+                             ranking=plans[rank_question].table, sentences=sentences,
+                             questions=questions, settings=out_settings,
+                             predictive_check=checks, caveats=notes)
+

@@ -30,7 +30,8 @@ class ProfileResult:
     thermal : pandas.DataFrame
         Per thermal parameter: mean, sd, q05, q50, q95, mcse (of the mean).
     hypotheses : pandas.DataFrame
-        Long table: layer, hypothesis, probability, mcse.
+        Long table: layer, hypothesis, probability, mcse, data_fit (the layer's
+        posterior-predictive check: ``"ok"`` or ``"MISFIT (vp, ...)"``).
     boundary : pandas.DataFrame
         Crust-mantle boundary outcomes: outcome (the first mantle layer or "no boundary in the
         section"), depth_km (its top), thickness_km (igneous crust above it), probability, mcse.
@@ -46,7 +47,10 @@ class ProfileResult:
         Exact path with overburden: ``pressure_sd_bound_gpa`` and ``delta_log_likelihood`` per
         layer (see :mod:`bayescrust.profile.exact`).
     diagnostics : dict
-        Exact: importance ESS per layer and of the thermal design; MCMC: tau, ESS, acceptance.
+        Exact: importance ESS per layer and of the thermal design; MCMC: tau, ESS, acceptance,
+        ``converged`` (the sampler's stopping rule). Both: ``predictive_check``, per layer the
+        posterior-predictive check of its data
+        (:func:`bayescrust.inference.trust.predictive_check` on the joint posterior draws).
     settings : dict
         ``method``, ``seed``, ``profile`` (its settings), ``wall_time_s`` and ``serpentine``:
         the serpentine kind of the layers' forward model (whose stability limit switches
@@ -66,6 +70,29 @@ class ProfileResult:
     pressure_bound: dict | None
     diagnostics: dict
     settings: dict
+
+    @property
+    def predictive_check(self) -> dict:
+        """``{layer: posterior-predictive check}`` (see ``diagnostics``)."""
+        return self.diagnostics.get("predictive_check", {})
+
+    @property
+    def misfit_layers(self) -> list[str]:
+        """Layers whose data the model cannot reproduce (posterior-predictive p < 0.01)."""
+        return [n for n, c in self.predictive_check.items() if c.get("misfit")]
+
+    @property
+    def misfit(self) -> bool:
+        """True when the model cannot reproduce the data of some layer."""
+        return bool(self.misfit_layers)
+
+    @property
+    def data_fit(self) -> str:
+        """Data fit of the whole-profile answers (boundary, thermal state; every layer enters
+        them through the thermal state): ``"ok"`` or ``"MISFIT (in <layers>)"``."""
+        bad = self.misfit_layers
+        return f"MISFIT (in {', '.join(bad)})" if bad else ("ok" if self.predictive_check
+                                                            else "")
 
     def probability(self, layer, hypothesis) -> float:
         """Posterior probability of ``hypothesis`` in ``layer`` (name)."""
@@ -97,7 +124,23 @@ class ProfileResult:
                           attrs={"method": self.method,
                                  "thermal": self.profile.thermal.describe(),
                                  "log_evidence": self.log_evidence,
-                                 "log_evidence_error": self.log_evidence_error})
+                                 "log_evidence_error": self.log_evidence_error,
+                                 **self._fit_attrs()})
+
+    def _fit_attrs(self) -> dict:
+        """NetCDF attributes of the data fit: ``data_fit`` ("ok" or "MISFIT in ..."),
+        ``data_fit_by_layer`` ("<layer>: ok; <layer>: MISFIT (vp); ...") and the threshold
+        ``ppc_alpha``."""
+        from ..inference.trust import PPC_ALPHA, data_fit_label, misfit_details
+
+        checks = self.predictive_check
+        bad = self.misfit_layers
+        out = {"data_fit": ("MISFIT in " + "; ".join(f"{n}: {misfit_details(checks[n])}"
+                                                    for n in bad)) if bad else "ok",
+               "ppc_alpha": PPC_ALPHA}
+        out["data_fit_by_layer"] = "; ".join(f"{n}: {data_fit_label(c)}"
+                                             for n, c in checks.items())
+        return out
 
 
 def boundary_from_mantle(profile, mantle):
@@ -175,6 +218,32 @@ def _exact_draws(profile, reps, rng, n_draws):
             "boundary_km": boundary_from_mantle(profile, mantle)}
 
 
+def _fit_label(check):
+    from ..inference.trust import data_fit_label
+
+    return data_fit_label(check) if check else ""
+
+
+def _predictive_checks(profile, models, draws) -> dict:
+    """Per layer, the posterior-predictive check of its data on the joint draws (the rule and
+    threshold of a layer result); a :class:`MisfitWarning` per misfitting layer."""
+    import warnings
+
+    from ..inference.trust import MisfitWarning, misfit_message, predictive_check
+
+    if not models:
+        return {}
+    lay = draws["layers"]
+    out = {}
+    for i, (name, model) in enumerate(zip(profile.names, models, strict=True)):
+        out[name] = c = predictive_check(model, {k: lay[k][:, i] for k in
+                                                 ("vp", "vs", "vp_vs", "density") if k in lay})
+        if c["misfit"]:
+            warnings.warn(f"profile {profile.name!r} ({profile.thermal.label()}), layer "
+                          f"{name!r}: {misfit_message(c)}", MisfitWarning, stacklevel=4)
+    return out
+
+
 def build_result(profile, *, method, hyps, pressures, seed, wall_time_s, reps=None,
                  answers=None, models=None, pressure_bound=None, rng=None, n_draws=4000,
                  mcmc=None):
@@ -207,6 +276,9 @@ def build_result(profile, *, method, hyps, pressures, seed, wall_time_s, reps=No
     else:
         draws, hyp, boundary, thermal, diag = mcmc
         log_z, log_z_err = math.nan, math.nan
+    checks = _predictive_checks(profile, models, draws)
+    diag["predictive_check"] = checks
+    hyp = hyp.assign(data_fit=[_fit_label(checks.get(n)) for n in hyp["layer"]])
     thickness = _thickness(profile, draws["boundary_km"])
     thickness["p_no_boundary"] = float(boundary["probability"].iloc[-1])
     settings = {"method": method, "seed": -1 if seed is None else seed,

@@ -303,7 +303,7 @@ def piled_at_bound(post, prior) -> str:
     return ""
 
 
-def probability_chart(table, *, fig=None, observed=None, title=None):
+def probability_chart(table, *, fig=None, observed=None, title=None, misfit=None):
     """Probability of each interpretation against observed Vp; one panel per thermal prior.
 
     Parameters
@@ -313,6 +313,10 @@ def probability_chart(table, *, fig=None, observed=None, title=None):
         ``thermal_prior`` and ``mcse`` (drawn as a +-2 MCSE band).
     observed : (float, float), optional
         The layer's observed Vp and 1-sigma error, drawn as a grey band.
+    misfit : dict, optional
+        ``{thermal prior: [(lo, hi), ...]}``: Vp ranges whose data the model cannot reproduce
+        (:func:`bayescrust.cli.chart.misfit_ranges`), hatched over half a grid step beyond
+        each end, with a note in the panel.
     """
     priors = list(dict.fromkeys(table["thermal_prior"])) if "thermal_prior" in table else [None]
     hyps = list(dict.fromkeys(table["hypothesis"]))
@@ -326,6 +330,8 @@ def probability_chart(table, *, fig=None, observed=None, title=None):
                 v, s = observed
                 ax.axvspan(v - s, v + s, color="#000000", alpha=0.08, lw=0)
                 ax.axvline(v, color="#000000", lw=0.8, alpha=0.6)
+            _misfit_spans(ax, (misfit or {}).get(pr if pr is None else str(pr)),
+                          np.unique(sub["vp"].to_numpy(float)), label=j == 0)
             for i, h in enumerate(hyps):
                 d = sub[sub["hypothesis"] == h].sort_values("vp")
                 if d.empty:
@@ -345,6 +351,26 @@ def probability_chart(table, *, fig=None, observed=None, title=None):
         if title:
             fig.suptitle(title)
     return fig
+
+
+def _misfit_spans(ax, ranges, grid, *, label):
+    """Hatch the Vp ranges the model cannot reproduce (half a grid step beyond each end)."""
+    if not ranges:
+        return
+    half = 0.5 * float(np.min(np.diff(grid))) if grid.size > 1 else 0.0
+    for k, (lo, hi) in enumerate(ranges):
+        ax.axvspan(lo - half, hi + half, facecolor="none", edgecolor=MISFIT_COLOUR, hatch="xx",
+                   lw=0, alpha=0.5, zorder=0,
+                   label="data misfit: the model\ncannot produce this Vp"
+                   if label and k == 0 else None)
+    lo, hi = max(ranges, key=lambda r: r[1] - r[0])  # named in the widest range
+    ax.text(0.5 * (lo + hi), 0.5, "DATA\nMISFIT", transform=ax.get_xaxis_transform(),
+            fontsize=7, color=MISFIT_COLOUR, fontweight="bold", ha="center", va="center",
+            bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.8, "pad": 1.5})
+
+
+#: Colour of misfit warnings in figures.
+MISFIT_COLOUR = "#b00000"
 
 
 #: |log10 B| below which evidence is "not worth more than a bare mention" (Kass & Raftery

@@ -10,7 +10,7 @@ import math
 from .style import LINESTYLES, MARKERS, PALETTE, new_figure, style_context
 
 __all__ = ["plan_table", "plan_figure", "PLAN_TABLE_COLUMNS", "profile_plan_table",
-           "profile_plan_figure", "PROFILE_PLAN_COLUMNS"]
+           "profile_plan_figure", "PROFILE_PLAN_COLUMNS", "data_fit_of", "misfit_title"]
 
 #: Columns of the published plan table, with readable names.
 PLAN_TABLE_COLUMNS = {
@@ -32,15 +32,47 @@ PLAN_TABLE_COLUMNS = {
 }
 
 
+def data_fit_of(plan) -> str:
+    """The ``data_fit`` entry of every row of a plan's tables: today's posterior-predictive
+    check, ``"ok"`` or ``"MISFIT (...)"`` (``""`` when no check was made).
+
+    A profile plan names every misfitting layer in every row: the layers share the thermal
+    state, so a layer the model cannot fit moves every question's answer.
+    """
+    from ..inference.trust import data_fit_label
+
+    checks = getattr(plan, "predictive_check", None) or {}
+    if "observables" in checks:  # one layer
+        return data_fit_label(checks)
+    if not checks:
+        return ""
+    bad = [f"{n}: {', '.join(c['flagged'])}" for n, c in checks.items() if c.get("misfit")]
+    return f"MISFIT ({'; '.join(bad)})" if bad else "ok"
+
+
+def misfit_title(title: str, plan) -> str:
+    """A figure title, with a second line when today's data misfit."""
+    fit = data_fit_of(plan)
+    if not fit.startswith("MISFIT"):
+        return title
+    return f"{title}\nDATA {fit}: not recommendations (the model does not fit today's data)"
+
+
+def _with_fit(table, plan, column="data_fit"):
+    fit = data_fit_of(plan)
+    return table.assign(**{column: fit}) if fit else table
+
+
 def plan_table(plan, *, readable: bool = False):
     """The ranked table (every column), or with ``readable=True`` the published columns with
-    readable headers (for Markdown and LaTeX)."""
+    readable headers (for Markdown and LaTeX); both end with today's ``data_fit``
+    (:func:`data_fit_of`) when it was checked."""
     t = plan.table
     if not readable:
-        return t
+        return _with_fit(t, plan)
     out = t[list(PLAN_TABLE_COLUMNS)].rename(columns=PLAN_TABLE_COLUMNS)
     out.index.name = "candidate"
-    return out
+    return _with_fit(out, plan, "data fit")
 
 
 def plan_figure(plan, *, fig=None, title=None):
@@ -117,10 +149,10 @@ def profile_plan_table(pplan, *, readable: bool = False):
     with ``readable=True`` the published columns with readable headers."""
     t = pplan.table
     if not readable:
-        return t
+        return _with_fit(t, pplan)
     out = t[list(PROFILE_PLAN_COLUMNS)].rename(columns=PROFILE_PLAN_COLUMNS)
     out.index.name = "candidate"
-    return out
+    return _with_fit(out, pplan, "data fit")
 
 
 def profile_plan_figure(pplan, *, fig=None, title=None):

@@ -11,7 +11,8 @@ import numpy as np
 from .style import PALETTE
 
 __all__ = ["hypothesis_table", "boundary_table", "thermal_table", "evidence_table",
-           "profile_figure", "interpretation_styles"]
+           "profile_figure", "interpretation_styles", "thermal_verdict", "convergence_line",
+           "misfit_title_line"]
 
 _HATCHES = ("", "//", "..", "xx", "\\\\", "oo")
 
@@ -40,8 +41,15 @@ def hypothesis_table(result):
     return result.hypotheses.set_index(["layer", "hypothesis"])
 
 
+def _with_fit(table, result):
+    """``table`` with the whole profile's ``data_fit`` (every layer enters these answers)."""
+    fit = result.data_fit
+    return table.assign(data_fit=fit) if fit else table
+
+
 def boundary_table(result):
-    """Crust-mantle boundary outcomes plus the thickness summary as trailing rows."""
+    """Crust-mantle boundary outcomes plus the thickness summary as trailing rows, with the
+    whole profile's ``data_fit``."""
     import pandas as pd
 
     b = result.boundary.set_index("outcome")
@@ -51,17 +59,102 @@ def boundary_table(result):
                           "probability": [np.nan] * 3, "mcse": [np.nan] * 3},
                          index=pd.Index(["thickness mean | boundary", "thickness sd | boundary",
                                          "thickness median | boundary"], name="outcome"))
-    return pd.concat([b, extra])
+    return _with_fit(pd.concat([b, extra]), result)
 
 
 def thermal_table(result):
-    """Thermal-parameter posterior summary."""
-    return result.thermal.set_index("parameter")
+    """Thermal-parameter posterior summary, with the whole profile's ``data_fit``."""
+    return _with_fit(result.thermal.set_index("parameter"), result)
 
 
 def evidence_table(comparison):
     """Evidence of each thermal state (from :func:`compare_thermal_states`)."""
     return comparison.evidence
+
+
+def thermal_verdict(comparison) -> str:
+    """Which thermal state the whole profile favours, in one Markdown paragraph.
+
+    The best state against the runner-up: log10 Bayes factor with its Monte Carlo error and
+    its Kass & Raftery (1995) category (:func:`bayescrust.inference.hypotheses.evidence_category`,
+    the package's one scale: ``2 ln B`` below 2 is "not worth more than a bare mention"). In
+    that category no state is called favoured; a factor within two of its errors is called
+    unresolved.
+    """
+    from ..inference.hypotheses import KASS_RAFTERY, evidence_category
+    from .tables import _decimals
+
+    ev = comparison.evidence.sort_values("log_evidence", ascending=False)
+    names = list(ev.index)
+    p = ev["posterior_probability"]
+    pe = ev["posterior_probability_error"] if "posterior_probability_error" in ev else 0 * p
+
+    def pm(x, e):  # rounded to the error's second significant figure (as the tables)
+        d = _decimals(float(e)) if e > 0 else 3
+        return f"{x:.{d}f} +- {e:.{d}f}"
+
+    def prob(n):
+        return pm(p[n], pe[n])
+
+    best = names[0]
+    if len(names) == 1:
+        return (f"Thermal state favoured by the whole profile: only **{best}** was computed "
+                "(no comparison).")
+    second = names[1]
+    le = ev["log_evidence_error"]
+    lbf = float(ev["log_evidence"].iloc[0] - ev["log_evidence"].iloc[1]) / np.log(10.0)
+    err = float(np.hypot(le.iloc[0], le.iloc[1])) / np.log(10.0)
+    cat = evidence_category(lbf)
+    tie = f"log10 Bayes factor {pm(lbf, err)}, \"{cat}\" (Kass & Raftery 1995)"
+    probs = (f"{best} {prob(best)} against {second} {prob(second)} (posterior probabilities "
+             "with equal prior weights)")
+    if cat == KASS_RAFTERY[0][1]:
+        return (f"Thermal state favoured by the whole profile: **none**. The best two are a "
+                f"statistical tie: {probs}; {tie}. Report the answers under each state "
+                "(answers_by_state.*), not one state's.")
+    bare = KASS_RAFTERY[0][0] / (2.0 * np.log(10.0))  # the category's edge in log10 B
+    unresolved = (" The Monte Carlo error does not resolve this factor (within two errors of "
+                  "a bare mention); rerun with larger designs before quoting it."
+                  if lbf - 2 * err < bare else "")
+    return (f"Thermal state favoured by the whole profile: **{best}**: {probs}; {tie} for "
+            f"{best} against {second}.{unresolved}")
+
+
+def convergence_line(result) -> str:
+    """MCMC: ``converged: yes|no`` (the sampler's stopping rule) with the smallest effective
+    sizes: of the chain (thermal parameters or joint coordinates) and, for the collapsed
+    scheme, of the layers' designs at the kept draws (below ~100 raise ``n_layer``,
+    docs/profile.md). ``""`` for the exact path."""
+    if result.method != "mcmc":
+        return ""
+    d = result.diagnostics
+    parts = []
+    ess, coords = d.get("ess") or [], d.get("coordinates") or []
+    if len(ess):
+        k = int(np.argmin(ess))
+        name = f" ({coords[k]})" if k < len(coords) else ""
+        parts.append(f"smallest chain ESS {float(ess[k]):.0f}{name}")
+    lay = d.get("layer_ess_min")
+    if lay:
+        k = int(np.argmin(lay))
+        flag = " (below ~100: raise n_layer)" if lay[k] < 100 else ""
+        parts.append(f"smallest layer importance ESS {float(lay[k]):.0f} "
+                     f"({result.profile.names[k]}){flag}")
+    rule = ("the sampler's stopping rule: a run of many autocorrelation times, stable tau, "
+            "ESS >= min_ess")
+    return (f"converged: {'yes' if d.get('converged') else 'NO'} ({rule}; "
+            + "; ".join(parts) + ")")
+
+
+def misfit_title_line(result) -> str:
+    """A figure-title line naming the misfitting layers (``""`` when every layer fits)."""
+    from ..inference.trust import misfit_details
+
+    checks = result.predictive_check
+    bad = result.misfit_layers
+    if not bad:
+        return ""
+    return "DATA MISFIT: " + "; ".join(f"{n}: {misfit_details(checks[n])}" for n in bad)
 
 
 def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=None):
@@ -176,8 +269,10 @@ def profile_figure(result, *, geotherm=None, solidus=None, serpentine=None, fig=
             a.axhline(z, color="0.85", lw=0.5, zorder=0)
     axes[0].set_ylim(bots[-1], 0.0)
     method = {"exact": "exact path", "mcmc": "MCMC"}.get(result.method, result.method)
-    fig.suptitle(f"{prof.name}\n{prof.thermal.label()} ({method})", fontsize=9.5)
+    bad = misfit_title_line(result)  # in the title, where a reader looks first
+    fig.suptitle(f"{prof.name}\n{prof.thermal.label()} ({method})" + (f"\n{bad}" if bad else ""),
+                 fontsize=9.5, color="#b00000" if bad else None)
     # room for the interpretation legend below the panels (about 0.2 in per row of entries)
-    fig.subplots_adjust(left=0.05, right=0.99, top=0.88,
+    fig.subplots_adjust(left=0.05, right=0.99, top=0.85 if bad else 0.88,
                         bottom=min(0.45, (0.75 + 0.2 * n_rows) / fig.get_figheight()))
     return fig

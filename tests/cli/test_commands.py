@@ -140,7 +140,8 @@ def test_chart_table(small_study, tmp_path):
                "--points", "4", "-q"])
     assert rc == 0
     t = pd.read_csv(out / "chart.csv")
-    assert list(t.columns) == ["thermal_prior", "vp", "hypothesis", "probability", "mcse"]
+    assert list(t.columns) == ["thermal_prior", "vp", "hypothesis", "probability", "mcse",
+                               "ppc_p_value", "data_fit"]
     assert len(t) == 2 * 4 * 3
     assert np.allclose(t.groupby(["thermal_prior", "vp"])["probability"].sum(), 1, atol=SUM_TOL)
     assert (out / "chart.png").is_file() and (out / "chart.pdf").is_file()

@@ -219,10 +219,15 @@ def test_law_of_total_probability_with_reruns():
 
 
 def test_no_reruns_keeps_values_and_warns():
-    with pytest.warns(DegeneracyWarning, match="max_reruns is 0"):
+    with pytest.warns(DegeneracyWarning) as rec:
         pp = plan_profile(_two_layer(), seed=21, n_simulations=200, n_layer=2**11,
                           n_thermal=16, states_per_thermal=4, max_reruns=0,
                           candidates=[("heat_flow", 5.0)])
+    msgs = [str(w.message) for w in rec]
+    assert any("max_reruns is 0" in m for m in msgs)
+    # 16 thermal points cannot hold 50 effective states: today's design is flagged too
+    assert any("today's importance effective size below min_ess" in m and "thermal design"
+               in m for m in msgs)
     t = pp.table
     assert int(t["degenerate"].max()) > 0
     assert np.all(t["reruns"] == 0)

@@ -28,4 +28,7 @@ def test_joint_layer_prediction_equals_layer_model_with_crack_closure():
     ok = np.isfinite(q["vp"])
     assert ok.sum() > 300
     for key in ("vp", "vs", "density"):
-        np.testing.assert_array_equal(q[key][ok], ref[key][ok])
+        # the joint scheme calls the forward model by keywords, predict() by its flat rows:
+        # without numba the two numpy paths may round differently in the last bit (seen: 7 of
+        # 356 Vs values, 2e-16 relative), far below the 0.16 km/s this test guards against
+        np.testing.assert_allclose(q[key][ok], ref[key][ok], rtol=1e-12, atol=0)
