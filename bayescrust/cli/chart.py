@@ -173,7 +173,7 @@ def do_chart(args, study, dest: Path, *, layer_name, method, figures: bool):
     vp_obs = layer.observations["vp"].value
     lines = [f"# {study.title}: probability chart for {layer.name!r}", "",
              *_misfit_lines(ranges, vp_obs),
-             caution_text(assumptions(study, layer)),
+             caution_text(assumptions(study, layer, thermal=thermal_set(study))),
              "`chart.csv` holds, for each thermal-state prior and each observed Vp (other "
              "observations and errors as in the study file), the posterior probability of each "
              "interpretation, its Monte Carlo standard error, and the posterior-predictive check "

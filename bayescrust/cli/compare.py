@@ -91,7 +91,7 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
              "thermal_priors_compared": [t.name for t in thermals]}
     write_text(dest / "run.toml", run_toml(study, extra))
     lines = [f"# {study.title}: thermal-state priors compared", "",
-             caution_text(assumptions(study)),
+             caution_text(assumptions(study, thermal=thermals)),
              "Each interpretation's posterior probability under each thermal-state prior, and "
              "each prior's evidence. A higher evidence means the data are better predicted "
              "under that thermal state; with equal prior odds on the thermal states, "

@@ -26,7 +26,9 @@ def assumptions(study, layer=None, thermal=None) -> dict:
         pri = study.priors_for(layer)
         a["priors"] = "; ".join(f"{k}: {prior_dict(v)}" for k, v in pri.items()) or "defaults"
     th = thermal if thermal is not None else (study.thermal_for(layer) if layer else None)
-    if th is not None:
+    if isinstance(th, (list, tuple)):  # a command that runs several (chart, compare)
+        a["thermal-state priors"] = ", ".join(f"{t.name} ({t.kind})" for t in th)
+    elif th is not None:
         a["thermal-state prior"] = f"{th.name} ({th.kind})"
     a["interpretations"] = "as named in the study file (or the package defaults)"
     return a

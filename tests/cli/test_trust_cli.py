@@ -254,3 +254,17 @@ def test_library_log_lines_become_collected_warnings(capsys):
     assert err.count("bayescrust: warning: figures of layer 'x': ") == 2
     assert any("Too few points" in m for m in w.messages)
     assert logging.getLogger().handlers == before  # the loggers are given back as they were
+
+
+def test_assumptions_of_a_chart_name_every_thermal_prior_it_uses():
+    # the chart runs every thermal-state prior but its report named only the layer's own
+    from importlib import resources
+
+    from bayescrust.cli.layers import assumptions, thermal_set
+    from bayescrust.config import load_study
+
+    path = resources.files("bayescrust") / "demo" / "one_layer.toml"
+    with resources.as_file(path) as p:
+        study = load_study(p)
+    a = assumptions(study, study.layers[0], thermal=thermal_set(study))
+    assert all(t.name in a["thermal-state priors"] for t in thermal_set(study))
