@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .levels import MANTLE_KEY, level_design, node_rng, plan_levels
+from .levels import MANTLE_KEY, level_design, node_rng, plan_levels, zone_hypotheses
 from .store import Store
 from .weigh import (
     STAT_QUANTITIES,
@@ -73,9 +73,7 @@ class GridRun:
 
 
 def _hyps_of_zone(zone):
-    from ..inference.hypotheses import default_hypotheses
-
-    h = dict(zone.hypotheses) if zone.hypotheses is not None else default_hypotheses(zone.rocks)
+    h = zone_hypotheses(zone)  # the names every level design of the zone uses
     h[MANTLE_KEY] = {"ultramafic_fraction": (0.5, 1.0)}
     return h
 

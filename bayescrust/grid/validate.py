@@ -42,7 +42,7 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
     from ..inference.api import exact_layer, invert_layer
     from ..inference.layer import Layer
     from .ages import node_priors
-    from .levels import plan_levels
+    from .levels import plan_levels, zone_hypotheses
     from .output import variable_name
 
     if grid.n_ensemble > 1:
@@ -66,11 +66,12 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
         top = max(0.0, lev.depth_km - 1e-3)
         layer = Layer(f"node {i}", top_km=top, bottom_km=top + 2e-3,
                       water_depth_km=min(lev.water_depth_km, 11.0), **obs)
+        hyps = zone_hypotheses(zone)  # the map's interpretations at every level of the zone
         t0 = time.perf_counter()
-        res = fn(layer, rocks=zone.rocks, priors=priors, hypotheses=zone.hypotheses,
+        res = fn(layer, rocks=zone.rocks, priors=priors, hypotheses=hyps,
                  seed=int(np.random.SeedSequence(seed, spawn_key=(int(i),)).generate_state(1)[0]),
                  evidence=False, **opts) if method == "mcmc" else fn(
-            layer, rocks=zone.rocks, priors=priors, hypotheses=zone.hypotheses,
+            layer, rocks=zone.rocks, priors=priors, hypotheses=hyps,
             seed=int(i), **opts)
         dt = time.perf_counter() - t0
         flat = {d: int(k) for d, k in zip(ds["quality"].dims,
