@@ -33,7 +33,9 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
     -------
     pandas.DataFrame
         ``node, hypothesis, p_map, mcse_map, p_node, mcse_node, difference, z`` (z: the
-        difference over the combined standard error), plus ``time_s`` per node inversion.
+        difference over the combined standard error), plus ``time_s`` per node inversion and
+        the node's map ``quality`` (flag name) and data fit ``fit_p``: a misfit node's
+        probabilities agree or not under a model that does not fit its data.
     """
     import time
 
@@ -44,6 +46,7 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
     from .ages import node_priors
     from .levels import plan_levels, zone_hypotheses
     from .output import variable_name
+    from .run import QUALITY_FLAGS
 
     if grid.n_ensemble > 1:
         raise ValueError("validation by per-node inversion needs a grid without an ensemble")
@@ -55,6 +58,7 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
     rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(2**41,)))
     pick = np.sort(rng.choice(cand, size=min(int(n_nodes), cand.size), replace=False))
     fn = invert_layer if method == "mcmc" else exact_layer
+    flag_name = {v: k for k, v in QUALITY_FLAGS.items()}
     opts = dict(sampler)
     rows = []
     for i in pick:
@@ -76,6 +80,8 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
         dt = time.perf_counter() - t0
         flat = {d: int(k) for d, k in zip(ds["quality"].dims,
                                           np.unravel_index(int(i), grid.shape), strict=True)}
+        qname = flag_name.get(int(ds["quality"].isel(flat)), "?")
+        fit_p = float(ds["fit_p"].isel(flat)) if "fit_p" in ds else np.nan
         for h, row in res.hypotheses.iterrows():
             name = variable_name(str(h))
             if name not in ds:
@@ -86,7 +92,8 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
             se = float(np.hypot(sm, sn))
             rows.append({"node": int(i), "hypothesis": str(h), "p_map": pm, "mcse_map": sm,
                          "p_node": pn, "mcse_node": sn, "difference": pm - pn,
-                         "z": (pm - pn) / se if se > 0 else 0.0, "time_s": dt})
+                         "z": (pm - pn) / se if se > 0 else 0.0, "time_s": dt,
+                         "quality": qname, "fit_p": fit_p})
     return pd.DataFrame(rows)
 
 

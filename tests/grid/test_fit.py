@@ -1,0 +1,109 @@
+"""The per-node data fit of a map: nodes whose data the model cannot produce are flagged misfit.
+
+References: the single-layer path's posterior-predictive check (bayescrust.exact_layer's
+``predictive_check``, inference/trust.py, Gelman, Meng & Stern 1996; its threshold PPC_ALPHA =
+0.01 is ``common practice``) run on the same node, and the forward model itself (a Vp it
+produces for the zone's rock must fit; a Vp above anything it produces for that rock must not).
+Before this check a node at Vp 9.5 km/s in a gabbro zone was flagged "good" with
+P(cold gabbro) = 1 and a predicted Vp of ~7.1 km/s.
+"""
+
+import contextlib
+import warnings
+
+import numpy as np
+import pytest
+import xarray as xr
+
+from bayescrust import Layer, exact_layer
+from bayescrust.grid import QUALITY_FLAGS, GridMapping, Zone, grid_from_dataset, map_grid
+from bayescrust.inference.trust import PPC_ALPHA, MisfitWarning
+
+GABBRO = Zone("gabbro", 1.5, 20.0, rocks=("gabbro",))
+WATER_KM, DEPTH_KM = 3.0, 4.25             # node depth below the seafloor
+
+
+def _gabbro_vp(temperature_c, pressure_gpa):
+    from bayescrust import ForwardModel
+
+    vp, _, _ = ForwardModel(rocks=("gabbro",))(np.ones((1, 1)), np.array([temperature_c]),
+                                               np.array([pressure_gpa]))
+    return float(np.ravel(vp)[0])
+
+
+def _nodes(vps, vss=None, depth_km=DEPTH_KM):
+    """One column of nodes 0.5 km apart from ``depth_km`` below the seafloor."""
+    z = WATER_KM + depth_km + 0.5 * np.arange(len(vps))
+    data = {"vp": (("x", "z"), [list(vps)])}
+    obs = {"vp": 0.1}
+    if vss is not None:
+        data["vs"] = (("x", "z"), [list(vss)])
+        obs["vs"] = 0.08
+    ds = xr.Dataset(data, coords={"x": [0.0], "z": z})
+    return grid_from_dataset(ds, GridMapping(variables={k: k for k in obs}, sigmas=obs,
+                                             depth="z", seafloor=WATER_KM))
+
+
+def test_a_node_at_vp_9_5_in_gabbro_is_misfit_and_a_node_the_model_makes_is_not():
+    from bayescrust.physics.thermal import lithostatic_pressure_gpa
+
+    p = float(lithostatic_pressure_gpa(DEPTH_KM + 0.5, water_depth_km=WATER_KM))
+    fits = _gabbro_vp(400.0, p)                       # a Vp the model makes at that depth
+    # out of reach: the model's gabbro at 0 deg C and 4 GPa (stiffest corner of its tables)
+    assert _gabbro_vp(0.0, 4.0) < 9.5 - 1.0
+    with pytest.warns(MisfitWarning, match=r"DATA MISFIT at 1 of 2 nodes"):
+        m = map_grid(_nodes([9.5, fits]), [GABBRO], seed=1, n_points=2**12, level_km=0.5,
+                     min_ess=30)
+    q = m.quality.values.ravel()
+    fp, fz = m.fit_p.values.ravel(), m.fit_z.values.ravel()
+    assert q[0] == QUALITY_FLAGS["misfit"] and fp[0] < PPC_ALPHA and fz[0] > 5.0
+    assert q[1] in (QUALITY_FLAGS["good"], QUALITY_FLAGS["refined"])
+    assert fp[1] >= PPC_ALPHA and abs(fz[1]) < 2.6          # ~2.6 sd <=> p = 0.01
+    assert m.attrs["n_misfit"] == 1 and m.attrs["misfit_threshold"] == PPC_ALPHA
+    assert "misfit" in m.quality.attrs["flag_meanings"].split()
+    assert list(m.quality.attrs["flag_values"]) == list(QUALITY_FLAGS.values())
+    assert m.fit_p.attrs["misfit_threshold"] == PPC_ALPHA
+
+
+def test_a_grid_whose_data_the_model_makes_does_not_warn():
+    from bayescrust.physics.thermal import lithostatic_pressure_gpa
+
+    vps = [_gabbro_vp(t, float(lithostatic_pressure_gpa(DEPTH_KM + 0.5 * i,
+                                                             water_depth_km=WATER_KM)))
+           for i, t in enumerate((200.0, 500.0, 800.0))]
+    m = map_grid(_nodes(vps), [GABBRO], seed=1, n_points=2**12, level_km=0.5, min_ess=30)
+    # (warnings are errors in the tests: no MisfitWarning was raised)
+    assert m.attrs["n_misfit"] == 0
+    assert np.all(m.fit_p.values >= PPC_ALPHA)
+
+
+# (Vp, Vs) in km/s: out of reach, far, fits, fits; a pair whose Vp and Vs each fit but whose
+# Vp/Vs does not (the layer check's pair test); a pair that fits
+CASES = [((9.5,), None), ((7.9,), None), ((6.9,), None), ((7.25,), None),
+         ((7.0,), (3.3,)), ((7.0,), (3.9,))]
+
+
+@pytest.mark.parametrize("vp, vs", CASES)
+def test_the_node_check_is_the_layer_predictive_check(vp, vs):
+    """Same standardised residual as the layer path (within Monte Carlo error: both estimate
+    the posterior mean and sd of the prediction by importance weighing of their own designs,
+    ESS >= ~250, so E[m] differs by ~0.15 / sqrt(250) ~ 0.01 km/s, ~0.05 of z at a predictive
+    sd of ~0.2; the pair's z is first order at the posterior means, ~1 % of z), and the same
+    verdict on nodes whose p-value is far from the threshold."""
+    obs = {"vp": (vp[0], 0.1)} if vs is None else {"vp": (vp[0], 0.1), "vs": (vs[0], 0.08)}
+    layer = Layer("node", top_km=DEPTH_KM, bottom_km=DEPTH_KM + 0.1, water_depth_km=WATER_KM,
+                  **obs)
+    with warnings.catch_warnings():  # the layer path warns on its own misfit: read its verdict
+        warnings.simplefilter("ignore", MisfitWarning)
+        ref = exact_layer(layer, rocks=GABBRO.rocks, seed=2, n_points=2**13).predictive_check
+    with pytest.warns(MisfitWarning) if ref["misfit"] else contextlib.nullcontext():
+        m = map_grid(_nodes(vp, vs, depth_km=DEPTH_KM + 0.05), [GABBRO], seed=1,
+                     n_points=2**13, level_km=0.1, min_ess=100)
+    worst = min(ref["observables"].values(), key=lambda v: v["p_value"])
+    fz = float(m.fit_z.values.ravel()[0])
+    assert abs(fz - worst["z"]) < 0.1 + 0.01 * abs(worst["z"]), (fz, worst)
+    assert (int(m.quality.values.ravel()[0]) == QUALITY_FLAGS["misfit"]) == ref["misfit"]
+    if vs is not None and vs[0] == 3.3:  # the pair case: each marginal fits, the ratio not
+        assert ref["observables"]["vp"]["p_value"] > PPC_ALPHA
+        assert ref["observables"]["vs"]["p_value"] > PPC_ALPHA
+        assert ref["misfit"]
