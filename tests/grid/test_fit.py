@@ -107,3 +107,33 @@ def test_the_node_check_is_the_layer_predictive_check(vp, vs):
         assert ref["observables"]["vp"]["p_value"] > PPC_ALPHA
         assert ref["observables"]["vs"]["p_value"] > PPC_ALPHA
         assert ref["misfit"]
+
+
+def test_section_maps_grey_and_hatch_misfit_nodes():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from bayescrust.report.grid_maps import MISFIT_LABEL, section_map
+
+    z = np.arange(0.0, 4.0)
+    q = np.zeros((3, 4), np.int8)
+    q[1, 2] = QUALITY_FLAGS["misfit"]
+    ds = xr.Dataset({"p_mantle": (("x", "z"), np.full((3, 4), 0.5)),
+                     "quality": (("x", "z"), q),
+                     "seafloor_depth": (("x",), np.zeros(3))},
+                    coords={"x": [0.0, 1.0, 2.0], "z": z})
+    fig = section_map(ds, "p_mantle")
+    ax = fig.axes[0]
+    mesh = ax.collections[0]                     # the probability: no colour at the misfit node
+    shown = np.ma.getmaskarray(mesh.get_array()).reshape(4, 3)   # (z, x)
+    assert shown[2, 1] and shown.sum() == 1
+    hatched = [c for c in ax.collections[1:] if c.get_hatch()]
+    assert len(hatched) == 1
+    assert MISFIT_LABEL in [t.get_text() for t in ax.get_legend().get_texts()]
+    plt.close(fig)
+    ds["quality"][:] = 0                         # no misfit: no hatching, no legend entry
+    fig = section_map(ds, "p_mantle")
+    assert not any(c.get_hatch() for c in fig.axes[0].collections)
+    plt.close(fig)
