@@ -12,6 +12,7 @@ import contextlib
 import warnings
 
 import numpy as np
+import pandas as pd
 import pytest
 import xarray as xr
 
@@ -107,6 +108,36 @@ def test_the_node_check_is_the_layer_predictive_check(vp, vs):
         assert ref["observables"]["vp"]["p_value"] > PPC_ALPHA
         assert ref["observables"]["vs"]["p_value"] > PPC_ALPHA
         assert ref["misfit"]
+
+
+def test_map_command_warns_counts_and_cautions_on_misfit_nodes(tmp_path, capsys):
+    from bayescrust.cli import main
+    from bayescrust.report.caution import CAUTION
+
+    rows = ["x,depth,vp"] + [f"{x},{d},{vp}" for x in (0.0, 5.0)
+                             for d, vp in ((4.25, 6.9), (4.75, 6.95), (5.25, 7.0))]
+    rows[-2] = "5.0,4.75,9.5"                          # one node out of the gabbro's reach
+    (tmp_path / "nodes.csv").write_text("\n".join(rows) + "\n")
+    study = tmp_path / "study.toml"
+    study.write_text('title = "misfit"\nseed = 3\n[grid]\nfile = "nodes.csv"\n'
+                     'depth = "depth"\ndepth_reference = "seafloor"\nseafloor = 3.0\n'
+                     'distance = "x"\nvariables = { vp = "vp" }\nsigmas = { vp = 0.1 }\n'
+                     'level_km = 0.5\nn_points = 1024\nmin_ess = 0\n[[grid.zones]]\n'
+                     'name = "gabbro"\ntop_km = 0.0\nbottom_km = 20.0\nrocks = ["gabbro"]\n')
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out)]) == 0
+    err = capsys.readouterr().err
+    assert "bayescrust: warning: map: MisfitWarning: DATA MISFIT at 1 of 6 nodes" in err
+    readme = (out / "README.md").read_text()
+    assert "**Warning: data misfit at 1 of 6 nodes.**" in readme
+    assert CAUTION in readme and "1 data misfit" in readme
+    df = pd.read_csv(out / "column_summary.csv")
+    assert df["n_misfit"].tolist() == [0, 1] and df["n_poor"].tolist() == [0, 0]
+    with xr.open_dataset(out / "map.nc") as ds:
+        i = int(np.flatnonzero(ds["vp_observed"].values == 9.5)[0])
+        assert int(ds.quality.values[i]) == QUALITY_FLAGS["misfit"]
+        assert ds.attrs["n_misfit"] == 1
+    assert (out / "maps" / "map_p_cold_gabbro.png").exists()
 
 
 def test_section_maps_grey_and_hatch_misfit_nodes():
