@@ -195,3 +195,20 @@ def test_section_maps_grey_and_hatch_misfit_nodes():
     fig = section_map(ds, "p_mantle")
     assert not any(c.get_hatch() for c in fig.axes[0].collections)
     plt.close(fig)
+
+
+def test_column_summary_counts_poor_and_misfit_nodes_per_column():
+    """n_poor: nodes below min_ess whatever their flag (a misfit node can be poor too);
+    n_misfit: quality misfit; masked nodes count in neither (the flags' definitions)."""
+    from bayescrust.grid import column_summary
+
+    z = np.arange(0.0, 4.0)
+    q = np.array([[0, 2, 4, 3], [4, 0, 1, 0]], np.int8)
+    ess = np.array([[500.0, 10.0, 5.0, np.nan], [800.0, 400.0, 200.0, 300.0]])
+    ds = xr.Dataset({"p_mantle": (("x", "z"), np.zeros((2, 4))),
+                     "depth_below_seafloor": (("x", "z"), np.tile(z, (2, 1))),
+                     "quality": (("x", "z"), q), "importance_ess": (("x", "z"), ess),
+                     "seafloor_depth": (("x",), np.zeros(2))},
+                    coords={"x": [0.0, 1.0], "z": z}, attrs={"min_ess": 100.0})
+    df = column_summary(ds)
+    assert df["n_poor"].tolist() == [2, 0] and df["n_misfit"].tolist() == [1, 1]
