@@ -16,6 +16,7 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
     """Map ``study`` (a GridStudy) into ``folder``; returns the Dataset. ``source`` (default:
     the path read) is the input's name recorded in ``map.nc``."""
     from ..grid import GridInputError, column_summary, map_grid, read_grid, write_netcdf
+    from ..report.caution import caution_text
 
     warn = Warnings(args)
     try:
@@ -33,22 +34,37 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
     t_map = time.perf_counter() - t0
     if source is not None:
         ds.attrs["source"] = str(source)
+    n_mis = int(ds.attrs["n_misfit"])
     say(args, f"map: {grid.n_nodes} nodes ({ds.attrs['n_masked']} masked), "
               f"{ds.attrs['path_choice']}, {ds.attrs['execution']}, {t_map:.1f} s; "
               f"{ds.attrs['n_refined']} refined, {ds.attrs['n_poor']} below the quality "
-              "threshold")
+              f"threshold, {n_mis} data misfit" + (" -- DATA MISFIT, see README.md"
+                                                   if n_mis else ""))
     write_netcdf(ds, folder / "map.nc")
     summary = column_summary(ds)
     write_text(folder / "column_summary.csv", summary.to_csv(index=False))
-    lines = [f"# Probability map: {study.title or study.source}", "",
-             f"- input: `{study.file.name}`, {grid.n_nodes} nodes, {ds.attrs['n_masked']} masked",
+    lines = [f"# Probability map: {study.title or study.source}", ""]
+    if n_mis:
+        lines += [f"> **Warning: data misfit at {n_mis} of "
+                  f"{grid.n_nodes - int(ds.attrs['n_masked'])} nodes.** The model cannot "
+                  "reproduce the observations there (posterior-predictive tail probability "
+                  f"`fit_p` < {ds.attrs['misfit_threshold']:g}; quality flag `misfit`, hatched "
+                  "on the maps, counted per column in `column_summary.csv`); their "
+                  "probabilities are conditional on a model that does not fit (details under "
+                  "Warnings).", ""]
+    lines += [caution_text(_assumptions(study)), "## This map", "",
+              f"- input: `{study.file.name}`, {grid.n_nodes} nodes, {ds.attrs['n_masked']} masked",
              f"- method: {ds.attrs['method']}; {ds.attrs['path_choice']}",
              f"- execution: {ds.attrs['execution']}, {t_map:.1f} s",
-             f"- quality: {ds.attrs['n_refined']} nodes refined, {ds.attrs['n_poor']} flagged "
-             f"poor (importance ESS < {ds.attrs['min_ess']:g}); see the `quality` variable",
+             f"- quality: {ds.attrs['n_refined']} nodes refined, {ds.attrs['n_poor']} poor "
+             f"(importance ESS < {ds.attrs['min_ess']:g}), {n_mis} data misfit (`fit_p` < "
+             f"{ds.attrs['misfit_threshold']:g}: the model cannot produce the data; the flag "
+             "wins over good / refined / poor); see the `quality`, `importance_ess` and "
+             "`fit_p` variables",
              "- `map.nc`: every probability and posterior summary on the input grid",
              "- `column_summary.csv`: depth below the seafloor where the mantle becomes more "
-             "likely than not (P = 0.5), with the depths of P = 0.25 and 0.75, per column"
+             "likely than not (P = 0.5), with the depths of P = 0.25 and 0.75, and the "
+             "numbers of poor and misfit nodes, per column"
              + (f" (`distance`: the `{ds.attrs['distance']}` coordinate)"
                 if "distance" in ds.attrs else " (one column)")]
     if figures:
@@ -57,7 +73,8 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
 
         (folder / "maps").mkdir(exist_ok=True)
         stems = write_section_maps(ds, folder / "maps", variables=maps, dpi=dpi)
-        lines.append(f"- `maps/`: {len(stems)} section maps (PNG and PDF)")
+        lines.append(f"- `maps/`: {len(stems)} section maps (PNG and PDF)"
+                     + ("; misfit nodes grey and hatched" if n_mis else ""))
     if validate:
         from ..grid import validate_nodes, validation_summary
 
@@ -78,6 +95,23 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
         lines += ["", "## Warnings", ""] + [f"- {m}" for m in warn.messages]
     write_text(folder / "README.md", "\n".join(lines) + "\n")
     return ds
+
+
+def _assumptions(study) -> dict:
+    """The key assumptions of a map, for the caution paragraph (as the layer reports')."""
+    a = {"forward model": "package defaults (Hill mixing, DEM inclusions, lizardite, "
+                          "anelastic correction)",
+         "likelihood": "gaussian (default forward-model error)"}
+    for z in study.zones:
+        pri = z.priors or {}
+        desc = "; ".join(f"{k}: {v.describe() if hasattr(v, 'describe') else v}"
+                         for k, v in pri.items()) or "defaults"
+        a[f"zone {z.name!r}"] = (f"{z.top_km:g}-{z.bottom_km:g} km below the seafloor, rocks "
+                                 f"{', '.join(z.rocks)}; priors: {desc}")
+    a["interpretations"] = "the package defaults of each zone's rocks (docs/grid.md)"
+    a["fast path"] = ("one prior design per depth level, pressure and thermal prior at the "
+                      "level's depth (docs/grid.md, Limitations)")
+    return a
 
 
 def cmd_map(args) -> int:

@@ -19,7 +19,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["Zone", "Level", "plan_levels", "level_design", "node_rng", "MANTLE_KEY"]
+__all__ = ["Zone", "Level", "plan_levels", "level_design", "node_rng", "zone_hypotheses",
+           "MANTLE_KEY"]
 
 #: spawn-key prefix of level designs (node streams use the node index, < 2**40)
 LEVEL_KEY = 2**40
@@ -41,7 +42,7 @@ class Zone:
         As for :func:`bayescrust.exact_layer` (a thermal-state prior under ``temperature_c``
         is evaluated at each level's depth below the seafloor).
     hypotheses : dict, optional
-        Default: :func:`bayescrust.default_hypotheses` of the rocks.
+        Default: :func:`zone_hypotheses` (the same interpretations at every level).
     """
 
     name: str
@@ -136,6 +137,45 @@ def level_layer(level, observables, depth_halfwidth=1e-3):
                  water_depth_km=min(level.water_depth_km, 11.0), **obs)
 
 
+def zone_porosity_max(zone) -> float:
+    """Upper bound of the zone's porosity prior at its shallowest level: its widest.
+
+    Resolved as :meth:`bayescrust.inference.model.LayerModel.build` resolves it (the zone's
+    ``porosity`` prior, else the depth-dependent default of
+    :func:`bayescrust.inference.model.default_priors`). A given prior is the same at every
+    depth and the default only narrows with depth (``Uniform(0, 0.3)`` above 1.5 km below the
+    seafloor, ``Uniform(0, 0.03)`` below), so no level of the zone reaches higher.
+    """
+    from ..inference.model import default_priors
+    from ..inference.priors import as_prior
+
+    given = (zone.priors or {}).get("porosity")
+    if given is None:
+        # the shallowest level's depth: plan_levels clips level depths to >= top_km + 1e-6
+        top = Level(zone=0, key=0, depth_km=zone.top_km + 1e-6, water_depth_km=0.0,
+                    nodes=np.empty(0, int))
+        given = default_priors(level_layer(top, ("vp",)), zone.rocks,
+                               np.zeros(len(zone.rocks), bool))["porosity"]
+    return float(as_prior("porosity", given).bounds[1])
+
+
+def zone_hypotheses(zone) -> dict:
+    """The interpretations of a zone, the same at every one of its levels.
+
+    The zone's own ``hypotheses``, else :func:`bayescrust.default_hypotheses` of its rocks with
+    the porosity bound of :func:`zone_porosity_max`. A basaltic zone reaching from above to
+    below 1.5 km keeps the split into "porous" and "low-porosity" basalt / diabase at every
+    level: where the default porosity prior stops at 0.03 every design point is low-porosity,
+    so "porous" has probability 0 there and "low-porosity" the whole basaltic class (the same
+    boxes, one set of output columns; docs/grid.md).
+    """
+    from ..inference.hypotheses import default_hypotheses
+
+    if zone.hypotheses is not None:
+        return dict(zone.hypotheses)
+    return default_hypotheses(zone.rocks, porosity_max=zone_porosity_max(zone))
+
+
 def level_zone(level, zone):
     """The zone whose priors the level's design is drawn from (the age proposal, if any)."""
     from .ages import zone_for_ages
@@ -146,7 +186,8 @@ def level_zone(level, zone):
 
 
 def level_model(level, zone, observables, options):
-    """``(model, hypotheses)`` of a level: the layer model of the zone at the level's depth.
+    """``(model, hypotheses)`` of a level: the layer model of the zone at the level's depth,
+    with the zone's interpretations (:func:`zone_hypotheses`, not the level's own defaults).
 
     With a crustal age per node the model's temperature prior is the level's proposal
     (:func:`bayescrust.grid.ages.zone_for_ages`).
@@ -155,9 +196,9 @@ def level_model(level, zone, observables, options):
 
     zone = level_zone(level, zone)
     layer = level_layer(level, observables)
-    return _setup(layer, zone.rocks, zone.priors, zone.hypotheses, options.get("model_error"),
-                  options.get("likelihood", "gaussian"), options.get("nu", 4.0),
-                  options.get("forward"))
+    return _setup(layer, zone.rocks, zone.priors, zone_hypotheses(zone),
+                  options.get("model_error"), options.get("likelihood", "gaussian"),
+                  options.get("nu", 4.0), options.get("forward"))
 
 
 def level_design(level, zone, observables, seed, n_points, options):

@@ -7,8 +7,9 @@ Variables (each on the grid's dims; NaN at masked nodes):
 - ``<quantity>_mean``, ``_sd``, ``_hdi_low``, ``_hdi_high`` for temperature, porosity, effective
   melt and serpentinisation, rock-family fractions and predicted Vp, Vs, Vp/Vs and density;
 - ``crustal_age`` (Myr) when the grid has ages (:mod:`bayescrust.grid.ages`);
-- ``importance_ess``, ``table_error``, ``quality`` (flags good / refined / poor / masked),
-  ``zone``, ``depth_below_seafloor``, ``vp_observed`` and the per-column ``seafloor_depth``.
+- ``importance_ess``, ``table_error``, ``quality`` (flags good / refined / poor / masked /
+  misfit), the data fit ``fit_p`` and ``fit_z`` (:mod:`bayescrust.grid.fit`), ``zone``,
+  ``depth_below_seafloor``, ``vp_observed`` and the per-column ``seafloor_depth``.
 """
 
 from __future__ import annotations
@@ -38,6 +39,7 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
     import xarray as xr
 
     from .. import __version__
+    from .fit import PPC_ALPHA
     from .run import QUALITY_FLAGS
 
     shape, dims = grid.shape, grid.dims
@@ -66,7 +68,8 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
         for s, long in _STAT_LONG.items():
             data[f"{q}_{s}"] = (dims, full(f"{q}:{s}"),
                                 {"long_name": f"{long} of {q}", "units": unit})
-    data["importance_ess"] = (dims, full("importance_ess"),
+    ess = full("importance_ess")
+    data["importance_ess"] = (dims, ess,
                               {"long_name": "importance effective sample size (Kish)",
                                "units": "1"})
     data["table_error"] = (dims, full("table_error"),
@@ -79,7 +82,19 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
                        {"long_name": "quality flag of the fast path",
                         "flag_values": np.array(list(QUALITY_FLAGS.values()), np.int8),
                         "flag_meanings": " ".join(QUALITY_FLAGS),
-                        "min_importance_ess": run.min_ess})
+                        "min_importance_ess": run.min_ess,
+                        "misfit_threshold": PPC_ALPHA,
+                        "comment": _QUALITY_COMMENT.format(ess=run.min_ess, alpha=PPC_ALPHA)})
+    data["fit_p"] = (dims, full("fit_p"),
+                     {"long_name": "posterior-predictive tail probability of the data "
+                                   "(two-sided; the smallest over the observables)",
+                      "units": "1", "misfit_threshold": PPC_ALPHA,
+                      "comment": f"quality is misfit where fit_p < {PPC_ALPHA:g} (the "
+                                 "single-layer predictive check's threshold); see docs/grid.md"})
+    data["fit_z"] = (dims, full("fit_z"),
+                     {"long_name": "standardised residual (observed - predicted) / predictive "
+                                   "sd of the observable with the smallest fit_p",
+                      "units": "1"})
     data["zone"] = (dims, zone_of.reshape(shape).astype(np.int8),
                     {"long_name": "depth zone index (-1: none)",
                      "zone_names": ", ".join(z.name for z in zones)})
@@ -123,8 +138,12 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
                                 f"rocks {', '.join(z.rocks)}" for z in zones),
              "n_nodes": n, "n_masked": int(n - order.size), "depth_unit": grid.depth_unit,
              "depth_reference": grid.depth_reference,
+             "observables": ", ".join(grid.values),
              "n_refined": int(np.sum(q == QUALITY_FLAGS["refined"])),
-             "n_poor": int(np.sum(q == QUALITY_FLAGS["poor"]))}
+             # below min_ess, whatever the flag (a misfit node's flag is misfit)
+             "n_poor": int(np.sum(~(ess.ravel() >= run.min_ess) & (q != QUALITY_FLAGS["masked"]))),
+             "n_misfit": int(np.sum(q == QUALITY_FLAGS["misfit"])),
+             "misfit_threshold": PPC_ALPHA}
     if dims == ("node",) or grid.distance_name in other:  # none on a single column
         attrs["distance"] = "x" if dims == ("node",) else grid.distance_name
     return xr.Dataset(data, coords=coords, attrs=attrs)
@@ -142,7 +161,12 @@ def write_netcdf(ds, path):
     return p
 
 
-_SUMMARY_COLUMNS = ("distance", "n_nodes", "mantle_depth_km", "depth_p25_km", "depth_p75_km")
+_SUMMARY_COLUMNS = ("distance", "n_nodes", "mantle_depth_km", "depth_p25_km", "depth_p75_km",
+                    "n_poor", "n_misfit")
+_QUALITY_COMMENT = (
+    "good: importance ESS >= {ess:g}; refined: below it, brought above by the adaptive second "
+    "stage; poor: still below; masked: no data or outside every zone; misfit: the data are "
+    "outside what the model can produce (fit_p < {alpha:g}), whatever the ESS")
 
 
 def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
@@ -150,6 +174,9 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
 
     The crossing is interpolated linearly between levels; ``depth_p25`` and ``depth_p75`` are
     the depths where P(mantle) first exceeds 0.25 and 0.75 (the transition's uncertainty).
+    ``n_poor`` counts the column's nodes below the map's ``min_ess`` (misfit or not) and
+    ``n_misfit`` those whose data the model cannot produce (quality ``misfit``): a crossing
+    next to misfit nodes rests on probabilities conditional on a model that does not fit.
     ``distance`` is the column's distance coordinate (default the map's ``distance``
     attribute, the grid's ``distance`` setting; NaN on a single-column grid); the other
     horizontal coordinates of a 3-D grid follow, one column each, named by their dim, so every
@@ -161,14 +188,24 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
     """
     import pandas as pd
 
+    from .run import QUALITY_FLAGS
+
     p = ds["p_mantle"]
     z = ds[depth_var]
     dims = p.dims
+    flags = None  # per node: bit 1 poor (below min_ess), bit 2 misfit (masked nodes 0)
+    if "quality" in ds and "importance_ess" in ds:  # a map (not a bare P(mantle) field)
+        qual = ds["quality"]
+        min_ess = float(ds.attrs.get("min_ess", qual.attrs.get("min_importance_ess", 0.0)))
+        valid = qual != QUALITY_FLAGS["masked"]
+        flags = ((~(ds["importance_ess"] >= min_ess) & valid).astype(np.int8)
+                 + 2 * (qual == QUALITY_FLAGS["misfit"]).astype(np.int8))
     extra = {}
     if dims == ("node",):
         col = ds["x"].values if "x" in ds else np.zeros(p.size)
         groups = [(float(x), np.flatnonzero(col == x)) for x in np.unique(col)]
         pz = [(p.values[i], z.values[i]) for _, i in groups]
+        fl = [None if flags is None else flags.values[i] for _, i in groups]
         names = [g[0] for g in groups]
     else:
         depth_dim = next(d for d in dims if d not in ds["seafloor_depth"].dims) \
@@ -177,6 +214,8 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
         pt = p.transpose(*other, depth_dim).values.reshape(-1, p.sizes[depth_dim])
         zt = z.transpose(*other, depth_dim).values.reshape(-1, p.sizes[depth_dim])
         pz = list(zip(pt, zt, strict=True))
+        fl = [None] * len(pz) if flags is None else list(
+            flags.transpose(*other, depth_dim).values.reshape(-1, p.sizes[depth_dim]))
         if not other:  # a single column (depth dim only): no horizontal position
             names = [np.nan]
         else:
@@ -190,16 +229,19 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
             extra = {(f"{d}_coordinate" if d in _SUMMARY_COLUMNS else d): np.asarray(m).ravel()
                      .tolist() for d, m in zip(other, mesh, strict=True) if d != dn}
     rows = []
-    for i, (name, (pp, zz)) in enumerate(zip(names, pz, strict=True)):
+    for i, (name, (pp, zz), ff) in enumerate(zip(names, pz, fl, strict=True)):
         ok = np.isfinite(pp) & np.isfinite(zz)
         pp, zz = pp[ok], zz[ok]
         o = np.argsort(zz)
         pp, zz = pp[o], zz[o]
-        rows.append({"distance": name, **{d: v[i] for d, v in extra.items()},
-                     "n_nodes": int(ok.sum()),
-                     "mantle_depth_km": _crossing(zz, pp, 0.5),
-                     "depth_p25_km": _crossing(zz, pp, 0.25),
-                     "depth_p75_km": _crossing(zz, pp, 0.75)})
+        row = {"distance": name, **{d: v[i] for d, v in extra.items()},
+               "n_nodes": int(ok.sum()),
+               "mantle_depth_km": _crossing(zz, pp, 0.5),
+               "depth_p25_km": _crossing(zz, pp, 0.25),
+               "depth_p75_km": _crossing(zz, pp, 0.75)}
+        if ff is not None:
+            row.update(n_poor=int(np.sum(ff & 1 > 0)), n_misfit=int(np.sum(ff & 2 > 0)))
+        rows.append(row)
     return pd.DataFrame(rows)
 
 

@@ -18,7 +18,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .levels import MANTLE_KEY, level_design, node_rng, plan_levels
+from .fit import FIT_KEYS, is_misfit, node_fit
+from .levels import MANTLE_KEY, level_design, node_rng, plan_levels, zone_hypotheses
 from .store import Store
 from .weigh import (
     STAT_QUANTITIES,
@@ -33,8 +34,10 @@ from .weigh import (
 
 __all__ = ["map_grid", "GridRun", "QUALITY_FLAGS", "result_keys"]
 
-#: quality flag values (CF ``flag_values`` / ``flag_meanings``)
-QUALITY_FLAGS = {"good": 0, "refined": 1, "poor": 2, "masked": 3}
+#: quality flag values (CF ``flag_values`` / ``flag_meanings``); ``misfit`` (the data are
+#: outside what the model can produce, :mod:`bayescrust.grid.fit`) wins over good / refined /
+#: poor: no importance ESS makes such a node's probabilities usable
+QUALITY_FLAGS = {"good": 0, "refined": 1, "poor": 2, "masked": 3, "misfit": 4}
 #: sub-second grids stay in-process even when workers are asked for (nodes x design points)
 _IN_PROCESS_WORK = 2e8
 
@@ -73,9 +76,7 @@ class GridRun:
 
 
 def _hyps_of_zone(zone):
-    from ..inference.hypotheses import default_hypotheses
-
-    h = dict(zone.hypotheses) if zone.hypotheses is not None else default_hypotheses(zone.rocks)
+    h = zone_hypotheses(zone)  # the names every level design of the zone uses
     h[MANTLE_KEY] = {"ultramafic_fraction": (0.5, 1.0)}
     return h
 
@@ -87,7 +88,7 @@ def result_keys(zones):
         for h in _hyps_of_zone(z):
             if h not in names:
                 names.append(h)
-    keys = ["importance_ess", "table_error", "quality"]
+    keys = ["importance_ess", "table_error", "quality", *FIT_KEYS]
     keys += [f"p:{h}" for h in names] + [f"mcse:{h}" for h in names]
     for q in STAT_QUANTITIES:
         keys += [f"{q}:{s}" for s in ("mean", "sd", "hdi_low", "hdi_high")]
@@ -235,6 +236,12 @@ def run_chunk(task):
             for k, v in ref.items():
                 out[k][a + i] = v[0]
         out["table_error"][a:b] = terr
+        # the data fit, from the final (interpolated, direct or refined) summaries
+        fit_p, fit_z = node_fit(model, {k: out[k][a:b] for k in out if k.endswith(
+            (":mean", ":sd"))}, values, sigmas)
+        out["fit_p"][a:b] = fit_p
+        out["fit_z"][a:b] = fit_z
+        quality[is_misfit(fit_p)] = QUALITY_FLAGS["misfit"]
         out["quality"][a:b] = quality
     return task["index"], out2
 
@@ -312,6 +319,7 @@ def _fingerprint(grid, zones, run):
     h.update(grid.fingerprint().encode())
     h.update(repr([repr(z) for z in zones]).encode())
     h.update(repr(run).encode())
+    h.update(repr(result_keys(zones)[0]).encode())  # the stored results themselves
     return h.hexdigest()[:16]
 
 
@@ -365,6 +373,12 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     -------
     xarray.Dataset
         On the input's grid (see :func:`bayescrust.grid.output.build_dataset`).
+
+    Warns
+    -----
+    MisfitWarning
+        When any node's data are outside what the model can produce (quality ``misfit``,
+        ``fit_p`` below the layer check's ``PPC_ALPHA``; :mod:`bayescrust.grid.fit`).
     """
     from .output import build_dataset
 
@@ -432,7 +446,14 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
     info = {"placed": placed, "levels": specs, "mode": mode, "n_chunks": n_chunks,
             "n_chunks_computed": len(todo), "fingerprint": fp,
             "wall_time_s": time.perf_counter() - t0}
-    return build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info)
+    ds = build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info)
+    if ds.attrs["n_misfit"]:
+        import warnings
+
+        from .fit import MisfitWarning, misfit_summary
+
+        warnings.warn(misfit_summary(ds), MisfitWarning, stacklevel=2)
+    return ds
 
 
 def _todo_nodes(todo, cs, n):

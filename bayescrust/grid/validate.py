@@ -33,7 +33,9 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
     -------
     pandas.DataFrame
         ``node, hypothesis, p_map, mcse_map, p_node, mcse_node, difference, z`` (z: the
-        difference over the combined standard error), plus ``time_s`` per node inversion.
+        difference over the combined standard error), plus ``time_s`` per node inversion and
+        the node's map ``quality`` (flag name) and data fit ``fit_p``: a misfit node's
+        probabilities agree or not under a model that does not fit its data.
     """
     import time
 
@@ -42,8 +44,9 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
     from ..inference.api import exact_layer, invert_layer
     from ..inference.layer import Layer
     from .ages import node_priors
-    from .levels import plan_levels
+    from .levels import plan_levels, zone_hypotheses
     from .output import variable_name
+    from .run import QUALITY_FLAGS
 
     if grid.n_ensemble > 1:
         raise ValueError("validation by per-node inversion needs a grid without an ensemble")
@@ -55,6 +58,7 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
     rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(2**41,)))
     pick = np.sort(rng.choice(cand, size=min(int(n_nodes), cand.size), replace=False))
     fn = invert_layer if method == "mcmc" else exact_layer
+    flag_name = {v: k for k, v in QUALITY_FLAGS.items()}
     opts = dict(sampler)
     rows = []
     for i in pick:
@@ -66,15 +70,18 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
         top = max(0.0, lev.depth_km - 1e-3)
         layer = Layer(f"node {i}", top_km=top, bottom_km=top + 2e-3,
                       water_depth_km=min(lev.water_depth_km, 11.0), **obs)
+        hyps = zone_hypotheses(zone)  # the map's interpretations at every level of the zone
         t0 = time.perf_counter()
-        res = fn(layer, rocks=zone.rocks, priors=priors, hypotheses=zone.hypotheses,
+        res = fn(layer, rocks=zone.rocks, priors=priors, hypotheses=hyps,
                  seed=int(np.random.SeedSequence(seed, spawn_key=(int(i),)).generate_state(1)[0]),
                  evidence=False, **opts) if method == "mcmc" else fn(
-            layer, rocks=zone.rocks, priors=priors, hypotheses=zone.hypotheses,
+            layer, rocks=zone.rocks, priors=priors, hypotheses=hyps,
             seed=int(i), **opts)
         dt = time.perf_counter() - t0
         flat = {d: int(k) for d, k in zip(ds["quality"].dims,
                                           np.unravel_index(int(i), grid.shape), strict=True)}
+        qname = flag_name.get(int(ds["quality"].isel(flat)), "?")
+        fit_p = float(ds["fit_p"].isel(flat)) if "fit_p" in ds else np.nan
         for h, row in res.hypotheses.iterrows():
             name = variable_name(str(h))
             if name not in ds:
@@ -85,7 +92,8 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
             se = float(np.hypot(sm, sn))
             rows.append({"node": int(i), "hypothesis": str(h), "p_map": pm, "mcse_map": sm,
                          "p_node": pn, "mcse_node": sn, "difference": pm - pn,
-                         "z": (pm - pn) / se if se > 0 else 0.0, "time_s": dt})
+                         "z": (pm - pn) / se if se > 0 else 0.0, "time_s": dt,
+                         "quality": qname, "fit_p": fit_p})
     return pd.DataFrame(rows)
 
 

@@ -1,7 +1,9 @@
 """Section maps of a probability map (one figure per interpretation; PNG and PDF).
 
 Each map shows the probability on a perceptually uniform colour map (viridis, 0-1, with a colour
-bar in probability), masked nodes in grey, the seafloor, and a contour of the observed Vp. 3-D
+bar in probability), masked nodes in grey, nodes whose data the model cannot fit (quality
+``misfit``) in a darker grey, hatched (their probabilities are not shown in colour: they are
+conditional on a model that does not fit), the seafloor, and a contour of the observed Vp. 3-D
 grids are mapped on the section along their distance dim (the grid's ``distance`` setting,
 default the first horizontal dim) through the middle of the other; single columns as a
 profile of probability against depth; node lists (CSV) as coloured nodes.
@@ -12,6 +14,37 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["section_map", "write_section_maps"]
+
+#: how misfit nodes are drawn (face colour, hatch, edge colour of the hatch)
+MISFIT_STYLE = {"facecolor": "0.55", "hatch": "xxxx", "edgecolor": "0.2"}
+MISFIT_LABEL = "data misfit (model cannot fit)"
+
+
+def _misfit(ds, var, distance=None):
+    """Boolean section of the misfit nodes, aligned with ``_section(ds, var)``'s (None if the
+    map has no quality flag or no misfit node)."""
+    if "quality" not in ds:
+        return None
+    from ..grid.run import QUALITY_FLAGS
+
+    q = _section(ds, "quality", distance)[0]
+    m = q == QUALITY_FLAGS["misfit"]
+    return m if bool(m.any()) else None
+
+
+def _edges(c):
+    """Cell edges of nodes at centres ``c`` (as shading="nearest" draws them)."""
+    c = np.asarray(c, float)
+    if c.size == 1:
+        return np.array([c[0] - 0.5, c[0] + 0.5])
+    mid = 0.5 * (c[1:] + c[:-1])
+    return np.concatenate([[2 * c[0] - mid[0]], mid, [2 * c[-1] - mid[-1]]])
+
+
+def _misfit_handle():
+    from matplotlib.patches import Patch
+
+    return Patch(label=MISFIT_LABEL, **MISFIT_STYLE)
 
 
 def _section(ds, var, distance=None):
@@ -39,6 +72,10 @@ def section_map(ds, var, *, contour_vp=7.5, title=None, distance=None):
     import matplotlib.pyplot as plt
 
     da, depth_dim, dist_dim = _section(ds, var, distance)
+    mis = _misfit(ds, var, distance)
+    if mis is not None:  # no colour for a probability conditional on a model that misfits
+        da = da.where(~mis.values)
+    handles = []
     fig, ax = plt.subplots(figsize=(7.0, 3.6), constrained_layout=True)
     cmap = plt.get_cmap("viridis").with_extremes(bad="0.8")
     if depth_dim is None:  # node list
@@ -47,12 +84,23 @@ def section_map(ds, var, *, contour_vp=7.5, title=None, distance=None):
         ax.scatter(x, z, c="0.8", s=12)
         im = ax.scatter(x, z, c=np.ma.masked_invalid(da.values), cmap=cmap, vmin=0, vmax=1,
                         s=16)
+        if mis is not None:
+            m = mis.values
+            handles.append(ax.scatter(x[m], z[m], s=30, marker="X", c=MISFIT_STYLE["facecolor"],
+                                      edgecolors=MISFIT_STYLE["edgecolor"], linewidths=0.6,
+                                      label=MISFIT_LABEL))
         ax.set_xlabel("distance")
     elif dist_dim is None:  # a single column: probability against depth
         z, pv = da[depth_dim].values, da.values
-        ok = np.isfinite(pv)  # masked nodes are left out
+        ok = np.isfinite(pv)  # masked (and misfit) nodes are left out of the profile
         ax.plot(pv[ok], z[ok], color="0.3", lw=1.0)
         im = ax.scatter(pv[ok], z[ok], c=pv[ok], cmap=cmap, vmin=0, vmax=1, s=16)
+        if mis is not None:  # their depths, marked at the left edge
+            m = mis.values
+            handles.append(ax.scatter(np.full(int(m.sum()), -0.01), z[m], s=30, marker="X",
+                                      c=MISFIT_STYLE["facecolor"],
+                                      edgecolors=MISFIT_STYLE["edgecolor"], linewidths=0.6,
+                                      label=MISFIT_LABEL, clip_on=False))
         ax.set_xlim(-0.02, 1.02)
         ax.set_xlabel("probability")
         ax.set_ylabel(f"{depth_dim} (km)")
@@ -62,6 +110,15 @@ def section_map(ds, var, *, contour_vp=7.5, title=None, distance=None):
         x, z = a[dist_dim].values, a[depth_dim].values
         im = ax.pcolormesh(x, z, np.ma.masked_invalid(a.values), cmap=cmap, vmin=0, vmax=1,
                            shading="nearest", rasterized=True)
+        if mis is not None:  # the misfit cells, grey and hatched, over the map
+            mm = mis.transpose(depth_dim, dist_dim).values
+            from matplotlib.colors import ListedColormap
+
+            ax.pcolor(_edges(x), _edges(z), np.ma.masked_where(~mm, np.ones(mm.shape)),
+                      cmap=ListedColormap([MISFIT_STYLE["facecolor"]]),
+                      hatch=MISFIT_STYLE["hatch"], edgecolor=MISFIT_STYLE["edgecolor"],
+                      linewidth=0.0)
+            handles.append(_misfit_handle())
         obs = [v for v in ds.data_vars if v.endswith("_observed")]
         if obs and contour_vp is not None and obs[0] == "vp_observed":
             vp = _section(ds, obs[0], dist_dim)[0].transpose(depth_dim, dist_dim).values
@@ -73,12 +130,13 @@ def section_map(ds, var, *, contour_vp=7.5, title=None, distance=None):
             sf = sf.isel({d: sf.sizes[d] // 2 for d in sf.dims if d != dist_dim})
             if ds.attrs.get("depth_reference") == "sea_level":
                 scale = 1000.0 if ds.attrs.get("depth_unit") == "m" else 1.0
-                ax.plot(sf[dist_dim].values, sf.values * scale, color="black", lw=1.5,
-                        label="seafloor")
-                ax.legend(loc="lower right", fontsize=7)
+                handles += ax.plot(sf[dist_dim].values, sf.values * scale, color="black",
+                                   lw=1.5, label="seafloor")
         ax.set_xlabel(f"{dist_dim}")
         ax.set_ylabel(f"{depth_dim} (km)")
         ax.invert_yaxis()
+    if handles:
+        ax.legend(handles=handles, loc="lower right", fontsize=7)
     fig.colorbar(im, ax=ax, label="probability")
     ax.set_title(title or ds[var].attrs.get("long_name", var), fontsize=9)
     return fig

@@ -213,6 +213,9 @@ def test_map_command_with_age_from_distance(tmp_path, section):
     ds.close()
 
 
+# a half-space geotherm makes the invented section's Vp ~8 km/s mantle too hot to fit: those
+# nodes are flagged misfit (and warned about) by design
+@pytest.mark.filterwarnings("ignore::bayescrust.inference.trust.MisfitWarning")
 def test_ages_do_not_make_results_depend_on_chunking(section):
     """Per-node prior ratios are computed per node: chunking changes nothing (float32 BLAS
     rounding aside, as in test_fastpath.test_chunking_does_not_change_results)."""
@@ -223,4 +226,7 @@ def test_ages_do_not_make_results_depend_on_chunking(section):
     b = map_grid(g, [HS_ZONE], chunk_size=100_000, **kw)
     assert a.attrs["n_chunks"] > 1 and a.attrs["n_levels_batched"] > 0
     for v in a.data_vars:
-        np.testing.assert_allclose(a[v].values, b[v].values, rtol=2e-4, atol=1e-6, err_msg=v)
+        # fit_z, fit_p: (observed - predicted mean) / predictive sd (~0.1-0.2 km/s); the mean's
+        # float32 rounding (~1e-6 of ~7 km/s) is ~5e-5 of z, and of p (|dp/dz| <= 0.8)
+        atol = 1e-4 if v.startswith("fit_") else 1e-6
+        np.testing.assert_allclose(a[v].values, b[v].values, rtol=2e-4, atol=atol, err_msg=v)

@@ -59,7 +59,10 @@ def test_chunking_does_not_change_results(section):
     assert a.attrs["n_chunks"] > 1 and b.attrs["n_chunks"] == 1
     assert a.attrs["n_refined"] + a.attrs["n_poor"] > 0  # the node streams are exercised
     for v in a.data_vars:
-        np.testing.assert_allclose(a[v].values, b[v].values, rtol=2e-4, atol=1e-6, err_msg=v)
+        # fit_z, fit_p: (observed - predicted mean) / predictive sd (~0.1-0.2 km/s); the mean's
+        # float32 rounding (~1e-6 of ~7 km/s) is ~5e-5 of z, and of p (|dp/dz| <= 0.8)
+        atol = 1e-4 if v.startswith("fit_") else 1e-6
+        np.testing.assert_allclose(a[v].values, b[v].values, rtol=2e-4, atol=atol, err_msg=v)
     np.testing.assert_array_equal(a.quality.values, b.quality.values)
 
 
