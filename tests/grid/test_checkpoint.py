@@ -67,8 +67,12 @@ def test_resume_after_kill_equals_an_uninterrupted_run(section, tmp_path):
     assert 2 <= n_before < resumed.attrs["n_chunks"]
     assert resumed.attrs["n_chunks_computed"] == resumed.attrs["n_chunks"] - n_before
     whole = map_grid(g, ZONES, **KW)
-    for v in whole.data_vars:
-        np.testing.assert_array_equal(resumed[v].values, whole[v].values, err_msg=v)
+    # every differing variable is listed (a failure seen once in CI named only the first,
+    # vp_vs_hdi_low at the shallowest level, with every probability equal)
+    differ = {v: int(np.sum(~((resumed[v].values == whole[v].values)
+                              | (np.isnan(resumed[v].values) & np.isnan(whole[v].values)))))
+              for v in whole.data_vars}
+    assert not any(differ.values()), {v: n for v, n in differ.items() if n}
     again = map_grid(g, ZONES, store=store, **KW)        # everything finished: nothing redone
     assert again.attrs["n_chunks_computed"] == 0
     with pytest.raises(ValueError, match="another input or other settings"):
