@@ -172,8 +172,11 @@ def build_idata(*, posterior: dict, prior: dict, log_likelihood: dict, sample_st
 
     az = module()
     with warnings.catch_warnings():
-        # arviz warns when there are more chains (walkers) than draws; that is by design here.
+        # arviz warns when there are more chains (walkers) than draws; that is by design here
+        # (0.2x: "More chains ...", 1.x: "Found chain dimension to be longer than draw ...")
         warnings.filterwarnings("ignore", message="More chains", category=UserWarning)
+        warnings.filterwarnings("ignore", message="Found chain dimension to be longer",
+                                category=UserWarning)
         idata = _from_dict(az,
             posterior=posterior, prior=prior, log_likelihood=log_likelihood,
             sample_stats=sample_stats,
