@@ -36,14 +36,13 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..inference.trust import PPC_ALPHA, MisfitWarning
+from ..inference.trust import _LABEL, PPC_ALPHA, MisfitWarning
 
 __all__ = ["FIT_KEYS", "PPC_ALPHA", "MisfitWarning", "node_fit", "is_misfit", "misfit_summary"]
 
 #: per-node results of the fit check (columns of the map's results)
 FIT_KEYS = ("fit_p", "fit_z")
 _DT = np.float32  # the results' precision (grid.weigh.WORK_DTYPE)
-_LABEL = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density"}
 
 
 #: Gauss-Hermite nodes over the posterior of the prediction (Student-t likelihood)
