@@ -33,6 +33,7 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
     thermals = thermal_set(study)
     warn = Warnings(args)
     prob_rows, ev_frames = [], []
+    trust = []  # warnings of each (layer, thermal prior) run: misfit, non-convergence
     for i, layer in chosen:
         say(args, f"layer {layer.name!r} under {len(thermals)} thermal-state priors ({method})")
         lay, kw = build(study, layer, thermal=thermals[0])
@@ -50,6 +51,8 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
             except ValueError as exc:
                 raise InputError(f"{study.source}: layer {layer.name!r}: {exc}") from None
         for th in thermals:
+            trust += [f"{layer.name} under {th.name}: {m}"
+                      for m in cmp.results[th.name].warnings()]
             for h, row in cmp.results[th.name].hypotheses.iterrows():
                 prob_rows.append({"layer": layer.name, "thermal_prior": th.name, "hypothesis": h,
                                   "prior_probability": row["prior_probability"],
@@ -90,7 +93,12 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
     extra = {"command": "compare", "method": method, "seed": seed,
              "thermal_priors_compared": [t.name for t in thermals]}
     write_text(dest / "run.toml", run_toml(study, extra))
-    lines = [f"# {study.title}: thermal-state priors compared", "",
+    # read first: a comparison of priors under a model that cannot fit the data, or from runs
+    # that did not converge, is not a finding (the tables' data_fit column says it too)
+    banner = (["> **Warning: some runs cannot be trusted as they stand.** The evidences and "
+               "probabilities below are conditional on them:", ">"]
+              + [f"> - {m}" for m in trust] + [""]) if trust else []
+    lines = [f"# {study.title}: thermal-state priors compared", "", *banner,
              caution_text(assumptions(study, thermal=thermals)),
              "Each interpretation's posterior probability under each thermal-state prior, and "
              "each prior's evidence. A higher evidence means the data are better predicted "

@@ -143,7 +143,27 @@ def run_toml(study, extra: dict) -> str:
     data["run"] = {"bayescrust_version": __version__, "study_file": str(study.source), **extra,
                    "defaults_used": defaults_used(study, extra.get("method"))}
     return dumps_toml(data, header="Resolved configuration of this run, written by bayescrust.\n"
-                                   "Re-run with: bayescrust invert run.toml --out NEW_FOLDER")
+                                   f"Re-run with: {rerun_command(extra)}")
+
+
+def rerun_command(extra: dict) -> str:
+    """The command line that repeats a run from its ``run.toml`` (the command that wrote it,
+    with the options that are not part of the study file)."""
+    import shlex
+
+    cmd = extra.get("command", "invert")
+    words = ["bayescrust", cmd, "run.toml", "--out", "NEW_FOLDER"]
+    if extra.get("layer") is not None:
+        words += ["--layer", shlex.quote(str(extra["layer"]))]
+    if cmd in ("chart", "plan") and extra.get("method"):  # their --method is not the study's
+        words += ["--method", str(extra["method"])]
+    if cmd == "chart" and extra.get("vp_grid"):
+        g = extra["vp_grid"]
+        words += ["--vp-min", f"{g[0]:g}", "--vp-max", f"{g[-1]:g}", "--points", str(len(g))]
+    line = " ".join(words)
+    if cmd == "plan":
+        line += " (and a --candidate for each of [run] candidates when they were given)"
+    return line
 
 
 def thermal_set(study):

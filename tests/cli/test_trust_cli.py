@@ -268,3 +268,35 @@ def test_assumptions_of_a_chart_name_every_thermal_prior_it_uses():
         study = load_study(p)
     a = assumptions(study, study.layers[0], thermal=thermal_set(study))
     assert all(t.name in a["thermal-state priors"] for t in thermal_set(study))
+
+
+def test_compare_report_opens_with_the_misfit_of_every_prior(misfit_study, tmp_path):
+    # Vp/Vs 1.30 fits under no thermal prior (Christensen 1996, above): the comparison report
+    # must say so before its caution and tables, naming the layer and each prior
+    out = tmp_path / "cmp"
+    assert main(["compare", str(misfit_study), "--out", str(out), "--no-figures", "-q"]) == 0
+    report = (out / "report.md").read_text()
+    head = report.split("Caution:")[0]
+    assert "Warning: some runs cannot be trusted" in head
+    priors = tomllib.loads((out / "run.toml").read_text())["run"]["thermal_priors_compared"]
+    assert len(priors) >= 2
+    for name in priors:
+        assert f"deep under {name}: DATA MISFIT" in head
+    # the header's re-run line names the command that wrote the file (it said `invert`)
+    assert "Re-run with: bayescrust compare run.toml" in (out / "run.toml").read_text()
+
+
+def test_chart_rerun_line_of_run_toml_repeats_the_chart(misfit_study, tmp_path):
+    import shlex
+
+    out = tmp_path / "c1"
+    assert main(["chart", str(misfit_study), "--out", str(out), "--no-figures", "-q",
+                 "--vp-min", "6.9", "--vp-max", "7.1", "--points", "3"]) == 0
+    header = next(x for x in (out / "run.toml").read_text().splitlines() if "Re-run" in x)
+    words = shlex.split(header.split("Re-run with:")[1])
+    assert words[:2] == ["bayescrust", "chart"] and "--vp-max" in words
+    words = [str(out / "run.toml") if w == "run.toml" else
+             str(tmp_path / "c2") if w == "NEW_FOLDER" else w for w in words[1:]]
+    assert main(words + ["--no-figures", "-q"]) == 0
+    for name in ("chart.csv",):
+        assert (tmp_path / "c2" / name).read_text() == (out / name).read_text()
