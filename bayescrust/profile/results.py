@@ -183,7 +183,10 @@ def _thermal_table(names, draws, means_reps=None, mcse=None):
         se = (float(np.std(means_reps[:, j], ddof=1) / math.sqrt(means_reps.shape[0]))
               if means_reps is not None else float(mcse[k]))
         mean = float(means_reps[:, j].mean()) if means_reps is not None else float(x.mean())
-        rows.append({"parameter": k, "mean": mean, "sd": float(x.std()),
+        sd = float(x.std())
+        if np.ptp(x) == 0:  # fixed (e.g. a set conductivity): exactly, not rounding noise
+            mean, sd, se = float(x[0]), 0.0, 0.0
+        rows.append({"parameter": k, "mean": mean, "sd": sd,
                      "q05": float(np.quantile(x, 0.05)), "q50": float(np.quantile(x, 0.5)),
                      "q95": float(np.quantile(x, 0.95)), "mcse": se})
     return pd.DataFrame(rows, columns=["parameter", "mean", "sd", "q05", "q50", "q95", "mcse"])

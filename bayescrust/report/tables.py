@@ -131,11 +131,16 @@ def format_value(value, digits: int = 4) -> str:
 
 
 def _rows(df, index: bool):
+    """Header and body rows; each level of a multi-level index is a column of its own (a
+    tuple in one cell reads as ``('2A extrusives', 'hot gabbro')`` in every format)."""
     cols = list(df.columns)
-    header = ([df.index.name or ""] if index else []) + [str(c) for c in cols]
+    levels = df.index.nlevels if index else 0
+    names = [n or "" for n in df.index.names] if levels else []
+    header = names + [str(c) for c in cols]
     body = []
     for idx, row in zip(df.index, df.itertuples(index=False), strict=True):
-        body.append(([idx] if index else []) + list(row))
+        key = list(idx) if levels > 1 else [idx] if levels else []
+        body.append(key + list(row))
     return header, body
 
 

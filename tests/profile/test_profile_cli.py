@@ -3,6 +3,7 @@
 from importlib.resources import files
 
 import arviz as az
+import pandas as pd
 import pytest
 
 from bayescrust.cli import main
@@ -73,6 +74,11 @@ def test_profile_command_writes_tables_and_netcdf(tmp_path):
     assert vp.dims == ("layer",) and list(vp["layer"].values) == ["upper", "lower"]
     assert vp.values.tolist() == [5.5, 7.0]
     assert (out / "report.md").read_text().count("Thermal state favoured") == 1
+    # a parameter held fixed (the conductivity, GDH1's 3.138 W/m/K by default) is reported
+    # exactly: sd and Monte Carlo error 0, not numpy's rounding noise of a constant (8.9e-16)
+    th = pd.read_csv(out / "thermal.csv", index_col=0)
+    row = th.loc["conductivity_w_mk"]
+    assert row["sd"] == 0.0 and row["mcse"] == 0.0 and row["q05"] == row["q95"]
 
 
 def test_profile_command_bad_file_exit_code(tmp_path):

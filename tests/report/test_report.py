@@ -57,6 +57,20 @@ def test_latex_escapes(frame):
     assert r"\caption{P \& Q}" in tex
 
 
+
+def test_multi_level_index_is_one_column_per_level():
+    # a profile's (layer, interpretation) table: read back by pandas (a general-purpose
+    # reference reader), every level is its own named column, never a tuple in one cell
+    idx = pd.MultiIndex.from_tuples([("2A", "porous basalt"), ("3", "hot gabbro")],
+                                    names=["layer", "hypothesis"])
+    df = pd.DataFrame({"probability": [0.25, 0.75]}, index=idx)
+    back = pd.read_csv(io.StringIO(tables.to_csv(df)), index_col=[0, 1])
+    pd.testing.assert_frame_equal(back, df)
+    md = tables.to_markdown(df)
+    assert md.splitlines()[0].split("|")[1:3] == [" layer ", " hypothesis    "]
+    assert "(" not in md and "(" not in tables.to_latex(df)
+    assert "layer & hypothesis & probability" in tables.to_latex(df)
+
 @pytest.mark.parametrize("x,s", [(0.5, "0.5000"), (1234.5678, "1235"), (1e-7, "1.000e-07"),
                                  (float("nan"), ""), (3, "3"), (True, "yes")])
 def test_format_value(x, s):
