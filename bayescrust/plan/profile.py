@@ -39,7 +39,13 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .api import RANK_KEYS, PlanResult, preposterior, sentence
-from .candidates import Candidate, as_candidates
+from .candidates import (
+    HEAT_FLOW_SIGMAS,
+    Candidate,
+    _check_candidates,
+    as_candidates,
+    default_profile_candidates,
+)
 from .ensemble import Ensemble, assign_classes, make_classes
 from .preposterior import DegeneracyWarning, Settings, current_state
 from .today import profile_today
@@ -48,9 +54,6 @@ __all__ = ["plan_profile", "ProfilePlanResult", "profile_states", "profile_ensem
            "default_profile_candidates", "BOUNDARY_QUESTION", "HEAT_FLOW_SIGMAS"]
 
 BOUNDARY_QUESTION = "crust-mantle boundary"
-#: Default heat-flow candidate errors (mW/m^2): planning choices from a good marine probe
-#: measurement to a rough one, not literature values.
-HEAT_FLOW_SIGMAS = (5.0, 10.0, 20.0)
 _INTERVAL = "interval quantity"
 _UNITS = {"_myr": "Myr", "_c": "°C", "_km": "km", "_w_mk": "W/m/K"}
 
@@ -208,36 +211,6 @@ def _rerun_cache(profile, design, states):
         states["_rerun"] = ProfileRerun(profile, design, _questions_cache(profile, design,
                                                                           states))
     return states["_rerun"]
-
-
-# --------------------------------------------------------------------------------- candidates
-def default_profile_candidates(profile, target_layer) -> tuple[Candidate, ...]:
-    """Heat flow at :data:`HEAT_FLOW_SIGMAS` (and one lower bound at 10 mW/m^2), and in the
-    ``target_layer`` Vs at 0.1 and 0.2 km/s, Vp/Vs at 0.05, density at 0.05 g/cm^3 and a repeat
-    Vp at half today's error (if it has Vp). Planning choices, not literature values."""
-    out = [Candidate("heat_flow", s) for s in HEAT_FLOW_SIGMAS]
-    out.append(Candidate("heat_flow", 10.0, mode="lower_bound"))
-    out += [Candidate("vs", s, layer=target_layer) for s in (0.1, 0.2)]
-    out += [Candidate("vp_vs", 0.05, layer=target_layer),
-            Candidate("density", 0.05, layer=target_layer)]
-    lay = profile.layers[profile.names.index(target_layer)]
-    if lay.vp is not None:
-        out.append(Candidate("vp", round(0.5 * lay.vp[1], 4), layer=target_layer))
-    return tuple(out)
-
-
-def _check_candidates(profile, cands):
-    for c in cands:
-        if c.observable == "heat_flow":
-            continue
-        if c.layer is None:
-            if profile.n_layers != 1:
-                raise ValueError(f"candidate {c.label!r}: name its layer (one of "
-                                 f"{list(profile.names)})")
-        elif c.layer not in profile.names:
-            raise ValueError(f"candidate {c.label!r}: layer {c.layer!r} is not in the profile; "
-                             f"allowed {list(profile.names)}")
-    return cands
 
 
 # --------------------------------------------------------------------------------- result
