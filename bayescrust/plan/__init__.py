@@ -15,10 +15,11 @@ from .candidates import (
     Candidate,
     as_candidates,
     default_candidates,
+    default_profile_candidates,
 )
 from .ensemble import NONE_CLASS, Ensemble, ensemble_from_design, ensemble_from_result
 from .preposterior import DegeneracyWarning, Settings, current_state, evaluate, update
-from .profile import ProfilePlanResult, default_profile_candidates, plan_profile
+from .profile import ProfilePlanResult, plan_profile
 
 __all__ = [
     "LAYER_OBSERVABLES",

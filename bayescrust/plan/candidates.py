@@ -1,4 +1,5 @@
-"""Candidate additions: an observable with a 1-sigma error, and the default list for a layer.
+"""Candidate additions: an observable with a 1-sigma error, and the default lists for a layer and
+a profile.
 
 A candidate is one new, independent measurement of an observable of the layer (Vp, Vs, Vp/Vs,
 density) with a stated measurement error. Measured again, an observable the layer already has
@@ -16,8 +17,8 @@ from dataclasses import dataclass
 
 from ..inference.layer import OBSERVABLES
 
-__all__ = ["Candidate", "default_candidates", "LAYER_OBSERVABLES", "PROFILE_OBSERVABLES",
-           "HEAT_FLOW_MODES", "as_candidates"]
+__all__ = ["Candidate", "default_candidates", "default_profile_candidates", "LAYER_OBSERVABLES",
+           "PROFILE_OBSERVABLES", "HEAT_FLOW_MODES", "HEAT_FLOW_SIGMAS", "as_candidates"]
 
 #: Observables a candidate of one layer may name (those of :class:`bayescrust.Layer`).
 LAYER_OBSERVABLES = tuple(OBSERVABLES)
@@ -34,6 +35,9 @@ _NAMES = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density",
 #: planning choices, not literature values: a spread from a good to a rough measurement.
 _DEFAULT_SIGMAS = {"vs": (0.05, 0.1, 0.2, 0.3), "vp_vs": (0.02, 0.05), "density": (0.03, 0.1),
                    "vp": (0.03, 0.06)}
+#: Default heat-flow candidate errors (mW/m^2): planning choices from a good marine probe
+#: measurement to a rough one, not literature values.
+HEAT_FLOW_SIGMAS = (5.0, 10.0, 20.0)
 
 
 @dataclass(frozen=True)
@@ -175,3 +179,34 @@ def as_candidates(candidates, layer=None, *, profile=False) -> tuple[Candidate, 
     if dup:
         raise ValueError(f"candidates: labels must be distinct; repeated {dup}")
     return tuple(out)
+
+
+def default_profile_candidates(profile, target_layer) -> tuple[Candidate, ...]:
+    """Heat flow at :data:`HEAT_FLOW_SIGMAS` (and one lower bound at 10 mW/m^2), and in the
+    ``target_layer`` Vs at 0.1 and 0.2 km/s, Vp/Vs at 0.05, density at 0.05 g/cm^3 and a repeat
+    Vp at half today's error (if it has Vp). Planning choices, not literature values."""
+    out = [Candidate("heat_flow", s) for s in HEAT_FLOW_SIGMAS]
+    out.append(Candidate("heat_flow", 10.0, mode="lower_bound"))
+    out += [Candidate("vs", s, layer=target_layer) for s in (0.1, 0.2)]
+    out += [Candidate("vp_vs", 0.05, layer=target_layer),
+            Candidate("density", 0.05, layer=target_layer)]
+    lay = profile.layers[profile.names.index(target_layer)]
+    if lay.vp is not None:
+        out.append(Candidate("vp", round(0.5 * lay.vp[1], 4), layer=target_layer))
+    return tuple(out)
+
+
+def _check_candidates(profile, cands):
+    """``cands`` unchanged if every layer candidate names a layer of ``profile`` (or the profile
+    has one layer); a ValueError otherwise."""
+    for c in cands:
+        if c.observable == "heat_flow":
+            continue
+        if c.layer is None:
+            if profile.n_layers != 1:
+                raise ValueError(f"candidate {c.label!r}: name its layer (one of "
+                                 f"{list(profile.names)})")
+        elif c.layer not in profile.names:
+            raise ValueError(f"candidate {c.label!r}: layer {c.layer!r} is not in the profile; "
+                             f"allowed {list(profile.names)}")
+    return cands

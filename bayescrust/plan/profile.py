@@ -1,22 +1,12 @@
 """Planning for a profile: the value of a new datum in one layer, or of a surface heat flow.
 
-Today's knowledge is the structured exact path's weighted design
-(:func:`bayescrust.profile.exact.exact_design`): thermal points ``phi_j`` with posterior weights
-``W_j`` and, per layer, design points with weights given each ``phi_j``. Joint states are drawn
-from it stratified by thermal point: for every ``phi_j`` of every replicate, ``r`` design points
-of each layer from its conditional weights (so the thermal design is kept whole, not resampled),
-each joint state weighted ``W_j / R``. A joint state carries every layer's quantities, the
-thermal parameters, the predicted heat flow and the crust-mantle boundary.
-
-The same states answer several *questions*, each an :class:`~.ensemble.Ensemble` (same states and
-weights; the question's classes and interval quantity), valued by :func:`~.api.preposterior`:
-
-- per layer, its interpretations (the profile's hypotheses for the layer) and the interval of
-  its temperature;
-- the crust-mantle boundary: the first mantle layer (:data:`bayescrust.profile.MANTLE_RULE`)
-  or "no boundary in the section", and the interval of its depth (the base of the section
-  when there is none);
-- per free thermal parameter, its interval (e.g. the crustal age or the mantle temperature).
+:func:`plan_profile` draws joint states of the profile from today's knowledge, the structured
+exact path's weighted design (:func:`bayescrust.profile.exact.exact_design`), and values every
+candidate for every question the states answer: per layer its interpretations and the interval
+of its temperature, the crust-mantle boundary and the interval of its depth, and the interval of
+each free thermal parameter (:mod:`.profile_questions`: the stratified draw of the states, one
+:class:`~.ensemble.Ensemble` per question). The default candidates are in :mod:`.candidates`;
+the result, its sentences and its long table in :mod:`.profile_result`.
 
 A candidate datum in layer ``i`` follows that layer's likelihood (shared and correlated
 forward-model errors, :mod:`.likelihood`); a heat-flow candidate the profile's heat-flow law
@@ -31,349 +21,32 @@ stayed degenerate (more ``n_layer`` / ``n_thermal`` reduce them).
 
 from __future__ import annotations
 
-import math
 import time
 import warnings
-from dataclasses import dataclass, field
 
-import numpy as np
-
-from .api import RANK_KEYS, PlanResult, preposterior, sentence
-from .candidates import Candidate, as_candidates
-from .ensemble import Ensemble, assign_classes, make_classes
+from .api import RANK_KEYS, preposterior
+from .candidates import (
+    HEAT_FLOW_SIGMAS,
+    Candidate,
+    _check_candidates,
+    as_candidates,
+    default_profile_candidates,
+)
 from .preposterior import DegeneracyWarning, Settings, current_state
+from .profile_questions import (
+    _INTERVAL,
+    BOUNDARY_QUESTION,
+    _questions_cache,
+    profile_ensemble,
+    profile_states,
+)
+from .profile_result import ProfilePlanResult, _long_table, _merge, _sentences
 from .today import profile_today
 
 __all__ = ["plan_profile", "ProfilePlanResult", "profile_states", "profile_ensemble",
            "default_profile_candidates", "BOUNDARY_QUESTION", "HEAT_FLOW_SIGMAS"]
 
-BOUNDARY_QUESTION = "crust-mantle boundary"
-#: Default heat-flow candidate errors (mW/m^2): planning choices from a good marine probe
-#: measurement to a rough one, not literature values.
-HEAT_FLOW_SIGMAS = (5.0, 10.0, 20.0)
-_INTERVAL = "interval quantity"
-_UNITS = {"_myr": "Myr", "_c": "°C", "_km": "km", "_w_mk": "W/m/K"}
 
-
-def _unit(name):
-    return next((u for s, u in _UNITS.items() if name.endswith(s)), "")
-
-
-# --------------------------------------------------------------------------------- states
-def _draw_rows(w, r, rng):
-    """``r`` column indices per row of the row-stochastic ``w`` (J, N), by inverse CDF
-    (vectorised over rows; rows that sum to zero give index 0, their states weigh nothing)."""
-    j, n = w.shape
-    cdf = np.cumsum(w, axis=1)
-    tot = cdf[:, -1:]
-    off = 2.0 * np.arange(j)[:, None] * np.maximum(tot, 1.0)
-    u = rng.random((j, r)) * tot + off
-    k = np.searchsorted((cdf + off).ravel(), u.ravel(), side="right") - np.repeat(
-        np.arange(j) * n, r)
-    return np.clip(k, 0, n - 1).reshape(j, r)
-
-
-def profile_states(profile, design, rng, states_per_thermal=16) -> dict:
-    """Joint weighted states of a profile from :func:`~bayescrust.profile.exact.exact_design`.
-
-    Returns
-    -------
-    dict
-        ``log_weights`` (n,); ``layers`` (one dict of quantities (n,) per layer); ``thermal``
-        {parameter: (n,)}; ``heat_flow`` (n,) mW/m^2; ``boundary`` (n,) the index of the first
-        mantle layer (``L`` for none); ``prior_layer`` (per layer, the prior probability of
-        every design point, pooled over the thermal design, with its quantities) for prior class
-        probabilities.
-    """
-    from ..inference.hypotheses import indicators
-    from ..profile.spec import MANTLE_RULE
-
-    th = profile.thermal
-    r = int(states_per_thermal)
-    mids = profile.mid_depths_km
-    reps = design["replicates"]
-    lw, thermal, layers, mantle = [], {k: [] for k in th.params}, [], []
-    prior_layer = [[] for _ in range(profile.n_layers)]
-    for rep in reps:
-        phi = rep["phi"]
-        with np.errstate(divide="ignore"):
-            lw.append(np.repeat(np.log(rep["W"]) - math.log(len(reps)), r))
-        vals = th.values(phi) if th.coupled else {}
-        for k in thermal:
-            thermal[k].append(np.repeat(vals[k], r))
-        geo = th.geotherm_c(mids, phi) if th.coupled else None
-        per = []
-        for i, (w, q) in enumerate(zip(rep["layer_w"], rep["layer_q"], strict=True)):
-            k = _draw_rows(w, r, rng).ravel()
-            per.append({name: np.asarray(v)[k] for name, v in q.items()
-                        if np.ndim(v) == 1 and np.shape(v)[0] == w.shape[1]})
-            # prior of each design point: conditional temperature density over the proposal
-            # (the exact path's importance weights without the likelihood), pooled over phi
-            t = np.asarray(q["temperature_c"], float)
-            lp = profile.log_temperature_density(t[None, :], None if geo is None
-                                                 else geo[:, i][:, None])
-            pw = np.exp(lp - np.max(lp, axis=1, keepdims=True))
-            pw /= np.maximum(pw.sum(axis=1, keepdims=True), 1e-300)
-            prior_layer[i].append((pw.mean(axis=0) / len(reps), q))
-        layers.append(per)
-        mantle.append(np.stack([indicators({"m": MANTLE_RULE}, p)["m"] for p in per], axis=1))
-    out_layers = [{k: np.concatenate([rl[i][k] for rl in layers]) for k in layers[0][i]}
-                  for i in range(profile.n_layers)]
-    m = np.concatenate(mantle)
-    boundary = np.where(m.any(axis=1), np.argmax(m, axis=1), profile.n_layers)
-    thermal = {k: np.concatenate(v) for k, v in thermal.items()}
-    if th.coupled:
-        phi_all = np.concatenate([np.repeat(rep["phi"], r, axis=0) for rep in reps])
-        heat = np.asarray(th.heat_flow_mw_m2(phi_all), float)
-    else:  # as the exact path: the top layer's linear conductive gradient
-        heat = (th.conductivity_w_mk * (out_layers[0]["temperature_c"]
-                                        - th.surface_temperature_c) / mids[0])
-    return {"log_weights": np.concatenate(lw), "layers": out_layers, "thermal": thermal,
-            "heat_flow": heat, "boundary": boundary, "prior_layer": prior_layer}
-
-
-def _questions(profile, design, states):
-    """``{name: (kind, indicators (n,), class names, prior class probabilities, interval
-    quantity (n,), interval label)}`` of every question (module docstring)."""
-    from ..inference.hypotheses import indicators
-    from ..profile.results import NO_BOUNDARY
-
-    out = {}
-    for i, name in enumerate(profile.names):
-        hyps = {h: b for h, b in design["hypotheses"][i].items() if h != "mantle rock"}
-        pri = states["prior_layer"][i]
-        ind_d = [indicators(hyps, q) for _, q in pri]
-        _, names = make_classes(ind_d[0], *ind_d[1:])
-        pc = sum(np.bincount(np.maximum(assign_classes(ind, names), 0), weights=pw,
-                             minlength=len(names)) for (pw, _), ind in zip(pri, ind_d,
-                                                                          strict=True))
-        ind = indicators(hyps, states["layers"][i])
-        out[name] = ("interpretation", ind, names, pc / pc.sum(),
-                     states["layers"][i]["temperature_c"], f"{name} temperature", "°C")
-    outcomes = list(profile.names) + [NO_BOUNDARY]
-    b = states["boundary"]
-    ind = {o: b == k for k, o in enumerate(outcomes)}
-    # prior: the first mantle layer under the prior, from each layer's prior mantle probability
-    pm = np.array([sum(pw @ (np.asarray(q["ultramafic_fraction"]) >= 0.5) for pw, q in pri)
-                   for pri in states["prior_layer"]])
-    surv = np.concatenate([[1.0], np.cumprod(1.0 - pm)])
-    pb = np.append(pm * surv[:-1], surv[-1])
-    depth = np.append(profile.tops_km, profile.bottoms_km[-1])[b]
-    out[BOUNDARY_QUESTION] = ("boundary", ind, tuple(outcomes), pb / pb.sum(), depth,
-                              "boundary depth", "km")
-    for k in (profile.thermal.free if profile.thermal.coupled else ()):
-        out[f"thermal: {k}"] = ("thermal", ind, tuple(outcomes), pb / pb.sum(),
-                                states["thermal"][k], k, _unit(k))
-    return out
-
-
-def profile_ensemble(profile, design, states, question, group=None) -> Ensemble:
-    """The :class:`Ensemble` of one question whose candidates are measured in layer ``group``
-    (a layer name; ``None`` for heat flow)."""
-    from .ensemble import _model_errors
-
-    kind, ind, names, pc, interval, _, _ = _questions_cache(profile, design, states)[question]
-    q = {"heat_flow": states["heat_flow"], **states["thermal"], _INTERVAL: interval}
-    existing, me, lik, nu, rho = {}, {}, "gaussian", 4.0, None
-    if group is not None:
-        i = profile.names.index(group)
-        model = design["models"][i]
-        q.update(states["layers"][i])
-        q.update(states["thermal"])
-        q[_INTERVAL] = interval
-        existing = dict(profile.layers[i].observed)
-        me = _model_errors(model, profile.model_error)
-        lik, nu, rho = model.likelihood, float(model.nu or 4.0), model.error_correlation
-    classes = assign_classes(ind, names)
-    lw = np.where(classes >= 0, states["log_weights"], -np.inf)
-    return Ensemble(quantities=q, log_weights=lw, hypotheses=ind, boxes={},
-                    classes=np.maximum(classes, 0), class_names=tuple(names),
-                    prior_probabilities=np.asarray(pc, float), existing=existing,
-                    model_error=me, error_correlation=rho, likelihood=lik, nu=nu,
-                    source="profile exact design",
-                    rerun=_rerun_cache(profile, design, states).for_question(question))
-
-
-def _questions_cache(profile, design, states):
-    if "_questions" not in states:
-        states["_questions"] = _questions(profile, design, states)
-    return states["_questions"]
-
-
-def _rerun_cache(profile, design, states):
-    """One :class:`~.rerun.ProfileRerun` per set of states (shared by every question)."""
-    from .rerun import ProfileRerun
-
-    if "_rerun" not in states:
-        states["_rerun"] = ProfileRerun(profile, design, _questions_cache(profile, design,
-                                                                          states))
-    return states["_rerun"]
-
-
-# --------------------------------------------------------------------------------- candidates
-def default_profile_candidates(profile, target_layer) -> tuple[Candidate, ...]:
-    """Heat flow at :data:`HEAT_FLOW_SIGMAS` (and one lower bound at 10 mW/m^2), and in the
-    ``target_layer`` Vs at 0.1 and 0.2 km/s, Vp/Vs at 0.05, density at 0.05 g/cm^3 and a repeat
-    Vp at half today's error (if it has Vp). Planning choices, not literature values."""
-    out = [Candidate("heat_flow", s) for s in HEAT_FLOW_SIGMAS]
-    out.append(Candidate("heat_flow", 10.0, mode="lower_bound"))
-    out += [Candidate("vs", s, layer=target_layer) for s in (0.1, 0.2)]
-    out += [Candidate("vp_vs", 0.05, layer=target_layer),
-            Candidate("density", 0.05, layer=target_layer)]
-    lay = profile.layers[profile.names.index(target_layer)]
-    if lay.vp is not None:
-        out.append(Candidate("vp", round(0.5 * lay.vp[1], 4), layer=target_layer))
-    return tuple(out)
-
-
-def _check_candidates(profile, cands):
-    for c in cands:
-        if c.observable == "heat_flow":
-            continue
-        if c.layer is None:
-            if profile.n_layers != 1:
-                raise ValueError(f"candidate {c.label!r}: name its layer (one of "
-                                 f"{list(profile.names)})")
-        elif c.layer not in profile.names:
-            raise ValueError(f"candidate {c.label!r}: layer {c.layer!r} is not in the profile; "
-                             f"allowed {list(profile.names)}")
-    return cands
-
-
-# --------------------------------------------------------------------------------- result
-@dataclass(frozen=True, eq=False)
-class ProfilePlanResult:
-    """Value of each candidate datum for every question of a profile.
-
-    Attributes
-    ----------
-    plans : dict
-        ``{question: PlanResult}``, each over every candidate (the layer planner's columns; its
-        interval columns are the question's interval quantity).
-    table : pandas.DataFrame
-        Long table, one row per (candidate, question): ``kind`` (``interpretation``,
-        ``boundary`` or ``thermal``), the candidate's observable / layer / mode / sigma, the
-        metrics with Monte Carlo errors (class metrics blank for thermal questions), today's
-        entropy and interval width, the interval's unit and ``relative_narrowing``.
-    ranking : pandas.DataFrame
-        The ``rank_question``'s plan table (ranked by ``rank_by``).
-    sentences : dict
-        One plain-language paragraph per candidate.
-    questions : dict
-        ``{question: kind}``.
-    settings : dict
-        Also today's importance effective sizes: ``thermal_importance_ess`` and
-        ``layer_importance_ess`` (per layer, of its design's marginal posterior weights).
-    predictive_check : dict
-        ``{layer: posterior-predictive check of today's data}`` (:mod:`.today`).
-    caveats : tuple of str
-        What makes today's posterior a poor starting point (data misfit in a layer, too few
-        effective states); read them before the sentences.
-    """
-
-    plans: dict
-    table: object
-    ranking: object
-    sentences: dict
-    questions: dict
-    settings: dict
-    predictive_check: dict = field(default_factory=dict)
-    caveats: tuple = ()
-
-    @property
-    def misfit_layers(self) -> list[str]:
-        """Layers whose data the model cannot reproduce today."""
-        return [n for n, c in self.predictive_check.items() if c.get("misfit")]
-
-    def __repr__(self) -> str:
-        return (f"ProfilePlanResult(candidates={list(self.ranking.index)}, "
-                f"questions={list(self.questions)}"
-                + (f", DATA MISFIT in {self.misfit_layers}" if self.misfit_layers else "")
-                + ")")
-
-
-def _merge(parts):
-    """One :class:`PlanResult` from the per-layer-group results of one question."""
-    import pandas as pd
-
-    first = parts[0]
-    key = first.settings["rank_by"]
-    table = pd.concat([p.table for p in parts]).drop(columns="rank")
-    table = table.sort_values(key, ascending=False, kind="stable")
-    table.insert(0, "rank", np.arange(1, len(table) + 1))
-    return PlanResult(table=table, today=first.today,
-                      calibration=pd.concat([p.calibration for p in parts], ignore_index=True),
-                      sentences={k: v for p in parts for k, v in p.sentences.items()},
-                      class_names=first.class_names,
-                      settings={**first.settings,
-                                "time_s": sum(p.settings["time_s"] for p in parts)})
-
-
-def _thermal_clause(name, row, today, unit):
-    nar, se = row["interval_narrowing"], row["interval_narrowing_mcse"]
-    w0 = today["interval_width"]
-    if not (math.isfinite(nar) and w0 > 0) or abs(nar) <= 2 * se or abs(nar) < 0.02 * w0:
-        return f"the {name} interval does not change noticeably"
-    verb = "narrows" if nar > 0 else "widens"
-    return (f"the {name} interval {verb} by ~{abs(nar):.3g} {unit} ({100 * abs(nar) / w0:.0f} %"
-            f" of today's {w0:.3g} {unit})")
-
-
-def _sentences(plans, questions, rank_question, interval_mass):
-    out = {}
-    rank = plans[rank_question]
-    for lab in rank.table.index:
-        kind = questions[rank_question]
-        if kind == "thermal":
-            text = (f"{lab}: " + _thermal_clause(rank_question.split(": ", 1)[1],
-                                                 rank.table.loc[lab], rank.today,
-                                                 rank.settings.get("interval_unit", "")) + ".")
-        else:
-            text = f"{rank_question}: " + sentence(
-                lab, rank.table.loc[lab], rank.today, settings=rank.settings,
-                quantity_label=rank.settings["interval_label"] + " interval",
-                unit=rank.settings["interval_unit"])
-        extra = [_thermal_clause(q.split(": ", 1)[1], p.table.loc[lab], p.today,
-                                 p.settings["interval_unit"])
-                 for q, p in plans.items() if questions[q] == "thermal" and q != rank_question]
-        if extra:
-            text += f" Thermal state ({interval_mass}): " + "; ".join(extra) + "."
-        out[lab] = text
-    return out
-
-
-_CLASS_COLS = ("expected_p_true", "expected_p_true_mcse", "expected_entropy_bits",
-               "expected_entropy_bits_mcse", "information_gain_bits",
-               "information_gain_bits_mcse", "p_decisive", "p_decisive_mcse",
-               "calibration_max_z")
-
-
-def _long_table(plans, questions, cands):
-    import pandas as pd
-
-    by_label = {c.label: c for c in cands}
-    rows = []
-    for q, p in plans.items():
-        t = p.table.copy()
-        t["question"] = q
-        t["kind"] = questions[q]
-        t["layer"] = [by_label[lab].layer or "" for lab in t.index]
-        t["mode"] = [by_label[lab].mode for lab in t.index]
-        t["today_entropy_bits"] = p.today["entropy_bits"]
-        t["today_interval_width"] = p.today["interval_width"]
-        t["interval_unit"] = p.settings["interval_unit"]
-        with np.errstate(divide="ignore", invalid="ignore"):
-            t["relative_narrowing"] = t["interval_narrowing"] / p.today["interval_width"]
-        if questions[q] == "thermal":
-            t.loc[:, list(_CLASS_COLS)] = np.nan
-        rows.append(t.drop(columns="rank"))
-    out = pd.concat(rows)
-    out.index.name = "candidate"
-    first = ["question", "kind", "observable", "layer", "mode", "sigma", "unit"]
-    return out[first + [c for c in out.columns if c not in first]]
-
-
-# --------------------------------------------------------------------------------- API
 def plan_profile(profile, *, candidates=None, seed=None, rank_question=BOUNDARY_QUESTION,
                  rank_by=None, n_layer=2**12, n_thermal=256, n_replicates=2,
                  states_per_thermal=16, forward=None, design=None,
@@ -397,7 +70,7 @@ def plan_profile(profile, *, candidates=None, seed=None, rank_question=BOUNDARY_
     n_layer, n_thermal, n_replicates, forward
         Design of the exact path (:func:`~bayescrust.profile.exact.exact_design`).
     states_per_thermal : int
-        Joint states drawn per thermal point (module docstring).
+        Joint states drawn per thermal point (:mod:`.profile_questions`).
     design : dict, optional
         A precomputed :func:`~bayescrust.profile.exact.exact_design` of the same profile.
     **settings

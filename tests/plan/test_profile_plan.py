@@ -263,7 +263,7 @@ def test_prior_class_probabilities_closed_form():
     state, and the first mantle layer of two is L1 / L2 / none with 1/2, 1/4, 1/4; a layer is
     "mostly" gabbro or mantle with 1 - MOSTLY each and mixed with 2 MOSTLY - 1."""
     from bayescrust.inference.hypotheses import MOSTLY
-    from bayescrust.plan.profile import _questions
+    from bayescrust.plan.profile_questions import _questions
 
     prof = _two_layer()
     design = exact_design(prof, n_replicates=2, seed=0, **_SMALL)
