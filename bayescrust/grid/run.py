@@ -9,7 +9,8 @@ skips the finished chunks, so a job killed at any point resumes and gives the sa
 
 This module holds the settings (:class:`GridRun`), the planning of a run (levels, their paths,
 chunks, the store's fingerprint) and :func:`map_grid`; one chunk's computation is
-:func:`bayescrust.grid.chunk.run_chunk`.
+:func:`bayescrust.grid.chunk.run_chunk`, and :mod:`bayescrust.grid.cluster` runs the chunks on
+dask.distributed.
 """
 
 from __future__ import annotations
@@ -22,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .chunk import run_chunk
+from .cluster import _run_dask
 from .levels import plan_levels
 from .results import QUALITY_FLAGS, result_keys
 from .store import Store
@@ -273,31 +275,3 @@ def map_grid(grid, zones, *, seed=0, n_points=2**14, level_km=0.1, min_ess=100.0
 
 def _todo_nodes(todo, cs, n):
     return sum(min((c + 1) * cs, n) - c * cs for c in todo)
-
-
-def _run_dask(tasks, finish, scheduler, n_workers):
-    from distributed import Client, LocalCluster, as_completed
-
-    cluster = None
-    if scheduler is None:
-        cluster = LocalCluster(n_workers=int(n_workers), threads_per_worker=1, processes=True,
-                               dashboard_address=None)
-        client = Client(cluster)
-        mode = f"dask LocalCluster ({int(n_workers)} workers)"
-    elif isinstance(scheduler, str):
-        client = Client(scheduler)
-        mode = f"dask scheduler {scheduler}"
-    else:
-        client, mode = scheduler, "dask client"
-    try:
-        futures = [client.submit(run_chunk, t, pure=False) for t in tasks]
-        for fut in as_completed(futures):
-            finish(*fut.result())
-            fut.release()
-    finally:
-        if cluster is not None:
-            client.close()
-            cluster.close()
-        elif isinstance(scheduler, str):
-            client.close()
-    return mode
