@@ -9,7 +9,8 @@ be checkpointed to zarr. See docs/grid.md.
 
 from .levels import Zone
 from .output import column_summary, variable_name, write_netcdf
-from .run import QUALITY_FLAGS, map_grid
+from .results import QUALITY_FLAGS
+from .run import map_grid
 from .source import (
     GridData,
     GridDataWarning,

@@ -137,7 +137,7 @@ def is_misfit(fit_p, alpha=PPC_ALPHA):
 
 def misfit_summary(ds) -> str:
     """One-line warning text for a map with misfit nodes ('' when every node fits)."""
-    from .run import QUALITY_FLAGS
+    from .results import QUALITY_FLAGS
 
     q = ds["quality"].values
     bad = q == QUALITY_FLAGS["misfit"]

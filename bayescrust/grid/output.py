@@ -40,7 +40,7 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
 
     from .. import __version__
     from .fit import PPC_ALPHA
-    from .run import QUALITY_FLAGS
+    from .results import QUALITY_FLAGS
 
     shape, dims = grid.shape, grid.dims
     n = grid.n_nodes
@@ -188,7 +188,7 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
     """
     import pandas as pd
 
-    from .run import QUALITY_FLAGS
+    from .results import QUALITY_FLAGS
 
     p = ds["p_mantle"]
     z = ds[depth_var]

@@ -46,7 +46,7 @@ def validate_nodes(grid, zones, ds, *, n_nodes=20, seed=0, method="mcmc", **samp
     from .ages import node_priors
     from .levels import plan_levels, zone_hypotheses
     from .output import variable_name
-    from .run import QUALITY_FLAGS
+    from .results import QUALITY_FLAGS
 
     if grid.n_ensemble > 1:
         raise ValueError("validation by per-node inversion needs a grid without an ensemble")

@@ -25,7 +25,7 @@ def _misfit(ds, var, distance=None):
     map has no quality flag or no misfit node)."""
     if "quality" not in ds:
         return None
-    from ..grid.run import QUALITY_FLAGS
+    from ..grid.results import QUALITY_FLAGS
 
     q = _section(ds, "quality", distance)[0]
     m = q == QUALITY_FLAGS["misfit"]

@@ -3,7 +3,7 @@
     OPENBLAS_NUM_THREADS=1 python tests/benchmarks/bench_grid.py [--quick]
 
 1. 10^6 nodes, Vp only, one sigma per depth level (tabulated path): time after the forward
-   evaluations (the designs, timed inside the same run: ``grid.run.TIMES``), and the designs'
+   evaluations (the designs, timed inside the same run: ``grid.chunk.TIMES``), and the designs'
    time separately; peak memory: the process's peak RSS (imported libraries, ~145 MiB, and the
    input grid included) and tracemalloc's peak of the mapping alone (a second run).
 2. 10^4 nodes, Vp and Vs, per-node sigma (batched importance weighing).
@@ -25,6 +25,7 @@ import numpy as np  # noqa: E402
 import xarray as xr  # noqa: E402
 
 from bayescrust.grid import GridMapping, Zone, grid_from_dataset, map_grid  # noqa: E402
+from bayescrust.grid import chunk as grid_chunk  # noqa: E402
 from bayescrust.grid import run as grid_run  # noqa: E402
 
 ZONES = [Zone("crust", 1.5, 6.0, rocks=("gabbro", "harzburgite")),
@@ -61,29 +62,29 @@ def main(quick=False):
     # 1. 10^6 nodes, Vp only, shared sigma per level (default chunk size)
     nx, nz = (1000, 100) if quick else (10_000, 100)
     g = section(nx, nz)
-    grid_run._CACHE.clear()
-    for k in grid_run.TIMES:
-        grid_run.TIMES[k] = type(grid_run.TIMES[k])(0)
+    grid_chunk._CACHE.clear()
+    for k in grid_chunk.TIMES:
+        grid_chunk.TIMES[k] = type(grid_chunk.TIMES[k])(0)
     t0 = time.perf_counter()
     # n_table 33: nodes interpolate on its 33 values and 32 midpoints (65 values, the
     # resolution this benchmark's n_table = 65 gave before the fine tables); the bound checked
     # per node (table_tol) is the 33-value table's measured error
     m = map_grid(g, ZONES, n_points=n_points, level_km=0.2, n_table=33, min_ess=0)
     t_all = time.perf_counter() - t0
-    t_design = grid_run.TIMES["design_s"]
+    t_design = grid_chunk.TIMES["design_s"]
     rss = peak_mib()
     print(f"1. {g.n_nodes:.0e} nodes Vp-only, shared sigma: total {t_all:.2f} s, designs "
           f"{t_design:.2f} s ({m.attrs['n_levels']} levels x {n_points} points), after the "
-          f"designs {t_all - t_design:.2f} s (level tables {grid_run.TIMES['tables_s']:.2f} s; "
+          f"designs {t_all - t_design:.2f} s (level tables {grid_chunk.TIMES['tables_s']:.2f} s; "
           f"ratio after/designs {(t_all - t_design) / t_design:.2f}); "
-          f"{m.attrs['path_choice']}; {grid_run.TIMES['redo_nodes']} nodes weighed directly "
+          f"{m.attrs['path_choice']}; {grid_chunk.TIMES['redo_nodes']} nodes weighed directly "
           f"for a table error > table_tol, max table error {float(m.table_error.max()):.2g}; "
           f"peak RSS {rss:.0f} MiB")
     del m
     import tracemalloc
 
-    grid_run._CACHE.clear()
-    grid_run._TABLES.clear()
+    grid_chunk._CACHE.clear()
+    grid_chunk._TABLES.clear()
     tracemalloc.start()
     m = map_grid(g, ZONES, n_points=n_points, level_km=0.2, n_table=33, min_ess=0)
     peak_tm = tracemalloc.get_traced_memory()[1] / 2**20
@@ -93,7 +94,7 @@ def main(quick=False):
     del m, g
     # 2. 10^4 nodes, Vp + Vs, per-node sigma
     g = section(100, 100, vs=True, per_node_sigma=True)
-    grid_run._CACHE.clear()
+    grid_chunk._CACHE.clear()
     t0 = time.perf_counter()
     m = map_grid(g, ZONES, n_points=n_points, level_km=0.2, min_ess=0)
     t2 = time.perf_counter() - t0
@@ -124,7 +125,7 @@ def main(quick=False):
     g4 = section(100 if quick else 200, 100, vs=True, per_node_sigma=True)
     times = {}
     for w in (1, 2):
-        grid_run._CACHE.clear()
+        grid_chunk._CACHE.clear()
         old = grid_run._IN_PROCESS_WORK
         grid_run._IN_PROCESS_WORK = 0
         t0 = time.perf_counter()

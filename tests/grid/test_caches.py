@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 import xarray as xr
 
-import bayescrust.grid.run as grid_run
+import bayescrust.grid.chunk as grid_chunk
 from bayescrust.grid import GridMapping, Zone, grid_from_dataset, map_grid
 
 ZONES = [Zone("crust", 0.0, 20.0, rocks=("gabbro", "harzburgite"))]
@@ -26,8 +26,8 @@ def _grid(water_km=0.0, sigma=0.1, shift=0.0):
 
 
 def _clear():
-    grid_run._CACHE.clear()
-    grid_run._TABLES.clear()
+    grid_chunk._CACHE.clear()
+    grid_chunk._TABLES.clear()
 
 
 CASES = {  # (first map, second map): grid settings, run settings
