@@ -109,7 +109,7 @@ def _suite_passes(ranks, z, alpha=0.01):
 
 M_DEFAULT = 300
 # The injected bias is sized against the likelihood's total Vp sigma at 7.4 km/s: 0.08
-# measurement and the calibrated 2.7 % model error in quadrature, ~0.21 km/s; 0.12 is ~0.55 of
+# measurement and the calibrated 2.75 % model error in quadrature, ~0.21 km/s; 0.12 is ~0.55 of
 # it (a 0.06 bias, ~0.3 sigma, is detected only sometimes at 300 replicates: slow test).
 VP_BIAS = 0.12
 

@@ -116,7 +116,7 @@ def test_peridotite_near_solidus_with_melt_near_7_1_to_7_4():
 
 
 @pytest.mark.xfail(strict=True, reason="no serpentinisation gives all three: where density <= 2.70 "
-                   "(s >= 0.82) model Vs <= 2.785 km/s, at least 0.015 below 2.8")
+                   "(s >= 0.82) model Vs <= 2.772 km/s, at least 0.028 below 2.8")
 def test_highly_serpentinised_peridotite():
     # Highly serpentinised harzburgite/dunite at 200 MPa: Vp 5.5-6.1, Vs 2.8-3.3, density
     # 2.55-2.70 (Courtier, Hart & Christensen 2004, Proc. ODP SR 195 ch. 11, verified). Some

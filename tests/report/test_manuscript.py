@@ -161,7 +161,7 @@ def test_partition_claim_needs_the_prior_draws_too():
 
     layer = bc.Layer("um", vp=(8.1, 0.05), top_km=7.5, bottom_km=8.5, water_depth_km=3.0)
     hyp = {"mantle": {"ultramafic_fraction": (0.8, None)},
-           "not mantle": {"ultramafic_fraction": (None, 0.79999)},
+           "not mantle": {"ultramafic_fraction": (None, 0.8)},
            "hot gabbro": {"gabbro": (0.8, None), "temperature_c": (600, None)}}
     res = bc.invert_layer(layer, rocks=("gabbro", "harzburgite"), priors={"porosity": 0.0},
                           hypotheses=hyp, seed=2, forward={"inclusion_scheme": "kuster_toksoz"})
