@@ -9,7 +9,13 @@ than 1.5 km; sampled as the logit of ln alpha, porosity through its pore complia
 ``inference/coordinates.py``), over ``--seeds`` seeds, with the numpy reference kernels and,
 when numba is installed, the compiled kernels, and the ratios of the totals.
 
-Run: ``python tests/benchmarks/bench_pore_spread.py [--seeds 1-10] [--no-numpy]``.
+With ``--tau-steps N`` it prints instead, per case, the integrated autocorrelation times of one
+N-step chain (the first N/6 steps dropped) with the default walkers and moves: per walker and
+coordinate (emcee's estimator) and of each coordinate's ensemble average. These are the times the
+stopping rule estimates from short chains, so their ratio is the expected ratio of run lengths.
+
+Run: ``python tests/benchmarks/bench_pore_spread.py [--seeds 1-10] [--no-numpy]
+[--tau-steps 12000]``.
 """
 
 from __future__ import annotations
@@ -23,6 +29,8 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--seeds", default="1-10", help="seed range, e.g. 1-10")
     ap.add_argument("--no-numpy", action="store_true", help="skip the numpy kernels (slow)")
+    ap.add_argument("--tau-steps", type=int, default=0,
+                    help="print long-chain autocorrelation times instead (e.g. 12000)")
     args = ap.parse_args(argv)
     first, _, last = args.seeds.partition("-")
     seeds = range(int(first), int(last or first) + 1)
@@ -36,6 +44,8 @@ def main(argv=None) -> int:
                      vp=(5.0, 0.15), vs=(2.6, 0.1))
     cases = {"fixed 0.1": {"aspect_ratio": 0.1},
              "spread": {"aspect_ratio": LogUniform(0.01, 1.0)}}
+    if args.tau_steps:
+        return _long_tau(layer, cases, args.tau_steps, seeds[0])
     kernels = [True] if _jit.AVAILABLE else []
     if not args.no_numpy or not kernels:
         kernels.append(False)
@@ -61,6 +71,41 @@ def main(argv=None) -> int:
         print(f"{'compiled' if on else 'numpy':8s} totals: fixed {tf:.1f} s {sf} steps, spread "
               f"{ts:.1f} s {ss} steps; spread / fixed: time {ts / tf:.2f}x, steps "
               f"{ss / sf:.2f}x (budget 1.5x)")
+    return 0
+
+
+def _long_tau(layer, cases, n_steps, seed):
+    import numpy as np
+
+    from bayescrust.inference.api import _initial_walkers, _setup
+    from bayescrust.inference.sampler import (
+        _integrated_time,
+        _sampler,
+        default_moves,
+        series_ess,
+    )
+
+    worst = {}
+    for name, priors in cases.items():
+        model, _ = _setup(layer, ("basalt", "diabase"), priors, None, None, "gaussian", 4.0, None)
+        w = max(64, 16 * model.ndim)  # invert_layer's default
+        rng = np.random.default_rng(seed)
+        s = _sampler(w, model.ndim, model.log_prob, default_moves())
+        s.random_state = np.random.RandomState(seed).get_state()
+        t0 = time.perf_counter()
+        s.run_mcmc(_initial_walkers(model, rng, w), n_steps, progress=False)
+        per_step = (time.perf_counter() - t0) / n_steps
+        chain = s.get_chain(discard=n_steps // 6)
+        walker = _integrated_time(chain, c=5)
+        g = chain.mean(axis=1)
+        series = np.array([g.shape[0] / series_ess(g[:, j]) for j in range(g.shape[1])])
+        worst[name] = (max(walker.max(), series.max()), per_step)
+        print(f"{name:10s} {w} walkers, {model.ndim} coordinates; tau per walker "
+              f"{np.round(walker, 1)}, of ensemble averages {np.round(series, 1)}; "
+              f"{1e3 * per_step:.2f} ms/step")
+    (tf, sf), (ts, ss) = worst["fixed 0.1"], worst["spread"]
+    print(f"largest tau: spread / fixed {ts / tf:.2f}x; time per step {ss / sf:.2f}x; expected "
+          f"run time {ts * ss / (tf * sf):.2f}x (budget 1.5x)")
     return 0
 
 
