@@ -12,7 +12,7 @@ from .shell import InputError
 __all__ = ["add_parser", "cmd_check"]
 
 
-def _check_profile(path) -> int:
+def _check_profile(path, quiet=False) -> int:
     from ..config.profile import profile_study_to_dict
     from .profile import load_profile_study
 
@@ -21,6 +21,9 @@ def _check_profile(path) -> int:
     head = [f"{ps.source}: valid profile study ({prof.n_layers} layer(s)); run it with "
             "`bayescrust profile`, plan it with `bayescrust plan`.",
             f"thermal state: {prof.thermal.describe()}"]
+    if quiet:
+        sys.stdout.write(head[0] + "\n")
+        return 0
     head += [f"compared state {n!r}: {st.describe()}" for n, st in ps.compare.items()]
     head += ["Resolved study (thermal parameters at their defaults are not written):"]
     text = dumps_toml(profile_study_to_dict(ps), header="\n".join(head))
@@ -33,7 +36,7 @@ def cmd_check(args) -> int:
     from .profile import is_profile_study
 
     if is_profile_study(args.study):
-        return _check_profile(args.study)
+        return _check_profile(args.study, quiet=args.quiet)
     study = load_study(args.study)
     for layer in study.layers:
         build(study, layer)  # API validation of observations and priors
@@ -42,6 +45,9 @@ def cmd_check(args) -> int:
             build_thermal_prior(th)
         except (ValueError, TypeError) as exc:
             raise InputError(f"{study.source}: thermal.{th.name}: {exc}") from None
+    if args.quiet:  # the verdict alone (an invalid file has already raised, exit code 2)
+        sys.stdout.write(f"{study.source}: valid ({len(study.layers)} layer(s))\n")
+        return 0
     data = study_to_dict(study)
     # every default a run would use (priors, interpretations, thermal prior, sampler,
     # forward model), per layer, under [run] which the study reader ignores
@@ -59,5 +65,6 @@ def add_parser(sub) -> None:
     sp = sub.add_parser("check", help="validate a study file (a layer study or a [profile] "
                                       "study) and print the resolved study")
     sp.add_argument("study", metavar="STUDY.toml")
-    sp.add_argument("-q", "--quiet", action="store_true")
+    sp.add_argument("-q", "--quiet", action="store_true",
+                    help="print one line (the file is valid) instead of the resolved study")
     sp.set_defaults(func=cmd_check)

@@ -181,14 +181,35 @@ def do_profile(args, study, dest: Path, *, method="exact", figures=True, exact_o
         lines += ["## Warnings", ""] + [f"- {m}" for m in warn.messages] + [""]
     lines += ["Files: hypotheses.*, boundary.*, thermal.*, thermal_evidence.*, "
               "answers_by_state.* (CSV, Markdown, LaTeX); posterior.nc (arviz, layer "
-              "dimension); figures/profile.(png|pdf).", ""]
+              "dimension); figures/profile.(png|pdf); run.toml (the resolved study and seed, "
+              "to repeat the run).", ""]
     write_text(dest / "report.md", "\n".join(lines))
+    write_text(dest / "run.toml", _run_toml(study, seed, method, exact_options))
     for n in res.misfit_layers:
         say(args, f"layer {n!r}: DATA MISFIT, see report.md")
     if method == "mcmc":
         say(args, convergence_line(res))
     say(args, f"profile {prof.name}: done in {wall:.1f} s")
     return res, comp
+
+
+def _run_toml(study, seed, method, exact_options) -> str:
+    """The resolved profile study with the seed used, re-readable by ``bayescrust profile``
+    (a profile study's ``[run]`` holds only the seed: the provenance is in the header)."""
+    from .. import __version__
+    from ..config import dumps_toml
+    from ..config.profile import profile_study_to_dict
+
+    data = profile_study_to_dict(study)
+    data["run"] = {"seed": int(seed)}
+    head = [f"Resolved configuration of this run, written by bayescrust {__version__} "
+            f"(command profile, method {method}, seed {seed}, from {study.source}).",
+            f"Re-run with: bayescrust profile run.toml --out NEW_FOLDER --method {method}"]
+    if exact_options:
+        head.append("This run used smaller exact designs than the defaults ("
+                    + ", ".join(f"{k} = {v}" for k, v in exact_options.items())
+                    + "): a re-run agrees within the Monte Carlo errors, not to the digit.")
+    return dumps_toml(data, header="\n".join(head))
 
 
 def cmd_profile(args) -> int:

@@ -300,3 +300,14 @@ def test_chart_rerun_line_of_run_toml_repeats_the_chart(misfit_study, tmp_path):
     assert main(words + ["--no-figures", "-q"]) == 0
     for name in ("chart.csv",):
         assert (tmp_path / "c2" / name).read_text() == (out / name).read_text()
+
+
+def test_check_quiet_prints_the_verdict_line_only(misfit_study, tmp_path, capsys):
+    # -q was accepted and ignored: the whole resolved study (dozens of lines) was printed
+    assert main(["check", "-q", str(misfit_study)]) == 0
+    out = capsys.readouterr().out
+    assert out == f"{misfit_study}: valid (1 layer(s))\n"
+    bad = tmp_path / "bad.toml"
+    bad.write_text(MISFIT_STUDY.replace("top_km = 5.5", "top_km = -5.5"), encoding="utf-8")
+    assert main(["check", "-q", str(bad)]) == 2  # an invalid file still fails, and says why
+    assert "top_km" in capsys.readouterr().err

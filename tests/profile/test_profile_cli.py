@@ -183,3 +183,25 @@ def test_uncoupled_defaults_are_clipped_to_the_temperature_range():
     assert (unc.lo, unc.hi) == (0.0, 1000.0)  # not Uncoupled's 0-1400
     with pytest.raises(ValueError, match="1800.*1600|1600.*1800"):
         Profile([Layer("a", top_km=0.0, bottom_km=2.0, vp=(5.5, 0.2))], Uncoupled(hi=1800.0))
+
+
+def test_profile_writes_a_run_toml_that_repeats_the_run(tmp_path):
+    # every other command wrote run.toml; profile did not, so a profile result could not be
+    # traced to its settings and seed (docs/interpretation.md promises it)
+    import shlex
+
+    study = tmp_path / "p.toml"
+    study.write_text(SMALL, encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["profile", str(study), "--out", str(out), "--no-figures", "-q",
+                 "--seed", "7"]) == 0
+    text = (out / "run.toml").read_text()
+    line = next(x for x in text.splitlines() if "Re-run with:" in x)
+    words = [str(out / "run.toml") if w == "run.toml" else
+             str(tmp_path / "again") if w == "NEW_FOLDER" else w
+             for w in shlex.split(line.split("Re-run with:")[1])]
+    assert words[:2] == ["bayescrust", "profile"]
+    assert main(words[1:] + ["--no-figures", "-q"]) == 0
+    for stem in ("hypotheses", "boundary", "thermal"):
+        assert (tmp_path / "again" / f"{stem}.csv").read_text() == \
+            (out / f"{stem}.csv").read_text(), stem
