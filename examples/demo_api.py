@@ -1,8 +1,10 @@
-"""The demo study from Python: the same job as `bayescrust demo`, through the public API.
+"""One layer of the demo study from Python, through the public API: the exact path, the
+three thermal-state priors, optionally MCMC, and a forward calculation (`bayescrust demo` runs
+the whole study from the shell).
 
 INVENTED DATA: the Tallowmere Ridge, segment TM-3 and lines TL-07/TL-12 are fictional.
 
-Run:  python examples/demo_api.py [OUTPUT_FOLDER]
+Run:  python examples/demo_api.py [OUTPUT_FOLDER] [--mcmc]
 """
 
 import sys
@@ -25,7 +27,8 @@ from bayescrust import priors as P  # noqa: E402
 from bayescrust.report import figures, to_markdown  # noqa: E402
 from bayescrust.report.caution import CAUTION  # noqa: E402
 
-out = Path(sys.argv[1] if len(sys.argv) > 1 else "demo_api_output")
+folders = [a for a in sys.argv[1:] if not a.startswith("--")]
+out = Path(folders[0] if folders else "demo_api_output")
 out.mkdir(parents=True, exist_ok=True)
 
 # 1. One layer, as in the study file: the deep layer of line TL-07 (Vp only).

@@ -55,7 +55,7 @@ SCALAR_PARAMETERS = (
 
 #: Allowed range of each scalar parameter's prior support (physical validity of the forward model).
 PARAMETER_RANGES = {
-    "temperature_c": (-5.0, 1800.0),  # the mineral data's range (physics.minerals)
+    "temperature_c": (-5.0, 1800.0),  # rock_properties' range (physics.rocks)
     "porosity": (0.0, 0.5),
     "aspect_ratio": (1e-4, 1.0),
     "melt_fraction": (0.0, 0.3),
@@ -102,8 +102,9 @@ def default_priors(layer: Layer, rock_names, ultramafic) -> dict:
       spread";
     - ``melt_fraction``: ``Uniform(0, 0.05)`` (effective only above the solidus);
     - ``melt_aspect_ratio``: fixed 0.05 (melt films/tubules);
-    - ``serpentinization``: ``Uniform(0, 1)`` if an ultramafic rock is present (effective only
-      below the serpentine stability limit), else fixed 0.
+    - ``serpentinization``: ``Uniform(0, 1)`` if a peridotite is present (a rock marked
+      ``ultramafic`` in rocks.toml; serpentinite rocks are not: they are serpentine already;
+      effective only below the serpentine stability limit), else fixed 0.
     """
     shallow = layer.mid_depth_km < _DEPTH_POROUS_KM
     return {

@@ -219,7 +219,7 @@ class Profile:
         ``g (rho_w h_w + rho_ref,0 z_top,0 + sum_{j<i} rho_j h_j + rho_ref,i h_i / 2)``
         (hydrostatic column, Turcotte & Schubert 2002 sec. 2.2): the layers above enter with the
         given densities, the upper half of the layer itself with its reference density (an
-        error of at most ``g |rho_i - rho_ref,i| h_i / 2``, ~5 MPa for 1 km and 0.5 g/cm^3).
+        error of at most ``g |rho_i - rho_ref,i| h_i / 2``, ~2.5 MPa for 1 km and 0.5 g/cm^3).
         ``None`` or ``pressure="reference"`` gives the fixed reference column.
         """
         ref = self.reference_densities()
