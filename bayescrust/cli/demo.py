@@ -101,7 +101,8 @@ def cmd_demo(args) -> int:
             plan_s = demo_plan(args, study, tmp / "plan")
             say(args, "demo: whole profile of line TL-12 (structured exact path)")
             profile_s = demo_profile(args, tmp / "study" / "tallowmere_profile.toml",
-                                     tmp / "profile")
+                                     tmp / "profile",
+                                     source=out / "study" / "tallowmere_profile.toml")
             say(args, "demo: which new datum would settle the TL-12 profile's questions (plan)")
             profile_plan_s = demo_profile_plan(args, tmp / "study" / "tallowmere_profile.toml",
                                                tmp / "profile_plan")
@@ -262,12 +263,16 @@ def demo_profile_plan(args, study_path, dest) -> float:
     return time.perf_counter() - t0
 
 
-def demo_profile(args, study_path, dest) -> float:
-    """The demo's profile part (exact path, reduced designs); returns its run time (s)."""
-    from .profile import do_profile, load_profile_study
+def demo_profile(args, study_path, dest, source=None) -> float:
+    """The demo's profile part (exact path, reduced designs); returns its run time (s).
+    ``source``: the study file's path once the demo folder is published (outputs name it, not
+    the temporary folder's)."""
+    from ..config.profile import parse_profile_study
+    from .profile import do_profile
 
     t0 = time.perf_counter()
-    study = load_profile_study(study_path)
+    study = parse_profile_study(Path(study_path).read_text(encoding="utf-8"),
+                                source=str(source or study_path))
     dest.mkdir()
     do_profile(args, study, dest, method="exact", figures=True,
                exact_options={"n_layer": 2**12, "n_thermal": 64, "n_replicates": 3})

@@ -189,6 +189,11 @@ def test_demo_runs(tmp_path):
     hyp = pd.read_csv(out / "invert" / "hypotheses.csv")
     for _, g in hyp.groupby("layer"):  # every demo layer's interpretations partition the space
         assert abs(g["posterior_probability"].sum() - 1) < SUM_TOL
+    # outputs name the published folder, never the temporary one the demo was written into
+    # (profile/run.toml named '.demo.partial-...')
+    for f in out.rglob("*"):
+        if f.suffix in (".toml", ".md", ".csv", ".tex"):
+            assert ".partial" not in f.read_text(encoding="utf-8"), f
 
 
 def test_demo_second_process_echoes_its_warnings(tmp_path, monkeypatch, capsys):
