@@ -106,8 +106,8 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
              "`posterior_probability_equal_odds` is the probability of each. The `_error` "
              "columns are Monte Carlo errors from the log-evidence errors taken as independent: "
              "conservative, as every prior is run with the same seed. A thermal state favoured "
-             "by less than its error, or by a log10 Bayes factor below 0.5 (Kass & Raftery "
-             "1995: not worth more than a bare mention), is not a finding.", "",
+             "by less than its error, or by a log10 Bayes factor below 0.43 (2 ln B < 2; Kass "
+             "& Raftery 1995: not worth more than a bare mention), is not a finding.", "",
              "## Evidence", "", to_markdown(ev.set_index("layer")), "",
              "## Interpretations", "", to_markdown(probs.set_index("layer")), ""]
     if warn.messages:

@@ -264,3 +264,14 @@ def test_demo_map_records_the_final_name_of_its_input(tmp_path):
     demo_grid(argparse.Namespace(seed=0), work / "map", work / "study", final / "study")
     with xr.open_dataset(work / "map" / "map.nc") as ds:
         assert ds.attrs["source"] == str(final / "study" / "tallowmere_section.nc")
+
+
+def test_compare_report_states_the_bare_mention_edge_of_its_categories(small_study, tmp_path):
+    # Kass & Raftery (1995): 2 ln B < 2 is "not worth more than a bare mention", i.e.
+    # |log10 B| < 1 / ln 10 = 0.434. The evidence categories of every table use that edge, so
+    # the report must not quote 0.5 (a log10 B of 0.47 is "positive" in hypotheses.csv).
+    out = tmp_path / "cmp"
+    assert main(["compare", str(small_study), "--out", str(out), "--no-figures", "-q"]) == 0
+    text = (out / "report.md").read_text()
+    assert "log10 Bayes factor below 0.43" in text
+    assert "below 0.5" not in text
