@@ -243,3 +243,22 @@ def test_section_map_refuses_a_distance_that_is_not_a_horizontal_dim():
     with pytest.raises(ValueError, match="'y' is not a horizontal dim"):
         _section(ds, "p_mantle")
     assert _section(ds, "p_mantle", distance="x")[2] == "x"
+
+
+def test_readme_states_the_grid_age_not_the_replaced_age_prior(tmp_path, section):
+    # `[grid] age` replaces the age_myr prior of every half-space zone (docs/grid.md), so the
+    # README's assumptions must give the ages the map used (here |x - 0| / 10 mm/yr: 0.001-1
+    # Myr over x = 0..10 km), not the zone's unused default "Uniform(2, 20)".
+    section.isel(x=[0, 5]).to_netcdf(tmp_path / "g.nc", engine="h5netcdf")
+    text = STUDY.format(sigma="0.1").replace(
+        "[grid]", '[thermal.plate]\nkind = "half_space"\n[grid]\ndistance = "x"\n'
+                  'age = { axis = 0.0, half_rate_mm_yr = 10.0 }')
+    text += 'thermal_prior = "plate"\n'
+    p = tmp_path / "study.toml"
+    p.write_text(text)
+    out = tmp_path / "out"
+    assert main(["map", str(p), "--out", str(out), "-q", "--no-figures"]) == 0
+    readme = (out / "README.md").read_text()
+    zone_line = next(line for line in readme.splitlines() if line.startswith("- zone 'lower'"))
+    assert "Uniform(2, 20)" not in zone_line
+    assert "crustal age from grid.age: 0.001-1 Myr" in zone_line
