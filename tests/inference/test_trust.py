@@ -220,3 +220,14 @@ def test_correlated_model_error_gives_the_calibrated_vp_vs_error():
     mu = np.sum(dens * lr) * cell
     sd = math.sqrt(np.sum(dens * (lr - mu) ** 2) * cell)
     assert sd == pytest.approx(DEFAULT_MODEL_ERROR["vp_vs"], rel=0.03)  # first-order propagation
+
+
+def test_a_far_upper_tail_misfit_has_a_small_but_nonzero_p_value():
+    # Vp 8.9 km/s for gabbros at 5 km lies ~9 predictive sd above what they give (~7.1 km/s).
+    # A Gaussian tail there is ~1e-19 (common practice), not 0: the upper tail must not be
+    # taken as 1 - P(y_rep <= y), which rounds to exactly 0 (the report printed "p-value 0").
+    res, _ = _exact(bc.Layer("too fast", vp=(8.9, 0.05), top_km=4.0, bottom_km=6.0,
+                             water_depth_km=3.0), rocks=("gabbro", "olivine_gabbro"))
+    v = res.predictive_check["observables"]["vp"]
+    assert v["z"] > 6
+    assert 0.0 < v["p_value"] < 1e-10
