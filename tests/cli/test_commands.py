@@ -275,3 +275,16 @@ def test_compare_report_states_the_bare_mention_edge_of_its_categories(small_stu
     text = (out / "report.md").read_text()
     assert "log10 Bayes factor below 0.43" in text
     assert "below 0.5" not in text
+
+
+def test_chart_title_names_the_other_observations_held_fixed(small_study):
+    # The chart varies Vp only; a figure read alone (in a manuscript) must say the layer's other
+    # data (here Vs 3.9 +- 0.1 km/s) were held, or it reads as a Vp-only chart.
+    from bayescrust.cli.chart import chart_title
+    from bayescrust.config import load_study
+
+    study = load_study(small_study)
+    with_vs = next(lay for lay in study.layers if lay.name == "lower crust with Vs")
+    assert "Vs 3.9 ± 0.1 km/s held fixed" in chart_title(with_vs)
+    vp_only = next(lay for lay in study.layers if lay.name == "lower crust")
+    assert "held" not in chart_title(vp_only)
