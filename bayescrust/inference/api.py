@@ -104,6 +104,12 @@ def _trust(model, hyps, post, summary, hyp_table, diagnostics, *, sampler_conver
     if check["misfit"]:
         warnings.warn(f"layer {model.layer.name!r}: {misfit_message(check)}", MisfitWarning,
                       stacklevel=3)
+    if {"vp", "vs", "vp_vs"} <= set(model.observed):
+        warnings.warn(f"layer {model.layer.name!r}: Vp, Vs and Vp/Vs are all given; the "
+                      "likelihood takes Vp/Vs as a third independent datum (without the Vp-Vs "
+                      "model-error correlation), so a ratio computed from this Vp and Vs is "
+                      "counted twice: give it only if measured independently", UserWarning,
+                      stacklevel=3)
     if method == "mcmc" and sampler_converged and not verdict["converged"]:
         warnings.warn(f"layer {model.layer.name!r}: not converged: R-hat of "
                       f"{verdict['worst']} is {verdict['max_r_hat']:.3f} (rule: "

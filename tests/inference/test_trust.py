@@ -231,3 +231,19 @@ def test_a_far_upper_tail_misfit_has_a_small_but_nonzero_p_value():
     v = res.predictive_check["observables"]["vp"]
     assert v["z"] > 6
     assert 0.0 < v["p_value"] < 1e-10
+
+
+def test_vp_vs_given_with_vp_and_vs_is_warned_as_counted_twice():
+    # Vp/Vs is Vp divided by Vs (a definition): given beside both, the likelihood takes it as a
+    # third independent datum and drops the Vp-Vs model-error correlation, so a ratio computed
+    # from the same picks is counted twice. The run must say so.
+    layer = bc.Layer("three", vp=(7.0, 0.1), vs=(3.8, 0.1), vp_vs=(7.0 / 3.8, 0.05), **DEEP)
+    with warnings.catch_warnings(record=True) as rec:
+        warnings.simplefilter("always")
+        bc.exact_layer(layer, rocks=("gabbro", "harzburgite"), **FAST)
+    assert any("counted twice" in str(w.message) for w in rec)
+    with warnings.catch_warnings(record=True) as rec:
+        warnings.simplefilter("always")
+        bc.exact_layer(bc.Layer("two", vp=(7.0, 0.1), vs=(3.8, 0.1), **DEEP),
+                       rocks=("gabbro", "harzburgite"), **FAST)
+    assert not any("counted twice" in str(w.message) for w in rec)
