@@ -23,6 +23,7 @@ from .results import (
     agresti_coull_se,
     build_idata,
     hypothesis_table,
+    is_constant,
     probabilities_mcmc,
     summarize,
 )
@@ -388,7 +389,8 @@ def _weighted_moments(summary, q, wn):
             continue
         mean = float(np.sum(wn * v))
         summary.loc[name, "mean"] = mean
-        summary.loc[name, "sd"] = float(np.sqrt(max(np.sum(wn * (v - mean) ** 2), 0.0)))
+        summary.loc[name, "sd"] = 0.0 if is_constant(v[wn > 0]) else float(
+            np.sqrt(max(np.sum(wn * (v - mean) ** 2), 0.0)))
     return summary
 
 
