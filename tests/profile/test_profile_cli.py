@@ -183,3 +183,14 @@ def test_uncoupled_defaults_are_clipped_to_the_temperature_range():
     assert (unc.lo, unc.hi) == (0.0, 1000.0)  # not Uncoupled's 0-1400
     with pytest.raises(ValueError, match="1800.*1600|1600.*1800"):
         Profile([Layer("a", top_km=0.0, bottom_km=2.0, vp=(5.5, 0.2))], Uncoupled(hi=1800.0))
+
+
+def test_a_gap_between_profile_layers_names_the_layer_key_and_the_expected_depth():
+    # The error must name the key to edit (profile.layers[1].top_km) and the value it must take,
+    # not "profile: profile: layer 'lower' ..." under the whole [profile] table.
+    with pytest.raises(StudyError) as e:
+        parse_profile_study(SMALL.replace("top_km = 2.0", "top_km = 2.5"), source="bad.toml")
+    msg = str(e.value)
+    assert "bad.toml: profile.layers[1].top_km:" in msg
+    assert "got 2.5" in msg and "2 km" in msg
+    assert "profile: profile:" not in msg
