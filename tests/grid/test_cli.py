@@ -262,3 +262,33 @@ def test_readme_states_the_grid_age_not_the_replaced_age_prior(tmp_path, section
     zone_line = next(line for line in readme.splitlines() if line.startswith("- zone 'lower'"))
     assert "Uniform(2, 20)" not in zone_line
     assert "crustal age from grid.age: 0.001-1 Myr" in zone_line
+
+
+def test_section_map_depth_axis_carries_the_grid_unit_and_points_down():
+    # A section in metres was drawn as "z (km)" with 4000-12000 on it; a node list (CSV) had no
+    # depth label, depth increasing upwards, and a masked first node made matplotlib warn.
+    # Depth axes of sections point down (common practice).
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from bayescrust.report.grid_maps import section_map
+
+    z = np.array([3000.0, 4000.0, 5000.0])
+    ds = xr.Dataset({"p_mantle": (("x", "z"), np.full((2, 3), 0.5))},
+                    coords={"x": [0.0, 1.0], "z": z},
+                    attrs={"distance": "x", "depth_unit": "m"})
+    fig = section_map(ds, "p_mantle")
+    assert fig.axes[0].get_ylabel() == "z (m)"
+    plt.close(fig)
+    p = np.array([np.nan, 0.2, 0.9])
+    nodes = xr.Dataset({"p_mantle": (("node",), p)},
+                       coords={"node": np.arange(3), "x": ("node", [0.0, 0.0, 1.0]),
+                               "z": ("node", [3.5, 4.5, 5.5])},
+                       attrs={"distance": "x", "depth_reference": "sea_level"})
+    fig = section_map(nodes, "p_mantle")
+    ax = fig.axes[0]
+    assert ax.get_ylabel() == "depth below sea level (km)"
+    assert ax.yaxis_inverted()
+    plt.close(fig)
