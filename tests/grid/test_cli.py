@@ -292,3 +292,23 @@ def test_section_map_depth_axis_carries_the_grid_unit_and_points_down():
     assert ax.get_ylabel() == "depth below sea level (km)"
     assert ax.yaxis_inverted()
     plt.close(fig)
+
+
+def test_a_node_list_in_metres_is_written_with_its_depths_in_km_and_says_so(tmp_path):
+    # A CSV grid's node depths are converted to km when read; map.nc said depth_unit = "m"
+    # beside z = 3.5 ... 6.5 and gave z no unit at all.
+    import pandas as pd
+
+    pd.DataFrame({"dist": [0.0, 0.0, 5.0], "depth": [4500.0, 6000.0, 6500.0],
+                  "vp": [6.8, 7.6, 7.7]}).to_csv(tmp_path / "n.csv", index=False)
+    study = tmp_path / "study.toml"
+    study.write_text(STUDY.format(sigma="0.1").replace('file = "g.nc"', 'file = "n.csv"')
+                     .replace('depth = "z"', 'depth = "depth"\ndepth_unit = "m"\n'
+                              'distance = "dist"\ndepth_reference = "sea_level"')
+                     .replace("seafloor = 3.0", "seafloor = 3000.0"))
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "-q", "--no-figures"]) == 0
+    with xr.open_dataset(out / "map.nc") as ds:
+        assert float(ds["z"].max()) == pytest.approx(6.5)
+        assert ds["z"].attrs["units"] == "km"
+        assert ds.attrs["depth_unit"] == "km"
