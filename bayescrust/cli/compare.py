@@ -58,13 +58,15 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
                                   "prior_probability": row["prior_probability"],
                                   "posterior_probability": row["posterior_probability"],
                                   "posterior_mcse": row["posterior_mcse"],
-                                  "data_fit": row.get("data_fit", "")})
+                                  "data_fit": row.get("data_fit", ""),
+                                  "converged": bool(cmp.results[th.name].converged)})
         e = cmp.evidence.rename(columns={
             "posterior_probability": "posterior_probability_equal_odds",
             "posterior_probability_error": "posterior_probability_equal_odds_error"})
         e = e.rename_axis("thermal_prior").reset_index()
         e.insert(0, "layer", layer.name)
         e.insert(2, "kind", [th.kind for th in thermals])
+        e["converged"] = [bool(cmp.results[name].converged) for name in e["thermal_prior"]]
         ev_frames.append(e)
     probs = pd.DataFrame(prob_rows)
     ev = pd.concat(ev_frames, ignore_index=True)

@@ -288,3 +288,18 @@ def test_chart_title_names_the_other_observations_held_fixed(small_study):
     assert "Vs 3.9 ± 0.1 km/s held fixed" in chart_title(with_vs)
     vp_only = next(lay for lay in study.layers if lay.name == "lower crust")
     assert "held" not in chart_title(vp_only)
+
+
+def test_compare_tables_say_when_a_run_did_not_converge(small_study, tmp_path):
+    # hypotheses.csv carries `converged` so that a table read on its own says when its numbers
+    # come from an unconverged run; comparison.csv and evidence.csv must too.
+    text = small_study.read_text().replace('method = "exact"', 'method = "mcmc"\nmax_steps = 100')
+    study = tmp_path / "short.toml"
+    study.write_text(text)
+    out = tmp_path / "cmp"
+    assert main(["compare", str(study), "--out", str(out), "--no-figures", "-q",
+                 "--layer", "lower crust"]) == 0
+    for name in ("comparison", "evidence"):
+        t = pd.read_csv(out / f"{name}.csv")
+        assert "converged" in t.columns, name
+        assert not t["converged"].any(), name
