@@ -211,3 +211,18 @@ def test_study_file_doc_gives_the_observable_ranges_the_reader_enforces():
         m = re.search(pattern, doc)
         assert m, name
         assert (float(m.group(1)), float(m.group(2))) == OBSERVABLES[name][0], name
+
+
+def test_a_users_own_folder_is_not_called_results_nor_offered_to_overwrite(tmp_path, capsys):
+    # --out pointing at a folder of the user's own files: it does not "hold results", and
+    # --overwrite would be refused there, so the message must not suggest it.
+    p = tmp_path / "s.toml"
+    p.write_text(GOOD)
+    mine = tmp_path / "mine"
+    mine.mkdir()
+    (mine / "notes.txt").write_text("field notes")
+    rc = main(["invert", str(p), "--out", str(mine), "-q", "--no-figures"])
+    err = capsys.readouterr().err
+    assert rc == 2 and "mine: --out:" in err
+    assert "already holds results" not in err and "--overwrite" not in err
+    assert (mine / "notes.txt").read_text() == "field notes"
