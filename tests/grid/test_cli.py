@@ -312,3 +312,15 @@ def test_a_node_list_in_metres_is_written_with_its_depths_in_km_and_says_so(tmp_
         assert float(ds["z"].max()) == pytest.approx(6.5)
         assert ds["z"].attrs["units"] == "km"
         assert ds.attrs["depth_unit"] == "km"
+
+
+def test_check_validates_a_grid_study(tmp_path, section, capsys):
+    # README: `bayescrust check` validates a study before a run; a valid [grid] study exited 2
+    # ("a [grid] study; run it with `bayescrust map`") without being checked.
+    study = _setup(tmp_path, section)
+    assert main(["check", str(study)]) == 0
+    out = capsys.readouterr().out
+    assert "valid grid study" in out and "zone 'lower'" in out and "bayescrust map" in out
+    study.write_text(STUDY.format(sigma="0.1").replace("level_km = 1.0", "level_km = -1.0"))
+    assert main(["check", str(study)]) == 2
+    assert "grid.level_km" in capsys.readouterr().err
