@@ -110,7 +110,7 @@ def predictive_check(model, q: dict, *, alpha: float = PPC_ALPHA, weights=None,
         mean = _mean(m, w) if m.size else math.nan
         sd = math.sqrt(_mean((m - mean) ** 2, w) + var_noise) if m.size else math.nan
         obs[k] = {"observed": y, "predicted_mean": mean, "predicted_sd": sd,
-                  "z": (y - mean) / sd if sd > 0 else math.nan, "p_value": p}
+                  "z": (y - mean) / sd if 0 < sd < math.inf else math.nan, "p_value": p}
     if "vp" in model.observed and "vs" in model.observed and "vp_vs" not in model.observed:
         obs["vp_vs (from Vp, Vs)"] = _pair_ratio_check(model, q, weights, observed)
     flagged = [k for k, v in obs.items() if not v["p_value"] >= alpha]

@@ -247,3 +247,13 @@ def test_vp_vs_given_with_vp_and_vs_is_warned_as_counted_twice():
         bc.exact_layer(bc.Layer("two", vp=(7.0, 0.1), vs=(3.8, 0.1), **DEEP),
                        rocks=("gabbro", "harzburgite"), **FAST)
     assert not any("counted twice" in str(w.message) for w in rec)
+
+
+def test_student_t_with_two_degrees_of_freedom_has_no_standardised_residual():
+    # A Student-t with nu <= 2 has infinite variance (common practice): the predictive sd is
+    # infinite and z = residual / sd is undefined, not 0 (which read as a perfect fit).
+    res, _ = _exact(bc.Layer("deep", vp=(7.8, 0.1), **DEEP), rocks=("gabbro", "harzburgite"),
+                    likelihood="student_t", nu=2.0)
+    v = res.predictive_check["observables"]["vp"]
+    assert math.isinf(v["predicted_sd"])
+    assert math.isnan(v["z"])
