@@ -82,7 +82,29 @@ def references(rocks_or_result=None) -> list[str]:
         fwd = rocks_or_result.settings.get("forward") or {}
         used = [SETTING_REFERENCES[v] for v in (fwd.get("mixing"), fwd.get("inclusion_scheme"))
                 if v in SETTING_REFERENCES]
-    return list(dict.fromkeys(out + short + used + list(INFERENCE_REFERENCES)))
+    return _one_per_work(list(dict.fromkeys(out + short + used + list(INFERENCE_REFERENCES))))
+
+
+_AUTHOR_YEAR = re.compile(r"^(?P<authors>.+?) \((?P<year>\d{4})[a-z]?\)")
+_SURNAME = re.compile(r"[A-Z][a-z][A-Za-z'\-]+")
+
+
+def _one_per_work(refs: list[str]) -> list[str]:
+    """Drop an entry whose year matches a longer entry whose surnames include all of its own:
+    a note on a work already listed ("X & Y (2016) eq. for ...", "X et al. (1997)")."""
+    keys = []
+    for r in refs:
+        m = _AUTHOR_YEAR.match(r)
+        keys.append((frozenset(_SURNAME.findall(m["authors"])), m["year"]) if m else None)
+    keep = []
+    for i, r in enumerate(refs):
+        k = keys[i]
+        covered = k is not None and k[0] and any(
+            j != i and kj is not None and kj[1] == k[1] and k[0] <= kj[0]
+            and (len(refs[j]), -j) > (len(r), -i) for j, kj in enumerate(keys))
+        if not covered:
+            keep.append(r)
+    return keep
 
 
 #: An inline citation "Surname[, Surname][ & Surname| et al.] [(]YYYY" inside a source note.
