@@ -151,6 +151,9 @@ def bibtex(refs) -> str:
     return "\n\n".join(entries) + "\n"
 
 
+#: Names of the observables in a methods sentence.
+_OBS_LABEL = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density"}
+
 #: The averaging rule of the solid, as a methods sentence names it (``[forward] mixing``).
 _MIXING_TEXT = {
     "hill": "Voigt-Reuss-Hill average (Hill, 1952)",
@@ -211,6 +214,15 @@ def methods_paragraph(results: dict) -> str:
         return "; ".join(f"{names.get(k, k.replace('_', ' '))}: {v}"
                          for k, v in (st.get("priors") or {}).items()) or "the package defaults"
 
+    def error_text(st):
+        me = st.get("model_error") or {}
+        text = ", ".join(f"{_OBS_LABEL.get(k, k)} {100 * float(v):.1f} %" for k, v in me.items())
+        rho = st.get("model_error_correlation")
+        if ("vp" in me and "vs" in me and rho is not None
+                and st.get("likelihood", "gaussian") == "gaussian"):
+            text += f"; Vp and Vs errors correlated, {float(rho):.2f}"
+        return text or "none"
+
     per = {n: r.settings for n, r in results.items()}
     rocks = _grouped({n: ", ".join(st.get("rocks", ())) for n, st in per.items()})
     lines = [
@@ -221,7 +233,8 @@ def methods_paragraph(results: dict) -> str:
         "serpentine stability limit.",
         f"Priors were: {_grouped({n: prior_text(st) for n, st in per.items()})}; the "
         f"likelihood was {s.get('likelihood', 'gaussian')}, with measurement and "
-        "forward-model errors added in quadrature.",
+        f"forward-model errors added in quadrature (the forward-model error as a fraction "
+        f"of the predicted value: {_grouped({n: error_text(st) for n, st in per.items()})}).",
     ]
     if method == "mcmc":
         smp = s.get("sampler") or {}

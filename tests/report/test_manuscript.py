@@ -237,3 +237,12 @@ def test_reference_list_gives_each_work_once():
     assert sum(r.startswith("Mavko") for r in refs) == 1
     assert any(r.startswith("Brown & Abramson (2016)") for r in refs)
     assert any(r.startswith("Brown, Angel & Ross (2016)") for r in refs)
+
+
+def test_methods_paragraph_states_the_forward_model_error(res):
+    # The forward-model error sets the likelihood's width (2.7 % of a Vp is ~0.19 km/s, more
+    # than a typical refraction error); a methods paragraph that omits it cannot be reproduced.
+    text = methods_paragraph({"lower crust": res})
+    for name, value in res.settings["model_error"].items():
+        label = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density"}[name]
+        assert f"{label} {100 * value:.1f} %" in text, name
