@@ -19,7 +19,7 @@ from .shell import (
 )
 
 __all__ = ["add_parser", "cmd_chart", "do_chart", "probability_table", "misfit_ranges",
-           "COLUMNS"]
+           "chart_title", "COLUMNS"]
 
 
 def probability_table(study, layer, vp_values, *, thermals=None, method="exact", seed=0,
@@ -139,6 +139,19 @@ def _vp_grid(args, layer):
     return np.round(np.linspace(lo, hi, args.points), 6)
 
 
+#: Labels and units of the observations a chart holds fixed, for its title.
+_HELD = {"vs": ("Vs", " km/s"), "vp_vs": ("Vp/Vs", ""), "density": ("density", " g/cm^3")}
+
+
+def chart_title(layer) -> str:
+    """The chart figure's title: the layer, the Vp error, and the other data held fixed."""
+    obs = layer.observations
+    held = [f"{_HELD[k][0]} {o.value:g} ± {o.sigma:g}{_HELD[k][1]}"
+            for k, o in obs.items() if k in _HELD]
+    return (f"{layer.name}: probability against observed Vp (σ = {obs['vp'].sigma:g} km/s"
+            + (f"; {', '.join(held)} held fixed)" if held else ")"))
+
+
 def do_chart(args, study, dest: Path, *, layer_name, method, figures: bool):
     from ..report.caution import caution_text
 
@@ -164,8 +177,7 @@ def do_chart(args, study, dest: Path, *, layer_name, method, figures: bool):
 
         vp = layer.observations["vp"]
         fig = F.probability_chart(table, observed=(vp.value, vp.sigma), misfit=ranges,
-                                  title=f"{layer.name}: probability against observed Vp "
-                                        f"(σ = {vp.sigma:g} km/s)")
+                                  title=chart_title(layer))
         save_figure(fig, dest, "chart")
     extra = {"command": "chart", "layer": layer.name, "method": method, "seed": seed,
              "vp_grid": [float(v) for v in grid]}

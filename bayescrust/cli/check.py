@@ -1,5 +1,5 @@
-"""``bayescrust check``: validate a study file (layer or ``[profile]`` study) and print the
-resolved study."""
+"""``bayescrust check``: validate a study file (layer, ``[profile]`` or ``[grid]`` study) and
+print the resolved study."""
 
 from __future__ import annotations
 
@@ -10,6 +10,17 @@ from .layers import build, defaults_used
 from .shell import InputError
 
 __all__ = ["add_parser", "cmd_check"]
+
+
+def _has_table(path, name) -> bool:
+    """Whether ``path`` is a readable TOML file with a top-level ``name`` table."""
+    import tomllib
+    from pathlib import Path
+
+    try:
+        return name in tomllib.loads(Path(path).read_text(encoding="utf-8"))
+    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError):
+        return False  # the layer-study reader reports the problem
 
 
 def _check_profile(path, quiet=False) -> int:
@@ -31,12 +42,36 @@ def _check_profile(path, quiet=False) -> int:
     return 0
 
 
+def _check_grid(path, quiet=False) -> int:
+    from ..config.grid import load_grid_study
+
+    g = load_grid_study(path)  # validates every key of the study (the grid file is read by map)
+    lines = [f"# {g.source}: valid grid study ({len(g.zones)} zone(s)) of `{g.file.name}`; run "
+             "it with `bayescrust map`."]
+    if quiet:
+        sys.stdout.write(lines[0].removeprefix("# ") + "\n")
+        return 0
+    for z in g.zones:
+        pri = "; ".join(f"{k}: {v.describe() if hasattr(v, 'describe') else v}"
+                        for k, v in (z.priors or {}).items()) or "defaults"
+        lines.append(f"# zone {z.name!r}: {z.top_km:g}-{z.bottom_km:g} km below the seafloor, "
+                     f"rocks {', '.join(z.rocks)}; priors: {pri}")
+    age = getattr(g.mapping, "age", None)
+    if age is not None:
+        lines.append(f"# crustal age: grid.age = {age!r} replaces the age_myr of every "
+                     "half-space prior above, node by node")
+    sys.stdout.write("\n".join(lines) + "\n")
+    return 0
+
+
 def cmd_check(args) -> int:
     from ..config import build_thermal_prior
     from .profile import is_profile_study
 
     if is_profile_study(args.study):
         return _check_profile(args.study, quiet=args.quiet)
+    if _has_table(args.study, "grid"):
+        return _check_grid(args.study, quiet=args.quiet)
     study = load_study(args.study)
     for layer in study.layers:
         build(study, layer)  # API validation of observations and priors
@@ -62,7 +97,7 @@ def cmd_check(args) -> int:
 
 def add_parser(sub) -> None:
     """Register the ``check`` command."""
-    sp = sub.add_parser("check", help="validate a study file (a layer study or a [profile] "
+    sp = sub.add_parser("check", help="validate a study file (a layer, [profile] or [grid] "
                                       "study) and print the resolved study")
     sp.add_argument("study", metavar="STUDY.toml")
     sp.add_argument("-q", "--quiet", action="store_true",

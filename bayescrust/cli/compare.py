@@ -58,13 +58,15 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
                                   "prior_probability": row["prior_probability"],
                                   "posterior_probability": row["posterior_probability"],
                                   "posterior_mcse": row["posterior_mcse"],
-                                  "data_fit": row.get("data_fit", "")})
+                                  "data_fit": row.get("data_fit", ""),
+                                  "converged": bool(cmp.results[th.name].converged)})
         e = cmp.evidence.rename(columns={
             "posterior_probability": "posterior_probability_equal_odds",
             "posterior_probability_error": "posterior_probability_equal_odds_error"})
         e = e.rename_axis("thermal_prior").reset_index()
         e.insert(0, "layer", layer.name)
         e.insert(2, "kind", [th.kind for th in thermals])
+        e["converged"] = [bool(cmp.results[name].converged) for name in e["thermal_prior"]]
         ev_frames.append(e)
     probs = pd.DataFrame(prob_rows)
     ev = pd.concat(ev_frames, ignore_index=True)
@@ -106,8 +108,8 @@ def do_compare(args, study, dest: Path, *, method, figures: bool, layer_names=No
              "`posterior_probability_equal_odds` is the probability of each. The `_error` "
              "columns are Monte Carlo errors from the log-evidence errors taken as independent: "
              "conservative, as every prior is run with the same seed. A thermal state favoured "
-             "by less than its error, or by a log10 Bayes factor below 0.5 (Kass & Raftery "
-             "1995: not worth more than a bare mention), is not a finding.", "",
+             "by less than its error, or by a log10 Bayes factor below 0.43 (2 ln B < 2; Kass "
+             "& Raftery 1995: not worth more than a bare mention), is not a finding.", "",
              "## Evidence", "", to_markdown(ev.set_index("layer")), "",
              "## Interpretations", "", to_markdown(probs.set_index("layer")), ""]
     if warn.messages:

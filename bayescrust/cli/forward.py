@@ -88,7 +88,8 @@ def cmd_forward(args) -> int:
     except ValueError as exc:
         raise InputError(f"forward: {exc}") from None
     n = max([v.size for v in vals.values()] + [1])
-    table = {k: np.broadcast_to(np.asarray(v, float), (n,)) for k, v in vals.items()}
+    # the values computed with: melt and serpentine switched off where not physical (notes)
+    table = {k: np.broadcast_to(np.asarray(kw.get(k, v), float), (n,)) for k, v in vals.items()}
     for q in ("vp", "vs", "density"):
         table[q] = np.broadcast_to(np.asarray(getattr(props, q), float), (n,))
     rows = [{k: float(v[i]) for k, v in table.items()} for i in range(n)]

@@ -52,7 +52,7 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
                   "on the maps, counted per column in `column_summary.csv`); their "
                   "probabilities are conditional on a model that does not fit (details under "
                   "Warnings).", ""]
-    lines += [caution_text(_assumptions(study)), "## This map", "",
+    lines += [caution_text(_assumptions(study, ds)), "## This map", "",
               f"- input: `{study.file.name}`, {grid.n_nodes} nodes, {ds.attrs['n_masked']} masked",
              f"- method: {ds.attrs['method']}; {ds.attrs['path_choice']}",
              f"- execution: {ds.attrs['execution']}, {t_map:.1f} s",
@@ -97,15 +97,29 @@ def do_map(args, study, folder: Path, *, store=None, figures=True, validate=0, m
     return ds
 
 
-def _assumptions(study) -> dict:
+def _prior_text(v, ages) -> str:
+    """A zone prior as the README states it; with ``ages`` (the (lo, hi) Myr of `[grid] age`)
+    a half-space prior's replaced ``age_myr`` is given as those ages."""
+    text = v.describe() if hasattr(v, "describe") else str(v)
+    if ages is not None and hasattr(v, "age_myr"):
+        text = text.replace(f"age_myr={v.age_myr.describe()}",
+                            f"crustal age from grid.age: {ages[0]:g}-{ages[1]:g} Myr")
+    return text
+
+
+def _assumptions(study, ds=None) -> dict:
     """The key assumptions of a map, for the caution paragraph (as the layer reports')."""
     a = {"forward model": "package defaults (Hill mixing, DEM inclusions, lizardite, "
                           "anelastic correction)",
          "likelihood": "gaussian (default forward-model error)"}
+    ages = None
+    if ds is not None and "crustal_age" in ds and getattr(study.mapping, "age", None) is not None:
+        import numpy as np
+
+        ages = (float(np.nanmin(ds["crustal_age"])), float(np.nanmax(ds["crustal_age"])))
     for z in study.zones:
         pri = z.priors or {}
-        desc = "; ".join(f"{k}: {v.describe() if hasattr(v, 'describe') else v}"
-                         for k, v in pri.items()) or "defaults"
+        desc = "; ".join(f"{k}: {_prior_text(v, ages)}" for k, v in pri.items()) or "defaults"
         a[f"zone {z.name!r}"] = (f"{z.top_km:g}-{z.bottom_km:g} km below the seafloor, rocks "
                                  f"{', '.join(z.rocks)}; priors: {desc}")
     a["interpretations"] = "the package defaults of each zone's rocks (docs/grid.md)"

@@ -83,6 +83,9 @@ class AtomicFolder:
 
     def _check_replaceable(self, final: Path):
         if not self.overwrite:
+            if not _is_results_folder(final):  # a user's own files: --overwrite would refuse
+                raise InputError(f"{final}: {self.option}: folder exists, is not empty and was "
+                                 "not written by bayescrust; choose another folder")
             raise InputError(f"{final}: {self.option}: folder already holds results; choose "
                              "another folder or pass --overwrite")
         here = final.resolve()

@@ -202,6 +202,10 @@ def parse_profile_study(text: str, *, source: str = "<profile study>") -> Profil
             if d not in lt:
                 r.fail(f"{k}.{d}", "missing (km below the seafloor)")
             kw[d] = r.number(f"{k}.{d}", lt[d], 0.0, 100.0, unit="km")
+        if layers and abs(kw["top_km"] - layers[-1].bottom_km) > 1e-6:
+            r.fail(f"{k}.top_km", f"got {kw['top_km']:g}, expected {layers[-1].bottom_km:g} km, "
+                   f"the bottom_km of layer {layers[-1].name!r} (layers are contiguous, top "
+                   "to bottom)")
         for ob in ("vp", "vs", "vp_vs", "density"):
             if ob in lt:
                 v = lt[ob]

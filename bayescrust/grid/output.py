@@ -118,6 +118,11 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
             coords[k] = (k, np.asarray(c))
         elif np.shape(c) == shape:
             coords[k] = (dims, np.asarray(c))
+    depth_unit = grid.depth_unit
+    if dims == ("node",) and "z" in coords:  # a node list's depths were read into km
+        depth_unit = "km"
+        ref = "sea level" if grid.depth_reference == "sea_level" else "the seafloor"
+        coords["z"] = (*coords["z"], {"units": "km", "long_name": f"depth below {ref}"})
     other = tuple(x for x in dims if x != grid.depth_dim)
     if dims != ("node",) and other:
         data["seafloor_depth"] = (other, grid.seafloor_km.reshape(
@@ -136,7 +141,7 @@ def build_dataset(grid, zones, run, flat, order, zone_of, hyp_names, info):
              "n_chunks_computed": info["n_chunks_computed"], "fingerprint": info["fingerprint"],
              "zones": "; ".join(f"{z.name}: {z.top_km:g}-{z.bottom_km:g} km below seafloor, "
                                 f"rocks {', '.join(z.rocks)}" for z in zones),
-             "n_nodes": n, "n_masked": int(n - order.size), "depth_unit": grid.depth_unit,
+             "n_nodes": n, "n_masked": int(n - order.size), "depth_unit": depth_unit,
              "depth_reference": grid.depth_reference,
              "observables": ", ".join(grid.values),
              "n_refined": int(np.sum(q == QUALITY_FLAGS["refined"])),

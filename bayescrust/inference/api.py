@@ -23,6 +23,7 @@ from .results import (
     agresti_coull_se,
     build_idata,
     hypothesis_table,
+    is_constant,
     probabilities_mcmc,
     summarize,
 )
@@ -103,6 +104,12 @@ def _trust(model, hyps, post, summary, hyp_table, diagnostics, *, sampler_conver
     hyp_table["converged"] = bool(verdict["converged"])
     if check["misfit"]:
         warnings.warn(f"layer {model.layer.name!r}: {misfit_message(check)}", MisfitWarning,
+                      stacklevel=3)
+    if {"vp", "vs", "vp_vs"} <= set(model.observed):
+        warnings.warn(f"layer {model.layer.name!r}: Vp, Vs and Vp/Vs are all given; the "
+                      "likelihood takes Vp/Vs as a third independent datum (without the Vp-Vs "
+                      "model-error correlation), so a ratio computed from this Vp and Vs is "
+                      "counted twice: give it only if measured independently", UserWarning,
                       stacklevel=3)
     if method == "mcmc" and sampler_converged and not verdict["converged"]:
         warnings.warn(f"layer {model.layer.name!r}: not converged: R-hat of "
@@ -382,7 +389,8 @@ def _weighted_moments(summary, q, wn):
             continue
         mean = float(np.sum(wn * v))
         summary.loc[name, "mean"] = mean
-        summary.loc[name, "sd"] = float(np.sqrt(max(np.sum(wn * (v - mean) ** 2), 0.0)))
+        summary.loc[name, "sd"] = 0.0 if is_constant(v[wn > 0]) else float(
+            np.sqrt(max(np.sum(wn * (v - mean) ** 2), 0.0)))
     return summary
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -73,7 +74,12 @@ def compare_priors(layer, *, thermal_priors: dict, method: str = "exact", **kwar
     base = dict(kwargs.pop("priors", None) or {})
     results = {}
     for name, tp in thermal_priors.items():
-        results[name] = fn(layer, priors={**base, "temperature_c": tp}, **kwargs)
+        with warnings.catch_warnings(record=True) as rec:
+            warnings.simplefilter("always")
+            results[name] = fn(layer, priors={**base, "temperature_c": tp}, **kwargs)
+        for w in rec:  # say under which prior: the runs' warnings read alike
+            warnings.warn(f"under thermal prior {name!r}: {w.message}", w.category,
+                          stacklevel=2)
     probs = pd.DataFrame({k: r.hypotheses["posterior_probability"] for k, r in results.items()})
     errs = pd.DataFrame({k: r.hypotheses["posterior_mcse"] for k, r in results.items()})
     lz = np.array([r.log_evidence for r in results.values()])

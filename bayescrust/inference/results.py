@@ -242,6 +242,14 @@ def _set_units(idata):
 # --- end arviz compatibility ------------------------------------------------------------
 
 
+def is_constant(values) -> bool:
+    """Whether ``values`` are one number in every draw: their spread is at most 1e-9 of their
+    size, i.e. floating-point rounding (a solidus summed over rocks that share it)."""
+    v = np.asarray(values, float).ravel()
+    v = v[np.isfinite(v)]
+    return bool(v.size == 0 or np.ptp(v) <= 1e-9 * float(np.max(np.abs(v))))
+
+
 def summarize(posterior: dict, *, ess_override: float | None = None, mcmc: bool = True):
     """Summary table from (chain, draw) arrays: mean, sd, median, HDI, r_hat, ess_bulk.
 
@@ -268,7 +276,7 @@ def _summary_rows(az, pd, posterior, ess_override, mcmc):
             rows.append({**same, "quantity": name})
             continue
         flat = arr.ravel()
-        const = bool(np.ptp(flat) == 0)
+        const = is_constant(flat)
         if const:
             lo = hi = float(flat[0])
         else:
@@ -281,7 +289,8 @@ def _summary_rows(az, pd, posterior, ess_override, mcmc):
         else:
             r_hat = math.nan
             ess = math.nan if (const or ess_override is None) else float(ess_override)
-        rows.append({"quantity": name, "mean": float(flat.mean()), "sd": float(flat.std()),
+        rows.append({"quantity": name, "mean": float(flat.mean()),
+                     "sd": 0.0 if const else float(flat.std()),
                      "median": float(np.median(flat)), "hdi_low": lo, "hdi_high": hi,
                      "r_hat": r_hat, "ess_bulk": ess})
         seen.append((arr, rows[-1]))

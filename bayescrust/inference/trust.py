@@ -96,20 +96,21 @@ def predictive_check(model, q: dict, *, alpha: float = PPC_ALPHA, weights=None,
         s = model.total_sigma(k, m)
         z_i = (y - m) / s
         if model.likelihood == "gaussian":
-            cdf = special.ndtr(z_i)
+            cdf, sf = special.ndtr(z_i), special.ndtr(-z_i)
             var_noise = _mean(s * s, w)
         else:
             nu = float(model.nu)
             from scipy import stats
 
-            cdf = stats.t.cdf(z_i, nu)
+            cdf, sf = stats.t.cdf(z_i, nu), stats.t.sf(z_i, nu)
             var_noise = _mean(s * s, w) * (nu / (nu - 2.0) if nu > 2 else math.inf)
-        p_le = _mean(cdf, w) if m.size else math.nan
-        p = min(1.0, 2.0 * min(p_le, 1.0 - p_le))
+        # each tail from its own CDF: 1 - P(y_rep <= y) rounds to 0 far in the upper tail
+        p_le, p_ge = (_mean(cdf, w), _mean(sf, w)) if m.size else (math.nan, math.nan)
+        p = min(1.0, 2.0 * min(p_le, p_ge))
         mean = _mean(m, w) if m.size else math.nan
         sd = math.sqrt(_mean((m - mean) ** 2, w) + var_noise) if m.size else math.nan
         obs[k] = {"observed": y, "predicted_mean": mean, "predicted_sd": sd,
-                  "z": (y - mean) / sd if sd > 0 else math.nan, "p_value": p}
+                  "z": (y - mean) / sd if 0 < sd < math.inf else math.nan, "p_value": p}
     if "vp" in model.observed and "vs" in model.observed and "vp_vs" not in model.observed:
         obs["vp_vs (from Vp, Vs)"] = _pair_ratio_check(model, q, weights, observed)
     flagged = [k for k, v in obs.items() if not v["p_value"] >= alpha]
@@ -141,7 +142,8 @@ def _pair_ratio_check(model, q: dict, weights=None, observed=None) -> dict:
     y = math.log(yp / ys)
     lm = np.log(mp / ms)
     p_le = _mean(special.ndtr((y - lm) / sd_i), w) if mp.size else math.nan
-    p = min(1.0, 2.0 * min(p_le, 1.0 - p_le))
+    p_ge = _mean(special.ndtr((lm - y) / sd_i), w) if mp.size else math.nan
+    p = min(1.0, 2.0 * min(p_le, p_ge))
     ratio = mp / ms
     mean = _mean(ratio, w) if mp.size else math.nan
     sd = (math.sqrt(_mean((ratio - mean) ** 2, w) + _mean((ratio * sd_i) ** 2, w))

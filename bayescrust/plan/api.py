@@ -99,9 +99,12 @@ def sentence(label, row, today, *, quantity_label="temperature interval",
         head = f"Today's answer is already decisive ({thr}); {label} keeps it so in "
     else:
         head = f"{label} settles the question ({thr}) in "
+    p0, p1 = today["expected_p_true"], row["expected_p_true"]
+    p_se = float(row.get("expected_p_true_mcse", 0.0))
+    moved = abs(p1 - p0) > 2 * (p_se if math.isfinite(p_se) else 0.0)
     text = (f"{head}~{_pct(pd_)} ({_pm(se)}) of cases; the expected probability of the "
-            f"true interpretation goes from {_pct(today['expected_p_true'])} to "
-            f"{_pct(row['expected_p_true'])}")
+            "true interpretation " + (f"goes from {_pct(p0)} to {_pct(p1)}" if moved else
+                                      f"stays at ~{_pct(p0)} (within its Monte Carlo error)"))
     nar, nse = row["interval_narrowing"], row["interval_narrowing_mcse"]
     mass = _pct(s.get("interval", 0.94))
     if math.isfinite(nar) and today["interval_width"] > 0:

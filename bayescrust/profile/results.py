@@ -16,6 +16,23 @@ _KEEP = ("temperature_c", "porosity", "melt_fraction_effective", "serpentinizati
          "density", "vp_vs", "solidus_c")
 
 
+#: Units of a profile variable by its name's ending (thermal parameters, depths).
+_SUFFIX_UNITS = (("_myr", "Myr"), ("_w_mk", "W m-1 K-1"), ("_km", "km"), ("_c", "deg C"))
+
+
+def _unit(name: str) -> str:
+    """The ``units`` attribute of a profile posterior or observed variable."""
+    from ..inference.results import VARIABLE_UNITS
+
+    base = name.removeprefix("observed_")
+    if base in VARIABLE_UNITS:
+        return VARIABLE_UNITS[base]
+    for suffix, unit in _SUFFIX_UNITS:
+        if base.endswith(suffix):
+            return unit
+    return "volume fraction" if base.endswith("_fraction") else "1"
+
+
 @dataclass(frozen=True, eq=False)
 class ProfileResult:
     """Output of :func:`exact_profile` or :func:`invert_profile`.
@@ -119,13 +136,18 @@ class ProfileResult:
             vals = [x.observed.get(k, (math.nan, math.nan))[0] for x in self.profile.layers]
             obs[f"observed_{k}"] = np.array(vals)
             dims[f"observed_{k}"] = ["layer"]
-        return _from_dict(module(), posterior=post, observed_data=obs, dims=dims,
-                          coords={"layer": list(self.profile.names)},
-                          attrs={"method": self.method,
-                                 "thermal": self.profile.thermal.describe(),
-                                 "log_evidence": self.log_evidence,
-                                 "log_evidence_error": self.log_evidence_error,
-                                 **self._fit_attrs()})
+        idata = _from_dict(module(), posterior=post, observed_data=obs, dims=dims,
+                           coords={"layer": list(self.profile.names)},
+                           attrs={"method": self.method,
+                                  "thermal": self.profile.thermal.describe(),
+                                  "log_evidence": self.log_evidence,
+                                  "log_evidence_error": self.log_evidence_error,
+                                  **self._fit_attrs()})
+        for group in ("posterior", "observed_data"):
+            ds = idata[group] if hasattr(idata, "children") else getattr(idata, group)
+            for v in ds.data_vars:
+                ds[v].attrs["units"] = _unit(str(v))
+        return idata
 
     def _fit_attrs(self) -> dict:
         """NetCDF attributes of the data fit: ``data_fit`` ("ok" or "MISFIT in ..."),

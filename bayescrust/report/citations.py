@@ -82,7 +82,29 @@ def references(rocks_or_result=None) -> list[str]:
         fwd = rocks_or_result.settings.get("forward") or {}
         used = [SETTING_REFERENCES[v] for v in (fwd.get("mixing"), fwd.get("inclusion_scheme"))
                 if v in SETTING_REFERENCES]
-    return list(dict.fromkeys(out + short + used + list(INFERENCE_REFERENCES)))
+    return _one_per_work(list(dict.fromkeys(out + short + used + list(INFERENCE_REFERENCES))))
+
+
+_AUTHOR_YEAR = re.compile(r"^(?P<authors>.+?) \((?P<year>\d{4})[a-z]?\)")
+_SURNAME = re.compile(r"[A-Z][a-z][A-Za-z'\-]+")
+
+
+def _one_per_work(refs: list[str]) -> list[str]:
+    """Drop an entry whose year matches a longer entry whose surnames include all of its own:
+    a note on a work already listed ("X & Y (2016) eq. for ...", "X et al. (1997)")."""
+    keys = []
+    for r in refs:
+        m = _AUTHOR_YEAR.match(r)
+        keys.append((frozenset(_SURNAME.findall(m["authors"])), m["year"]) if m else None)
+    keep = []
+    for i, r in enumerate(refs):
+        k = keys[i]
+        covered = k is not None and k[0] and any(
+            j != i and kj is not None and kj[1] == k[1] and k[0] <= kj[0]
+            and (len(refs[j]), -j) > (len(r), -i) for j, kj in enumerate(keys))
+        if not covered:
+            keep.append(r)
+    return keep
 
 
 #: An inline citation "Surname[, Surname][ & Surname| et al.] [(]YYYY" inside a source note.
@@ -128,6 +150,9 @@ def bibtex(refs) -> str:
                        "\n}")
     return "\n\n".join(entries) + "\n"
 
+
+#: Names of the observables in a methods sentence.
+_OBS_LABEL = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density"}
 
 #: The averaging rule of the solid, as a methods sentence names it (``[forward] mixing``).
 _MIXING_TEXT = {
@@ -189,6 +214,15 @@ def methods_paragraph(results: dict) -> str:
         return "; ".join(f"{names.get(k, k.replace('_', ' '))}: {v}"
                          for k, v in (st.get("priors") or {}).items()) or "the package defaults"
 
+    def error_text(st):
+        me = st.get("model_error") or {}
+        text = ", ".join(f"{_OBS_LABEL.get(k, k)} {100 * float(v):.1f} %" for k, v in me.items())
+        rho = st.get("model_error_correlation")
+        if ("vp" in me and "vs" in me and rho is not None
+                and st.get("likelihood", "gaussian") == "gaussian"):
+            text += f"; Vp and Vs errors correlated, {float(rho):.2f}"
+        return text or "none"
+
     per = {n: r.settings for n, r in results.items()}
     rocks = _grouped({n: ", ".join(st.get("rocks", ())) for n, st in per.items()})
     lines = [
@@ -199,7 +233,8 @@ def methods_paragraph(results: dict) -> str:
         "serpentine stability limit.",
         f"Priors were: {_grouped({n: prior_text(st) for n, st in per.items()})}; the "
         f"likelihood was {s.get('likelihood', 'gaussian')}, with measurement and "
-        "forward-model errors added in quadrature.",
+        f"forward-model errors added in quadrature (the forward-model error as a fraction "
+        f"of the predicted value: {_grouped({n: error_text(st) for n, st in per.items()})}).",
     ]
     if method == "mcmc":
         smp = s.get("sampler") or {}

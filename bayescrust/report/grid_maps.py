@@ -82,14 +82,18 @@ def section_map(ds, var, *, contour_vp=7.5, title=None, distance=None):
         x = ds["x"].values if "x" in ds else np.arange(da.size)
         z = ds["z"].values if "z" in ds else ds["depth_below_seafloor"].values
         ax.scatter(x, z, c="0.8", s=12)
-        im = ax.scatter(x, z, c=np.ma.masked_invalid(da.values), cmap=cmap, vmin=0, vmax=1,
-                        s=16)
+        ok = np.isfinite(da.values)  # masked nodes stay grey
+        im = ax.scatter(x[ok], z[ok], c=da.values[ok], cmap=cmap, vmin=0, vmax=1, s=16)
         if mis is not None:
             m = mis.values
             handles.append(ax.scatter(x[m], z[m], s=30, marker="X", c=MISFIT_STYLE["facecolor"],
                                       edgecolors=MISFIT_STYLE["edgecolor"], linewidths=0.6,
                                       label=MISFIT_LABEL))
         ax.set_xlabel("distance")
+        ref = ("sea level" if ds.attrs.get("depth_reference") == "sea_level"
+               else "the seafloor")
+        ax.set_ylabel(f"depth below {ref} (km)")  # node depths are stored in km
+        ax.invert_yaxis()
     elif dist_dim is None:  # a single column: probability against depth
         z, pv = da[depth_dim].values, da.values
         ok = np.isfinite(pv)  # masked (and misfit) nodes are left out of the profile
@@ -103,7 +107,7 @@ def section_map(ds, var, *, contour_vp=7.5, title=None, distance=None):
                                       label=MISFIT_LABEL, clip_on=False))
         ax.set_xlim(-0.02, 1.02)
         ax.set_xlabel("probability")
-        ax.set_ylabel(f"{depth_dim} (km)")
+        ax.set_ylabel(f"{depth_dim} ({ds.attrs.get('depth_unit', 'km')})")
         ax.invert_yaxis()
     else:
         a = da.transpose(depth_dim, dist_dim)
@@ -133,7 +137,7 @@ def section_map(ds, var, *, contour_vp=7.5, title=None, distance=None):
                 handles += ax.plot(sf[dist_dim].values, sf.values * scale, color="black",
                                    lw=1.5, label="seafloor")
         ax.set_xlabel(f"{dist_dim}")
-        ax.set_ylabel(f"{depth_dim} (km)")
+        ax.set_ylabel(f"{depth_dim} ({ds.attrs.get('depth_unit', 'km')})")
         ax.invert_yaxis()
     if handles:
         ax.legend(handles=handles, loc="lower right", fontsize=7)

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 
-from .tables import format_value, to_markdown
+from .tables import _decimals, _with_error, format_value, to_markdown
 
 __all__ = ["interpretation_table", "layer_section", "definitions_text", "fit_table",
            "trust_lines"]
@@ -25,7 +25,8 @@ def _bf_text(row) -> str:
 
 
 def interpretation_table(hyp):
-    """Readable interpretation table: probabilities (3 decimals), Bayes factor with its bound,
+    """Readable interpretation table: prior (3 decimals), posterior at the place of two
+    significant figures of its Monte Carlo error (as hypotheses.md), Bayes factor with its bound,
     category, and the mixing fraction (median and 5-95 % range) among each class's draws."""
     import pandas as pd
 
@@ -39,7 +40,8 @@ def interpretation_table(hyp):
         rows.append({
             "interpretation": name,
             "prior": f"{r['prior_probability']:.3f}",
-            "posterior": f"{r['posterior_probability']:.3f} ± {r['posterior_mcse']:.3f}",
+            "posterior": " ± ".join(v for v in _with_error(float(r["posterior_probability"]),
+                                                            float(r["posterior_mcse"])) if v),
             "Bayes factor": _bf_text(r),
             "evidence (Kass & Raftery 1995)": r["evidence_category"],
             f"{q.replace('_', ' ')} (median [5 %, 95 %])" if q else "mixing": mix or "–",
@@ -104,6 +106,8 @@ def layer_section(name: str, res) -> list[str]:
     extra = ""
     if d.get("method") == "mcmc" and not math.isnan(d.get("max_r_hat", math.nan)):
         extra = f", max R-hat {d['max_r_hat']:.4f}"
-    lines += [f"log evidence: {res.log_evidence:.3f} ± {res.log_evidence_error:.3f}; "
+    err = float(res.log_evidence_error)
+    dec = min(6, max(3, _decimals(err))) if math.isfinite(err) and err > 0 else 3
+    lines += [f"log evidence: {res.log_evidence:.{dec}f} ± {err:.{dec}f}; "
               f"converged: {'yes' if d.get('converged') else 'NO'} (rule: {rule}{extra})", ""]
     return lines

@@ -122,7 +122,8 @@ def plan_figure(plan, *, fig=None, title=None):
             ax.set_ylabel(ylabel)
         axes[0].set_ylim(-0.03, 1.03)
         axes[1].set_ylim(bottom=min(0.0, axes[1].get_ylim()[0]))
-        axes[0].legend(loc="best")
+        if axes[0].get_legend_handles_labels()[0]:  # none when every sigma is inf
+            axes[0].legend(loc="best")
         if title:
             fig.suptitle(title)
     return fig

@@ -192,3 +192,37 @@ def test_profile_given_a_layer_study_names_the_command(tmp_path, capsys):
     assert main(["profile", str(p), "--out", str(tmp_path / "o"), "-q"]) == 2
     err = capsys.readouterr().err
     assert "layer study" in err and "bayescrust invert" in err
+
+
+def test_study_file_doc_gives_the_observable_ranges_the_reader_enforces():
+    # docs/study-file.md is the reference a user checks an input against: its value ranges
+    # must be those of bayescrust.inference.layer.OBSERVABLES (it said 1.3-4 for vp_vs while
+    # 1.2 was accepted and the error message said [1.2, 4]).
+    import re
+    from pathlib import Path
+
+    from bayescrust.inference.layer import OBSERVABLES
+
+    doc = (Path(__file__).parents[2] / "docs" / "study-file.md").read_text(encoding="utf-8")
+    rows = {"vp": r"value ([\d.]+)–([\d.]+) \(Vp\)", "vs": r"([\d.]+)–([\d.]+) \(Vs\)",
+            "vp_vs": r"\| `vp_vs` \|[^|]*\|[^|]*\| value ([\d.]+)–([\d.]+);",
+            "density": r"\| `density` \|[^|]*\|[^|]*\| value ([\d.]+)–([\d.]+);"}
+    for name, pattern in rows.items():
+        m = re.search(pattern, doc)
+        assert m, name
+        assert (float(m.group(1)), float(m.group(2))) == OBSERVABLES[name][0], name
+
+
+def test_a_users_own_folder_is_not_called_results_nor_offered_to_overwrite(tmp_path, capsys):
+    # --out pointing at a folder of the user's own files: it does not "hold results", and
+    # --overwrite would be refused there, so the message must not suggest it.
+    p = tmp_path / "s.toml"
+    p.write_text(GOOD)
+    mine = tmp_path / "mine"
+    mine.mkdir()
+    (mine / "notes.txt").write_text("field notes")
+    rc = main(["invert", str(p), "--out", str(mine), "-q", "--no-figures"])
+    err = capsys.readouterr().err
+    assert rc == 2 and "mine: --out:" in err
+    assert "already holds results" not in err and "--overwrite" not in err
+    assert (mine / "notes.txt").read_text() == "field notes"

@@ -269,3 +269,42 @@ def test_demo_map_records_the_final_name_of_its_input(tmp_path):
     demo_grid(argparse.Namespace(seed=0), work / "map", work / "study", final / "study")
     with xr.open_dataset(work / "map" / "map.nc") as ds:
         assert ds.attrs["source"] == str(final / "study" / "tallowmere_section.nc")
+
+
+def test_compare_report_states_the_bare_mention_edge_of_its_categories(small_study, tmp_path):
+    # Kass & Raftery (1995): 2 ln B < 2 is "not worth more than a bare mention", i.e.
+    # |log10 B| < 1 / ln 10 = 0.434. The evidence categories of every table use that edge, so
+    # the report must not quote 0.5 (a log10 B of 0.47 is "positive" in hypotheses.csv).
+    out = tmp_path / "cmp"
+    assert main(["compare", str(small_study), "--out", str(out), "--no-figures", "-q"]) == 0
+    text = (out / "report.md").read_text()
+    assert "log10 Bayes factor below 0.43" in text
+    assert "below 0.5" not in text
+
+
+def test_chart_title_names_the_other_observations_held_fixed(small_study):
+    # The chart varies Vp only; a figure read alone (in a manuscript) must say the layer's other
+    # data (here Vs 3.9 +- 0.1 km/s) were held, or it reads as a Vp-only chart.
+    from bayescrust.cli.chart import chart_title
+    from bayescrust.config import load_study
+
+    study = load_study(small_study)
+    with_vs = next(lay for lay in study.layers if lay.name == "lower crust with Vs")
+    assert "Vs 3.9 ± 0.1 km/s held fixed" in chart_title(with_vs)
+    vp_only = next(lay for lay in study.layers if lay.name == "lower crust")
+    assert "held" not in chart_title(vp_only)
+
+
+def test_compare_tables_say_when_a_run_did_not_converge(small_study, tmp_path):
+    # hypotheses.csv carries `converged` so that a table read on its own says when its numbers
+    # come from an unconverged run; comparison.csv and evidence.csv must too.
+    text = small_study.read_text().replace('method = "exact"', 'method = "mcmc"\nmax_steps = 100')
+    study = tmp_path / "short.toml"
+    study.write_text(text)
+    out = tmp_path / "cmp"
+    assert main(["compare", str(study), "--out", str(out), "--no-figures", "-q",
+                 "--layer", "lower crust"]) == 0
+    for name in ("comparison", "evidence"):
+        t = pd.read_csv(out / f"{name}.csv")
+        assert "converged" in t.columns, name
+        assert not t["converged"].any(), name

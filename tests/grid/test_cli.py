@@ -243,3 +243,84 @@ def test_section_map_refuses_a_distance_that_is_not_a_horizontal_dim():
     with pytest.raises(ValueError, match="'y' is not a horizontal dim"):
         _section(ds, "p_mantle")
     assert _section(ds, "p_mantle", distance="x")[2] == "x"
+
+
+def test_readme_states_the_grid_age_not_the_replaced_age_prior(tmp_path, section):
+    # `[grid] age` replaces the age_myr prior of every half-space zone (docs/grid.md), so the
+    # README's assumptions must give the ages the map used (here |x - 0| / 10 mm/yr: 0.001-1
+    # Myr over x = 0..10 km), not the zone's unused default "Uniform(2, 20)".
+    section.isel(x=[0, 5]).to_netcdf(tmp_path / "g.nc", engine="h5netcdf")
+    text = STUDY.format(sigma="0.1").replace(
+        "[grid]", '[thermal.plate]\nkind = "half_space"\n[grid]\ndistance = "x"\n'
+                  'age = { axis = 0.0, half_rate_mm_yr = 10.0 }')
+    text += 'thermal_prior = "plate"\n'
+    p = tmp_path / "study.toml"
+    p.write_text(text)
+    out = tmp_path / "out"
+    assert main(["map", str(p), "--out", str(out), "-q", "--no-figures"]) == 0
+    readme = (out / "README.md").read_text()
+    zone_line = next(line for line in readme.splitlines() if line.startswith("- zone 'lower'"))
+    assert "Uniform(2, 20)" not in zone_line
+    assert "crustal age from grid.age: 0.001-1 Myr" in zone_line
+
+
+def test_section_map_depth_axis_carries_the_grid_unit_and_points_down():
+    # A section in metres was drawn as "z (km)" with 4000-12000 on it; a node list (CSV) had no
+    # depth label, depth increasing upwards, and a masked first node made matplotlib warn.
+    # Depth axes of sections point down (common practice).
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from bayescrust.report.grid_maps import section_map
+
+    z = np.array([3000.0, 4000.0, 5000.0])
+    ds = xr.Dataset({"p_mantle": (("x", "z"), np.full((2, 3), 0.5))},
+                    coords={"x": [0.0, 1.0], "z": z},
+                    attrs={"distance": "x", "depth_unit": "m"})
+    fig = section_map(ds, "p_mantle")
+    assert fig.axes[0].get_ylabel() == "z (m)"
+    plt.close(fig)
+    p = np.array([np.nan, 0.2, 0.9])
+    nodes = xr.Dataset({"p_mantle": (("node",), p)},
+                       coords={"node": np.arange(3), "x": ("node", [0.0, 0.0, 1.0]),
+                               "z": ("node", [3.5, 4.5, 5.5])},
+                       attrs={"distance": "x", "depth_reference": "sea_level"})
+    fig = section_map(nodes, "p_mantle")
+    ax = fig.axes[0]
+    assert ax.get_ylabel() == "depth below sea level (km)"
+    assert ax.yaxis_inverted()
+    plt.close(fig)
+
+
+def test_a_node_list_in_metres_is_written_with_its_depths_in_km_and_says_so(tmp_path):
+    # A CSV grid's node depths are converted to km when read; map.nc said depth_unit = "m"
+    # beside z = 3.5 ... 6.5 and gave z no unit at all.
+    import pandas as pd
+
+    pd.DataFrame({"dist": [0.0, 0.0, 5.0], "depth": [4500.0, 6000.0, 6500.0],
+                  "vp": [6.8, 7.6, 7.7]}).to_csv(tmp_path / "n.csv", index=False)
+    study = tmp_path / "study.toml"
+    study.write_text(STUDY.format(sigma="0.1").replace('file = "g.nc"', 'file = "n.csv"')
+                     .replace('depth = "z"', 'depth = "depth"\ndepth_unit = "m"\n'
+                              'distance = "dist"\ndepth_reference = "sea_level"')
+                     .replace("seafloor = 3.0", "seafloor = 3000.0"))
+    out = tmp_path / "out"
+    assert main(["map", str(study), "--out", str(out), "-q", "--no-figures"]) == 0
+    with xr.open_dataset(out / "map.nc") as ds:
+        assert float(ds["z"].max()) == pytest.approx(6.5)
+        assert ds["z"].attrs["units"] == "km"
+        assert ds.attrs["depth_unit"] == "km"
+
+
+def test_check_validates_a_grid_study(tmp_path, section, capsys):
+    # README: `bayescrust check` validates a study before a run; a valid [grid] study exited 2
+    # ("a [grid] study; run it with `bayescrust map`") without being checked.
+    study = _setup(tmp_path, section)
+    assert main(["check", str(study)]) == 0
+    out = capsys.readouterr().out
+    assert "valid grid study" in out and "zone 'lower'" in out and "bayescrust map" in out
+    study.write_text(STUDY.format(sigma="0.1").replace("level_km = 1.0", "level_km = -1.0"))
+    assert main(["check", str(study)]) == 2
+    assert "grid.level_km" in capsys.readouterr().err

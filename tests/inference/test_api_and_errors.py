@@ -275,3 +275,18 @@ def test_serpentinite_end_member_needs_temperatures_below_its_stability():
     model = LayerModel.build(layer, rocks=("gabbro", "serpentinite"),
                              priors={"temperature_c": bc.priors.Uniform(0, 250)})
     assert model.ndim == 1 + len(model.free)
+
+
+def test_a_quantity_constant_in_every_draw_has_sd_zero_not_rounding_noise():
+    # A basalt-only layer has basalt fraction 1 and one solidus in every draw: their sd is 0,
+    # not the 2e-16 / 5e-13 of floating-point rounding (summary.csv printed those), and the
+    # effective sample size of a constant is undefined (common practice).
+    res = bc.exact_layer(bc.Layer("2A", top_km=0.0, bottom_km=0.6, water_depth_km=3.0,
+                                  vp=(4.4, 0.2)), rocks=("basalt",), seed=1, n_points=2**12)
+    for q in ("basalt", "solidus_c"):
+        assert res.summary.loc[q, "sd"] == 0.0, q
+        assert math.isnan(res.summary.loc[q, "ess_bulk"]), q
+    res = bc.exact_layer(bc.Layer("2B", top_km=0.6, bottom_km=2.0, water_depth_km=3.0,
+                                  vp=(5.9, 0.15)), rocks=("diabase", "gabbro"), seed=1,
+                         n_points=2**12)
+    assert res.summary.loc["solidus_c", "sd"] == 0.0

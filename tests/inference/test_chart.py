@@ -45,3 +45,23 @@ def test_chart_rejects_bad_input():
     no_vp = bc.Layer("x", top_km=4.0, bottom_km=6.0, water_depth_km=3.0, vs=(3.9, 0.1))
     with pytest.raises(ValueError, match="needs an observed vp"):
         bc.probability_chart(no_vp, [7.0], thermal_priors={"u": bc.UniformTemperature()})
+
+
+def test_compare_priors_warnings_name_the_thermal_prior():
+    # compare_priors runs one inversion per thermal prior; a warning (here the predictive
+    # check's misfit under both) must say under which prior, or three identical-looking lines
+    # reach the report.
+    import warnings
+
+    import bayescrust as bc
+
+    layer = bc.Layer("deep", top_km=5.5, bottom_km=6.5, water_depth_km=3.4, vp=(7.15, 0.05),
+                     vs=(4.6, 0.05))
+    with warnings.catch_warnings(record=True) as rec:
+        warnings.simplefilter("always")
+        bc.compare_priors(layer, thermal_priors={"flat": bc.UniformTemperature(0, 1400),
+                                                 "axis": bc.HotAxial()},
+                          rocks=("gabbro", "harzburgite"), seed=1, n_points=2**12)
+    msgs = [str(w.message) for w in rec if issubclass(w.category, bc.MisfitWarning)]
+    assert any("under thermal prior 'flat'" in m for m in msgs)
+    assert any("under thermal prior 'axis'" in m for m in msgs)

@@ -220,3 +220,40 @@ def test_correlated_model_error_gives_the_calibrated_vp_vs_error():
     mu = np.sum(dens * lr) * cell
     sd = math.sqrt(np.sum(dens * (lr - mu) ** 2) * cell)
     assert sd == pytest.approx(DEFAULT_MODEL_ERROR["vp_vs"], rel=0.03)  # first-order propagation
+
+
+def test_a_far_upper_tail_misfit_has_a_small_but_nonzero_p_value():
+    # Vp 8.9 km/s for gabbros at 5 km lies ~9 predictive sd above what they give (~7.1 km/s).
+    # A Gaussian tail there is ~1e-19 (common practice), not 0: the upper tail must not be
+    # taken as 1 - P(y_rep <= y), which rounds to exactly 0 (the report printed "p-value 0").
+    res, _ = _exact(bc.Layer("too fast", vp=(8.9, 0.05), top_km=4.0, bottom_km=6.0,
+                             water_depth_km=3.0), rocks=("gabbro", "olivine_gabbro"))
+    v = res.predictive_check["observables"]["vp"]
+    assert v["z"] > 6
+    assert 0.0 < v["p_value"] < 1e-10
+
+
+def test_vp_vs_given_with_vp_and_vs_is_warned_as_counted_twice():
+    # Vp/Vs is Vp divided by Vs (a definition): given beside both, the likelihood takes it as a
+    # third independent datum and drops the Vp-Vs model-error correlation, so a ratio computed
+    # from the same picks is counted twice. The run must say so.
+    layer = bc.Layer("three", vp=(7.0, 0.1), vs=(3.8, 0.1), vp_vs=(7.0 / 3.8, 0.05), **DEEP)
+    with warnings.catch_warnings(record=True) as rec:
+        warnings.simplefilter("always")
+        bc.exact_layer(layer, rocks=("gabbro", "harzburgite"), **FAST)
+    assert any("counted twice" in str(w.message) for w in rec)
+    with warnings.catch_warnings(record=True) as rec:
+        warnings.simplefilter("always")
+        bc.exact_layer(bc.Layer("two", vp=(7.0, 0.1), vs=(3.8, 0.1), **DEEP),
+                       rocks=("gabbro", "harzburgite"), **FAST)
+    assert not any("counted twice" in str(w.message) for w in rec)
+
+
+def test_student_t_with_two_degrees_of_freedom_has_no_standardised_residual():
+    # A Student-t with nu <= 2 has infinite variance (common practice): the predictive sd is
+    # infinite and z = residual / sd is undefined, not 0 (which read as a perfect fit).
+    res, _ = _exact(bc.Layer("deep", vp=(7.8, 0.1), **DEEP), rocks=("gabbro", "harzburgite"),
+                    likelihood="student_t", nu=2.0)
+    v = res.predictive_check["observables"]["vp"]
+    assert math.isinf(v["predicted_sd"])
+    assert math.isnan(v["z"])

@@ -162,3 +162,28 @@ def test_model_inside_every_published_laboratory_band(row):
     # model's value is computed here
     assert row["low"] <= row["model"] <= row["high"], (row["id"], row["observable"],
                                                        row["model"], row["source"])
+
+
+def test_forward_table_gives_the_serpentinisation_and_melt_it_computed():
+    # Lizardite is not stable at 800 deg C (Evans 2010) and a peridotite at 800 deg C and
+    # 0.2 GPa is below its solidus (Hirschmann 2000): the velocities are of fresh, melt-free
+    # rock, so the row (JSON too) must not list the requested 0.3 and 0.02 beside them.
+    import json
+
+    from bayescrust.cli import main
+
+    out = _stdout_of(main, ["forward", "--rock", "harzburgite", "--temperature", "700:800:2",
+                            "--pressure", "0.2", "--serpentinization", "0.3",
+                            "--melt-fraction", "0.02", "--json"])
+    for row in json.loads(out)["rows"]:
+        assert row["serpentinization"] == 0.0 and row["melt_fraction"] == 0.0
+
+
+def _stdout_of(main, argv):
+    import contextlib
+    import io
+
+    buf = io.StringIO()
+    with contextlib.redirect_stdout(buf), contextlib.redirect_stderr(io.StringIO()):
+        assert main(argv) == 0
+    return buf.getvalue()

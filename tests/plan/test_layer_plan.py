@@ -157,3 +157,21 @@ def test_plan_from_a_result_is_calibrated():
     se = np.hypot(res.hypotheses.loc[list(HYPS), "posterior_mcse"].to_numpy(),
                   np.sqrt(p_ref * (1 - p_ref) / 3000))
     assert np.all(np.abs(plan.today["class_probabilities"] - p_ref) <= 4 * se)
+
+
+def test_sentence_does_not_report_a_change_of_p_true_within_its_monte_carlo_error():
+    # Measuring nothing (sigma = inf) leaves E[P(true)] at today's sum of p^2 (the law of total
+    # probability); its simulated estimate 0.6953 +- 0.0076 against 0.6916 today is noise, and
+    # the sentence said it "goes from 69 % to 70 %".
+    from bayescrust.plan.api import sentence
+
+    row = {"p_decisive": 0.0, "p_decisive_mcse": 0.0, "expected_p_true": 0.6953,
+           "expected_p_true_mcse": 0.0076, "interval_narrowing": 0.0,
+           "interval_narrowing_mcse": 0.0, "information_gain_bits": 0.0,
+           "information_gain_bits_mcse": 0.0}
+    today = {"decisive": False, "expected_p_true": 0.6916, "interval_width": 906.0}
+    text = sentence("Vp/Vs ± inf", row, today)
+    assert "goes from" not in text
+    assert "stays at ~69 %" in text
+    moved = dict(row, expected_p_true=0.75)
+    assert "goes from 69 % to 75 %" in sentence("Vs ± 0.05 km/s", moved, today)

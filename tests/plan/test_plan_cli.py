@@ -113,3 +113,14 @@ def test_bad_cli_candidate_exit_2(study, tmp_path, capsys):
                  "--candidate", "vs=0.1"]) == 2
     assert "OBSERVABLE:SIGMA" in capsys.readouterr().err
     assert not (tmp_path / "x").exists()
+
+
+def test_plan_of_the_baseline_alone_draws_its_figure_without_a_stray_warning(study, tmp_path,
+                                                                             capsys):
+    # `--candidate vp_vs:inf` (measure nothing) has no finite sigma to draw: the figure must
+    # not print matplotlib's "No artists with labels found to put in legend" to the user.
+    out = tmp_path / "p3"
+    assert main(["plan", str(study), "--out", str(out), "-q", "--candidate", "vp_vs:inf",
+                 "--simulations", "50"]) == 0
+    assert (out / "plan.png").is_file()
+    assert "legend" not in capsys.readouterr().err

@@ -205,3 +205,32 @@ def test_profile_writes_a_run_toml_that_repeats_the_run(tmp_path):
     for stem in ("hypotheses", "boundary", "thermal"):
         assert (tmp_path / "again" / f"{stem}.csv").read_text() == \
             (out / f"{stem}.csv").read_text(), stem
+
+
+def test_a_gap_between_profile_layers_names_the_layer_key_and_the_expected_depth():
+    # The error must name the key to edit (profile.layers[1].top_km) and the value it must take,
+    # not "profile: profile: layer 'lower' ..." under the whole [profile] table.
+    with pytest.raises(StudyError) as e:
+        parse_profile_study(SMALL.replace("top_km = 2.0", "top_km = 2.5"), source="bad.toml")
+    msg = str(e.value)
+    assert "bad.toml: profile.layers[1].top_km:" in msg
+    assert "got 2.5" in msg and "2 km" in msg
+    assert "profile: profile:" not in msg
+
+
+def test_profile_netcdf_carries_a_unit_on_every_variable(tmp_path):
+    # As a layer's posterior.nc (README: "posterior.nc carries a units attribute on every
+    # variable"): a profile's file read on its own must say km/s, deg C, Myr, km, ...
+    study = tmp_path / "p.toml"
+    study.write_text(SMALL, encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["profile", str(study), "--out", str(out), "--no-figures", "-q"]) == 0
+    idata = az.from_netcdf(str(out / "posterior.nc"))
+    for group in ("posterior", "observed_data"):
+        ds = idata[group] if hasattr(idata, "children") else getattr(idata, group)
+        for v in ds.data_vars:
+            assert ds[v].attrs.get("units"), (group, v)
+    post = idata.posterior
+    assert post["vp"].attrs["units"] == "km/s" and post["temperature_c"].attrs["units"] == "deg C"
+    assert post["age_myr"].attrs["units"] == "Myr" and post["boundary_km"].attrs["units"] == "km"
+    assert post["conductivity_w_mk"].attrs["units"] == "W m-1 K-1"

@@ -223,3 +223,26 @@ def test_comparison_figure_keeps_text_on_the_canvas_and_the_legend_off_the_bars(
     assert bars_ax.get_legend() is None and fig.legends  # the legend sits below the panels
     assert any(len(c) for c in bars_ax.containers if hasattr(c, "errorbar") and c.errorbar)
     plt.close(fig)
+
+
+def test_reference_list_gives_each_work_once():
+    # One entry per cited work (common practice): a note on a work already listed in full
+    # ("Yamauchi & Takei (2016) eq. for A_eta", "Abramson et al. (1997)", a second Mavko et al.
+    # (2009) with "ch. 6") is not a second reference; two works of one first author and year
+    # with other co-authors (Brown & Abramson 2016; Brown, Angel & Ross 2016) both stay.
+    refs = references(["gabbro", "olivine_gabbro", "harzburgite"])
+    assert not any("eq. for" in r or "section 4" in r for r in refs)
+    assert sum(r.startswith("Yamauchi") for r in refs) == 1
+    assert sum(r.startswith("Abramson") for r in refs) == 1
+    assert sum(r.startswith("Mavko") for r in refs) == 1
+    assert any(r.startswith("Brown & Abramson (2016)") for r in refs)
+    assert any(r.startswith("Brown, Angel & Ross (2016)") for r in refs)
+
+
+def test_methods_paragraph_states_the_forward_model_error(res):
+    # The forward-model error sets the likelihood's width (2.7 % of a Vp is ~0.19 km/s, more
+    # than a typical refraction error); a methods paragraph that omits it cannot be reproduced.
+    text = methods_paragraph({"lower crust": res})
+    for name, value in res.settings["model_error"].items():
+        label = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density"}[name]
+        assert f"{label} {100 * value:.1f} %" in text, name

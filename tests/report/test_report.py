@@ -129,3 +129,20 @@ def test_import_is_light():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout.strip()
     assert out == ""
+
+
+def test_report_interpretation_table_shows_each_error_to_two_significant_figures():
+    # report.md printed "0.701 ± 0.000" where hypotheses.md (the same run) printed
+    # "0.70085 ± 0.00027": an error that is not zero must not read as zero (common practice:
+    # a value is rounded at the place of its error's second significant figure).
+    from bayescrust.report.layer_report import interpretation_table
+
+    hyp = pd.DataFrame({"prior_probability": [0.667, 0.333], "posterior_probability":
+                        [0.700852, 0.299148], "posterior_mcse": [0.000268, 0.000268],
+                        "bayes_factor": [1.17, 0.854], "bayes_factor_bound": ["=", "="],
+                        "evidence_category": ["x", "y"], "mixing_quantity": ["q", "q"],
+                        "mixing_median": [1.0, 1.0], "mixing_q05": [1.0, 1.0],
+                        "mixing_q95": [1.0, 1.0], "data_fit": ["ok", "ok"]},
+                       index=pd.Index(["porous", "not porous"], name="hypothesis"))
+    table = interpretation_table(hyp)
+    assert list(table["posterior"]) == ["0.70085 ± 0.00027", "0.29915 ± 0.00027"]
