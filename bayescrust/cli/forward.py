@@ -82,6 +82,9 @@ def cmd_forward(args) -> int:
     try:
         # melt only above the solidus, serpentine only below its stability (as the inversion)
         kw, notes = bc.physics.rocks.apply_stability(rock, **kw)
+        if np.max(kw["pressure_gpa"]) > 5.0:  # a layer's limit (inference.layer.Layer)
+            notes = [*notes, "pressure above 5 GPa, the deepest a layer may be: the mineral "
+                     "data are extrapolated there and no mantle phase change is modelled"]
         for note in notes:
             print(f"warning: {note}", file=sys.stderr)
         props = bc.rock_properties(rock, **kw, attenuation_law=law)

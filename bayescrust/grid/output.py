@@ -251,11 +251,13 @@ def column_summary(ds, *, distance=None, depth_var="depth_below_seafloor"):
 
 
 def _crossing(z, p, level):
+    """Depth (km) where ``p`` first exceeds ``level``, interpolated linearly; rounded to
+    0.1 m (the maps hold float32: further digits are rounding noise)."""
     above = np.flatnonzero(p > level)
     if above.size == 0:
         return np.nan
     i = above[0]
     if i == 0:
-        return float(z[0])
-    z0, z1, p0, p1 = z[i - 1], z[i], p[i - 1], p[i]
-    return float(z0 + (level - p0) * (z1 - z0) / (p1 - p0))
+        return round(float(z[0]), 4)
+    z0, z1, p0, p1 = (float(x) for x in (z[i - 1], z[i], p[i - 1], p[i]))
+    return round(z0 + (level - p0) * (z1 - z0) / (p1 - p0), 4)

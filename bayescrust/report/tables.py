@@ -145,7 +145,15 @@ def _rows(df, index: bool):
 
 
 def to_csv(df, *, index: bool = True) -> str:
-    """CSV text with full precision (``repr`` of floats), header row first."""
+    """CSV text with full precision (``repr`` of floats; a float32 column, such as a map's
+    depths, at its own precision: 1.44686, not 1.4468600749969482), header row first."""
+    import numpy as np
+
+    f32 = [c for c, t in df.dtypes.items() if t == np.float32]
+    if f32:  # the shortest decimal that reads back to the same float32
+        df = df.copy()
+        for c in f32:
+            df[c] = [float(str(x)) for x in df[c].to_numpy()]
     header, body = _rows(df, index)
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")

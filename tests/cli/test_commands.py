@@ -242,6 +242,17 @@ def test_run_failure_exit_1_no_output(small_study, tmp_path, monkeypatch, capsys
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".failed")]
 
 
+def test_forward_warns_beyond_the_deepest_layer(capsys):
+    # a layer may reach 5 GPa (Layer's pressure_gpa range); beyond it forward still computes
+    # but must say the numbers are extrapolated (it said nothing at 9 GPa)
+    assert main(["forward", "--rock", "harzburgite", "--temperature", "1000",
+                 "--pressure", "9"]) == 0
+    assert "above 5 GPa" in capsys.readouterr().err
+    assert main(["forward", "--rock", "harzburgite", "--temperature", "1000",
+                 "--pressure", "4"]) == 0
+    assert "above 5 GPa" not in capsys.readouterr().err
+
+
 def test_forward_lists_catalogue_and_accepts_a_mineral(capsys):
     # issue: "a user can ask for one mineral at (P, T), and list the minerals and rocks with
     # their sources"; olivine Fo90 at 25 C, 1 bar: Vp 8.341 (Abramson et al. 1997, verified)

@@ -230,6 +230,12 @@ def test_a_dim_named_distance_does_not_overwrite_the_distance_column():
     assert sorted(set(df["distance"])) == [100.0, 200.0, 300.0]
     assert sorted(set(df["distance_coordinate"])) == [0.0, 10.0]
     assert np.allclose(df["mantle_depth_km"], 5.0)  # P(mantle) crosses 0.5 at z = 5 (by design)
+    # float32 maps: the crossing depths carry no float32 noise digits (they printed
+    # 1.4468600749969482 in column_summary.csv)
+    ds32 = ds.assign(p_mantle=ds["p_mantle"].astype(np.float32) * np.float32(0.999),
+                     depth_below_seafloor=ds["depth_below_seafloor"].astype(np.float32) * 1.1)
+    text = column_summary(ds32).to_csv(index=False)
+    assert max(len(x.split(".")[-1]) for x in text.replace(",", "\n").split() if "." in x) <= 4
 
 
 def test_section_map_refuses_a_distance_that_is_not_a_horizontal_dim():

@@ -58,6 +58,15 @@ def test_latex_escapes(frame):
 
 
 
+def test_csv_writes_float32_at_its_own_precision():
+    # a map's float32 depths were written as 1.4468600749969482 (float64 noise digits); the
+    # CSV must hold the shortest decimal that reads back to the same float32 (numpy's repr)
+    df = pd.DataFrame({"depth_km": np.array([1.44686, np.nan], dtype=np.float32)})
+    text = tables.to_csv(df, index=False)
+    assert text.splitlines()[1] == "1.44686"
+    back = pd.read_csv(io.StringIO(text))["depth_km"].to_numpy(np.float32)
+    np.testing.assert_array_equal(back, df["depth_km"].to_numpy())
+
 def test_multi_level_index_is_one_column_per_level():
     # a profile's (layer, interpretation) table: read back by pandas (a general-purpose
     # reference reader), every level is its own named column, never a tuple in one cell
