@@ -103,7 +103,9 @@ def node_fit(model, stats, values, sigmas):
                 pk = _tail(y, mean, var_m, e_s2,
                            None if model.likelihood == "gaussian" else float(model.nu))
                 y_mean = y.mean(axis=1) if y.ndim == 2 else y
-                zk = (y_mean - mean) / np.sqrt(var_m + e_s2 * t_factor)
+                # nu <= 2: infinite predictive sd, z undefined (NaN, as the layer check), not 0
+                zk = ((y_mean - mean) / np.sqrt(var_m + e_s2 * t_factor) if t_factor < np.inf
+                      else np.full(np.shape(y_mean), np.nan, _DT))
             if p is None:
                 p, z = pk, zk
             else:  # keep the smaller p (a non-finite one counts as smallest)

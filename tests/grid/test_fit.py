@@ -118,6 +118,16 @@ def test_the_node_check_is_the_layer_predictive_check(vp, vs, likelihood):
         assert ref["misfit"]
 
 
+def test_student_t_with_two_degrees_of_freedom_leaves_the_node_z_undefined():
+    # nu <= 2: infinite variance (common practice), so z = residual / sd is undefined; the map
+    # stored 0 (a perfect fit) while the layer check says NaN
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", MisfitWarning)
+        m = map_grid(_nodes((7.9,), None, depth_km=DEPTH_KM + 0.05), [GABBRO], seed=1,
+                     n_points=2**12, level_km=0.1, min_ess=100, likelihood="student_t", nu=2.0)
+    assert np.isnan(float(m.fit_z.values.ravel()[0]))
+    assert 0.0 <= float(m.fit_p.values.ravel()[0]) <= 1.0
+
 def test_an_ensemble_of_equal_members_is_one_member():
     """The members' mixture of one law is that law (common practice): fit_p and fit_z of a
     node whose K members are equal are those of the single value."""
