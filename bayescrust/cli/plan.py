@@ -94,8 +94,8 @@ def plan_study_layer(study, layer, *, method="exact", seed=0, candidates=None,
 def do_plan(args, study, dest: Path, *, layer_name, method, figures: bool):
     """Plan one layer into ``dest``: tables, figure, report and run.toml; returns the plan."""
     from ..report.caution import caution_text, misfit_banner
-    from ..report.plan import misfit_title, plan_figure, plan_table
-    from ..report.tables import to_csv, to_markdown
+    from ..report.plan import PLAN_ERROR_PAIRS, misfit_title, plan_figure, plan_table
+    from ..report.tables import printable_with_errors, to_csv, to_markdown
 
     spec_layer = getattr(getattr(study, "plan", None), "layer", None)
     name = layer_name or spec_layer
@@ -118,7 +118,8 @@ def do_plan(args, study, dest: Path, *, layer_name, method, figures: bool):
     write_text(dest / "plan.csv", to_csv(plan_table(plan)))
     readable = plan_table(plan, readable=True)
     write_table(dest, "plan", readable, caption=f"Value of candidate observations for "
-                f"{layer.name} (ranked by {plan.settings['rank_by']}).")
+                f"{layer.name} (ranked by {plan.settings['rank_by']}).",
+                printable=printable_with_errors(readable, PLAN_ERROR_PAIRS, general=("sigma",)))
     write_text(dest / "plan.csv", to_csv(plan_table(plan)))  # the full table wins the .csv
     write_text(dest / "calibration.csv", to_csv(plan.calibration, index=False))
     if figures:
@@ -208,6 +209,7 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
     from ..plan import plan_profile
     from ..report.caution import caution_text, misfit_banner
     from ..report.plan import (
+        PLAN_ERROR_PAIRS,
         data_fit_of,
         misfit_title,
         plan_figure,
@@ -215,7 +217,7 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
         profile_plan_figure,
         profile_plan_table,
     )
-    from ..report.tables import to_csv
+    from ..report.tables import printable_with_errors, to_csv
     from .profile import profile_assumptions
 
     spec = pstudy.plan or PlanSpec()
@@ -242,8 +244,10 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
         except ValueError as exc:
             raise InputError(f"{pstudy.source}: {exc}") from None
     rq = pp.settings["rank_question"]
-    write_table(dest, "plan", profile_plan_table(pp, readable=True),
-                caption=f"Value of candidate observations for every question of {prof.name}.")
+    readable = profile_plan_table(pp, readable=True)
+    write_table(dest, "plan", readable,
+                caption=f"Value of candidate observations for every question of {prof.name}.",
+                printable=printable_with_errors(readable, PLAN_ERROR_PAIRS))
     write_text(dest / "plan.csv", to_csv(profile_plan_table(pp)))  # every column
     fit = data_fit_of(pp)
     write_text(dest / "ranking.csv", to_csv(plan_table(pp.plans[rq]).assign(data_fit=fit)))

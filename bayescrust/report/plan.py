@@ -32,6 +32,15 @@ PLAN_TABLE_COLUMNS = {
 }
 
 
+#: (value, Monte Carlo error) column pairs of the readable plan tables, printed at two
+#: significant figures of the error (``report.tables.printable_with_errors``).
+PLAN_ERROR_PAIRS = {"P(decisive)": "P(decisive) MCSE", "E[P(true)]": "E[P(true)] MCSE",
+                    "E[entropy] (bits)": "E[entropy] MCSE",
+                    "T interval narrowing (°C)": "narrowing MCSE (°C)",
+                    "information gain (bits)": "gain MCSE",
+                    "interval narrowing": "narrowing MCSE"}
+
+
 def data_fit_of(plan) -> str:
     """The ``data_fit`` entry of every row of a plan's tables: today's posterior-predictive
     check, ``"ok"`` or ``"MISFIT (...)"`` (``""`` when no check was made).

@@ -14,7 +14,7 @@ import numbers
 import re
 
 __all__ = ["format_value", "to_csv", "to_markdown", "to_latex", "TABLE_FORMATS", "UNITS",
-           "printable_summary", "printable_hypotheses"]
+           "printable_summary", "printable_hypotheses", "printable_with_errors"]
 
 #: Unit of each summarised quantity (rock and family fractions are volume fractions).
 UNITS = {
@@ -76,6 +76,29 @@ def printable_summary(df):
                      "ESS (bulk)": "" if not math.isfinite(float(r["ess_bulk"]))
                      else f"{float(r['ess_bulk']):.0f}"})
     return pd.DataFrame(rows).set_index("quantity")
+
+
+def printable_with_errors(df, pairs: dict, *, general=()):
+    """A copy of ``df`` for Markdown and LaTeX: each value column of ``pairs`` (``{value column:
+    its error column}``) and its error at the decimal place of two significant figures of the
+    error (0.1250 and 0.0167 become 0.125 and 0.017; 1.666 and 0.581 become 1.67 and 0.58);
+    columns in ``general`` (e.g. a datum's sigma) in the shortest form (0.03, not 0.03000).
+    Cells of those columns become strings; CSV keeps full precision."""
+    out = df.copy()
+    for v, e in pairs.items():
+        if v not in out.columns or e not in out.columns:
+            continue
+        vals, errs = [], []
+        for x, se in zip(df[v].to_numpy(float), df[e].to_numpy(float), strict=True):
+            d = _decimals(float(se)) if math.isfinite(se) and se > 0 else 3
+            vals.append("" if not math.isfinite(x) else f"{x:.{d}f}")
+            errs.append("" if not math.isfinite(se) else f"{se:.{d}f}")
+        out[v], out[e] = vals, errs
+    for c in general:
+        if c in out.columns:
+            out[c] = [format_value(x, 6) if isinstance(x, str) else f"{float(x):g}"
+                      for x in df[c]]
+    return out
 
 
 def printable_hypotheses(df):
@@ -176,7 +199,8 @@ def to_markdown(df, *, index: bool = True, digits: int = 4) -> str:
     """GitHub-flavoured Markdown table; numbers right-aligned to ``digits`` significant figures."""
     header, body = _rows(df, index)
     cells = [[format_value(v, digits).replace("|", "\\|") for v in row] for row in body]
-    numeric = [all(isinstance(row[j], numbers.Real) and not isinstance(row[j], bool)
+    numeric = [all((isinstance(row[j], numbers.Real) and not isinstance(row[j], bool))
+                   or (isinstance(row[j], str) and bool(_NUMBERISH.match(row[j])))
                    for row in body) if body else False for j in range(len(header))]
     widths = [max([len(h)] + [len(r[j]) for r in cells] + [3]) for j, h in enumerate(header)]
 

@@ -155,3 +155,15 @@ def test_report_interpretation_table_shows_each_error_to_two_significant_figures
                        index=pd.Index(["porous", "not porous"], name="hypothesis"))
     table = interpretation_table(hyp)
     assert list(table["posterior"]) == ["0.70085 ± 0.00027", "0.29915 ± 0.00027"]
+
+
+def test_printable_with_errors_rounds_each_value_at_its_error():
+    # two significant figures of the Monte Carlo error set the decimals of the value (common
+    # practice in reporting estimates with their errors); the plan table printed 0.1250 beside
+    # an error of 0.01674, and a sigma of 0.03 as 0.03000
+    df = pd.DataFrame({"sigma": [0.03, 0.1], "P": [0.125, 1.666], "P MCSE": [0.01674, 0.581]})
+    out = tables.printable_with_errors(df, {"P": "P MCSE"}, general=("sigma",))
+    assert list(out["P"]) == ["0.125", "1.67"] and list(out["P MCSE"]) == ["0.017", "0.58"]
+    assert list(out["sigma"]) == ["0.03", "0.1"]
+    md = tables.to_markdown(out, index=False)
+    assert md.splitlines()[1].split("|")[2].strip().endswith(":")  # numbers stay right-aligned
