@@ -207,6 +207,21 @@ def convergence_verdict(summary, *, sampler_converged: bool, method: str,
             "rule": f"sampler stopping rule met and every R-hat < {RHAT_MAX:g}"}
 
 
+def chain_verdict(samples, names, *, sampler_converged: bool) -> dict:
+    """:func:`convergence_verdict` of a raw ensemble chain ``samples`` (draw, walker, ndim):
+    every coordinate's :func:`ensemble_rhat` below :data:`RHAT_MAX` and the sampler's rule met
+    (the profile's MCMC schemes, whose results have no per-parameter summary of the chain)."""
+    import pandas as pd
+
+    s = np.asarray(samples, float)
+    r = pd.Series({str(n): ensemble_rhat(s[:, :, j].T) for j, n in enumerate(names)},
+                  dtype=float)
+    out = convergence_verdict(pd.DataFrame({"r_hat": r}), sampler_converged=sampler_converged,
+                              method="mcmc")
+    out["r_hat"] = r.to_dict()
+    return out
+
+
 def rule_of_three(n: float) -> float:
     """Upper 95 % bound ``3 / n`` on a probability seen in none of ``n`` independent draws
     (Hanley & Lippman-Hand 1983, JAMA 249, 1743), capped at 0.5."""

@@ -276,6 +276,24 @@ def _stage_one(profile, models, rng, n_points, n_thermal=64):
     return res
 
 
+def _verdict(run, names) -> dict:
+    """The one convergence rule for a profile's ensemble run (the layer path's: the sampler's
+    stopping rule and every coordinate's R-hat below RHAT_MAX), as diagnostics entries; warns
+    when the stopping rule was met but R-hat was not (the sampler warns of the other case)."""
+    import warnings
+
+    from ..inference.sampler import ConvergenceWarning
+    from ..inference.trust import chain_verdict
+
+    v = chain_verdict(run.samples, names, sampler_converged=run.converged)
+    if run.converged and not v["converged"]:
+        warnings.warn(f"profile MCMC not converged: R-hat of {v['worst']} is "
+                      f"{v['max_r_hat']:.3f} (rule: {v['rule']}); run longer (raise min_ess)",
+                      ConvergenceWarning, stacklevel=3)
+    return {"converged": v["converged"], "sampler_converged": bool(run.converged),
+            "max_r_hat": v["max_r_hat"], "convergence_rule": v["rule"], "r_hat": v["r_hat"]}
+
+
 def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_ess=1000.0,
                       max_steps=20000, forward=None, progress=False, n_layer=2**15,
                       n_designs=8, n_draws=4000, pressure_bound=True):
@@ -441,8 +459,9 @@ def collapsed_profile(profile: Profile, *, gen, seed_value, nwalkers=None, min_e
         bound = {"pressure_gpa": pressures, "pressure_sd_bound_gpa": p_sd,
                  "delta_log_likelihood": np.array(delta)}
     draws = {"thermal": thermal_draws, "layers": layers, "boundary_km": bkm}
+    verdict = _verdict(run, list(th.free))
     diag = {"scheme": "collapsed", "tau": run.tau.tolist(), "ess": run.ess.tolist(),
-            "converged": run.converged, "n_steps": run.n_steps, "nwalkers": nw,
+            **verdict, "n_steps": run.n_steps, "nwalkers": nw,
             "acceptance": float(run.acceptance.mean()), "coordinates": list(th.free),
             "sampling_time_s": run.wall_time_s, "design_time_s": t_design,
             "n_layer": int(tables[0].ll.size), "n_designs": int(n_designs),

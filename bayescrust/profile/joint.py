@@ -279,8 +279,10 @@ def invert_profile(profile: Profile, *, seed=None, rng=None, nwalkers=None, min_
             for k, v in thermal_draws.items()}
     thermal = _thermal_table(list(thermal_draws), thermal_draws, mcse=mcse)
     draws = {"thermal": thermal_draws, "layers": layers, "boundary_km": bkm}
+    from .collapsed import _verdict
+
     diag = {"scheme": "joint", "tau": run.tau.tolist(), "ess": run.ess.tolist(),
-            "converged": run.converged,
+            **_verdict(run, list(jm.names)),
             "n_steps": run.n_steps, "nwalkers": nw, "acceptance": float(run.acceptance.mean()),
             "coordinates": jm.names, "sampling_time_s": run.wall_time_s}
     return build_result(profile, method="mcmc", hyps=jm.hyps, models=jm.models,

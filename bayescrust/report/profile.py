@@ -121,7 +121,8 @@ def thermal_verdict(comparison) -> str:
 
 
 def convergence_line(result) -> str:
-    """MCMC: ``converged: yes|no`` (the sampler's stopping rule) with the smallest effective
+    """MCMC: ``converged: yes|no`` (the one rule: the sampler's stopping rule and every R-hat
+    below RHAT_MAX; the largest R-hat is given) with the smallest effective
     sizes: of the chain (thermal parameters or joint coordinates) and, for the collapsed
     scheme, of the layers' designs at the kept draws (below ~100 raise ``n_layer``,
     docs/profile.md). ``""`` for the exact path."""
@@ -140,8 +141,9 @@ def convergence_line(result) -> str:
         flag = " (below ~100: raise n_layer)" if lay[k] < 100 else ""
         parts.append(f"smallest layer importance ESS {float(lay[k]):.0f} "
                      f"({result.profile.names[k]}){flag}")
-    rule = ("the sampler's stopping rule: a run of many autocorrelation times, stable tau, "
-            "ESS >= min_ess")
+    rule = d.get("convergence_rule") or "the sampler's stopping rule"
+    if np.isfinite(d.get("max_r_hat", np.nan)):
+        parts.insert(0, f"largest R-hat {float(d['max_r_hat']):.3f}")
     return (f"converged: {'yes' if d.get('converged') else 'NO'} ({rule}; "
             + "; ".join(parts) + ")")
 

@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
+import bayescrust as bc
 from bayescrust import Layer
 from bayescrust.inference.evidence import prior_design, weigh_design
 from bayescrust.inference.priors import Uniform
@@ -91,6 +92,27 @@ def test_layer_draws_follow_the_rao_blackwellised_probabilities(collapsed):
                         float(r.hypotheses.set_index(["layer", "hypothesis"])
                               .loc[(name, "mantle rock"), "mcse"]))
         assert abs(frac - p) < 4 * se + 1e-9, (name, frac, p)
+
+
+def test_profile_mcmc_follows_the_one_convergence_rule(collapsed):
+    # the layer path's rule (stopping rule and every R-hat < RHAT_MAX; Vehtari et al. 2021 for
+    # the rank-normalised R-hat) applies to the profile too; it used the stopping rule alone
+    from bayescrust.inference.trust import RHAT_MAX
+    from bayescrust.profile import collapsed as col
+    from bayescrust.report.profile import convergence_line
+
+    d = collapsed.diagnostics
+    assert d["sampler_converged"] and d["converged"] and d["max_r_hat"] < RHAT_MAX
+    assert set(d["r_hat"]) == set(d["coordinates"])
+    assert "R-hat" in convergence_line(collapsed)
+    # an injected failure: one walker group stuck far off gives a large R-hat, the verdict NO
+    run = type("Run", (), {})()
+    x = np.random.default_rng(0).normal(size=(400, 32, 1))
+    x[:, ::4] += 5.0  # one of the four groups (walker w joins group w mod 4) shifted
+    run.samples, run.converged = x, True
+    with pytest.warns(bc.ConvergenceWarning, match="R-hat"):
+        v = col._verdict(run, ["age_myr"])
+    assert not v["converged"] and v["max_r_hat"] > RHAT_MAX
 
 
 def test_bad_scheme_is_refused():
