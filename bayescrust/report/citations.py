@@ -57,10 +57,12 @@ def _clean(ref: str) -> str | None:
 
 
 def references(rocks_or_result=None) -> list[str]:
-    """Clean reference list of a run (or of the given rocks): data sources, then methods.
+    """Clean reference list of a run (or of the given rocks): the data sources its rocks and
+    forward-model settings use (its attenuation law only; no serpentinisation data without a
+    peridotite) and the methods, in alphabetical order.
 
     Internal notes of the data files (placeholders, confidence remarks, derivations) are left
-    out; duplicates are removed; order is stable.
+    out; duplicates are removed.
     """
     from ..physics.sources import citations
 
@@ -82,7 +84,8 @@ def references(rocks_or_result=None) -> list[str]:
         fwd = rocks_or_result.settings.get("forward") or {}
         used = [SETTING_REFERENCES[v] for v in (fwd.get("mixing"), fwd.get("inclusion_scheme"))
                 if v in SETTING_REFERENCES]
-    return _one_per_work(list(dict.fromkeys(out + short + used + list(INFERENCE_REFERENCES))))
+    refs = _one_per_work(list(dict.fromkeys(out + short + used + list(INFERENCE_REFERENCES))))
+    return sorted(refs, key=lambda r: (r.casefold(), r))  # a manuscript's order: alphabetical
 
 
 _AUTHOR_YEAR = re.compile(r"^(?P<authors>.+?) \((?P<year>\d{4})[a-z]?\)")

@@ -32,9 +32,22 @@ def test_every_mineral_has_sourced_and_tagged_numbers():
     assert set(table) == set(MINERALS)
 
 
-def test_citations_of_a_result_follow_its_rocks():
-    # a result's settings name its rocks; citations(result) equals citations(those rocks)
+def test_citations_of_a_result_follow_its_rocks_and_settings():
+    # a result's settings name its rocks and its forward model: it cites those rocks' data and
+    # the one attenuation law it used (Jackson et al. 2002 by default), not the other
     class _Result:
         settings = {"rocks": ["basalt"]}
 
-    assert bayescrust.citations(_Result()) == bayescrust.citations(["basalt"])
+    class _YT16:
+        settings = {"rocks": ["harzburgite"], "forward": {"attenuation_law": "yamauchi_takei2016"}}
+
+    basalt = bayescrust.citations(_Result())
+    assert set(basalt) <= set(bayescrust.citations(["basalt"]))
+    assert any("Jackson, I., Fitz Gerald" in c for c in basalt)
+    assert not any("Yamauchi" in c for c in basalt)
+    # no peridotite: no serpentinisation data, no peridotite solidus
+    assert not any("Carlson, R. L. & Miller" in c or "Hirschmann" in c for c in basalt)
+    yt = bayescrust.citations(_YT16())
+    assert any("Yamauchi" in c for c in yt) and not any("Jackson, I., Fitz Gerald" in c for c in yt)
+    assert any("Carlson, R. L. & Miller" in c and "serpentinized" in c for c in yt)
+    assert any("Hirschmann" in c for c in yt)
