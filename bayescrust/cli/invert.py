@@ -122,7 +122,7 @@ def _write_methods(dest: Path, study, results: dict):
     refs = []
     for res in results.values():
         refs += references(res)
-    refs = list(dict.fromkeys(refs))
+    refs = sorted(dict.fromkeys(refs), key=lambda r: (r.casefold(), r))
     text = ["# Methods", "", methods_paragraph(results), "## References", ""]
     text += [f"- {r}" for r in refs]
     write_text(dest / "methods.md", "\n".join(text) + "\n")

@@ -32,6 +32,9 @@ INFERENCE_REFERENCES = (
     "exploratory analysis of Bayesian models in Python. J. Open Source Softw. 4:1143",
 )
 
+#: Inference references that only an MCMC run uses (the sampler, its moves, R-hat).
+_MCMC_ONLY = ("Foreman-Mackey", "ter Braak", "Vehtari")
+
 #: References of the averaging rules and inclusion schemes a methods paragraph may name that
 #: the data files do not cite (listed when the run used them).
 SETTING_REFERENCES = {
@@ -84,7 +87,10 @@ def references(rocks_or_result=None) -> list[str]:
         fwd = rocks_or_result.settings.get("forward") or {}
         used = [SETTING_REFERENCES[v] for v in (fwd.get("mixing"), fwd.get("inclusion_scheme"))
                 if v in SETTING_REFERENCES]
-    refs = _one_per_work(list(dict.fromkeys(out + short + used + list(INFERENCE_REFERENCES))))
+    inference = list(INFERENCE_REFERENCES)
+    if getattr(rocks_or_result, "settings", {}).get("method") == "exact":  # no sampler, no R-hat
+        inference = [r for r in inference if not r.startswith(_MCMC_ONLY)]
+    refs = _one_per_work(list(dict.fromkeys(out + short + used + inference)))
     return sorted(refs, key=lambda r: (r.casefold(), r))  # a manuscript's order: alphabetical
 
 

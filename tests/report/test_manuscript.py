@@ -246,3 +246,17 @@ def test_methods_paragraph_states_the_forward_model_error(res):
     for name, value in res.settings["model_error"].items():
         label = {"vp": "Vp", "vs": "Vs", "vp_vs": "Vp/Vs", "density": "density"}[name]
         assert f"{label} {100 * value:.1f} %" in text, name
+
+
+def test_reference_list_is_alphabetical_and_cites_the_sampler_only_when_used():
+    from bayescrust.report.citations import references
+
+    class _Run:
+        def __init__(self, method):
+            self.settings = {"method": method, "rocks": ["gabbro"]}
+
+    exact, mcmc = references(_Run("exact")), references(_Run("mcmc"))
+    assert exact == sorted(exact, key=lambda r: (r.casefold(), r))
+    assert not any(r.startswith(("Foreman-Mackey", "ter Braak", "Vehtari")) for r in exact)
+    assert any(r.startswith("Foreman-Mackey") for r in mcmc)
+    assert any(r.startswith("Kass") for r in exact)  # the Bayes-factor scale: every run
