@@ -209,7 +209,7 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
     from ..plan import plan_profile
     from ..report.caution import caution_text, misfit_banner
     from ..report.plan import (
-        PLAN_ERROR_PAIRS,
+        PROFILE_PLAN_ERROR_PAIRS,
         data_fit_of,
         misfit_title,
         plan_figure,
@@ -247,7 +247,7 @@ def do_plan_profile(args, pstudy, dest: Path, *, figures: bool, options=None):
     readable = profile_plan_table(pp, readable=True)
     write_table(dest, "plan", readable,
                 caption=f"Value of candidate observations for every question of {prof.name}.",
-                printable=printable_with_errors(readable, PLAN_ERROR_PAIRS))
+                printable=printable_with_errors(readable, PROFILE_PLAN_ERROR_PAIRS))
     write_text(dest / "plan.csv", to_csv(profile_plan_table(pp)))  # every column
     fit = data_fit_of(pp)
     write_text(dest / "ranking.csv", to_csv(plan_table(pp.plans[rq]).assign(data_fit=fit)))

@@ -36,9 +36,11 @@ PLAN_TABLE_COLUMNS = {
 #: significant figures of the error (``report.tables.printable_with_errors``).
 PLAN_ERROR_PAIRS = {"P(decisive)": "P(decisive) MCSE", "E[P(true)]": "E[P(true)] MCSE",
                     "E[entropy] (bits)": "E[entropy] MCSE",
-                    "T interval narrowing (°C)": "narrowing MCSE (°C)",
-                    "information gain (bits)": "gain MCSE",
-                    "interval narrowing": "narrowing MCSE"}
+                    "T interval narrowing (°C)": "narrowing MCSE (°C)"}
+#: The same for the profile plan table, whose errors cover the simulated data only.
+PROFILE_PLAN_ERROR_PAIRS = {"P(decisive)": "P(decisive) sim. error",
+                            "information gain (bits)": "gain sim. error",
+                            "interval narrowing": "narrowing sim. error"}
 
 
 def data_fit_of(plan) -> str:
@@ -139,15 +141,15 @@ def plan_figure(plan, *, fig=None, title=None):
 
 
 #: Columns of the published profile plan table, with readable names.
-PROFILE_PLAN_COLUMNS = {
+PROFILE_PLAN_COLUMNS = {  # the errors: simulated data only (plan.today.PROFILE_ERROR_CAVEAT)
     "question": "question",
     "p_decisive": "P(decisive)",
-    "p_decisive_mcse": "P(decisive) MCSE",
+    "p_decisive_mcse": "P(decisive) sim. error",
     "expected_p_true": "E[P(true)]",
     "information_gain_bits": "information gain (bits)",
-    "information_gain_bits_mcse": "gain MCSE",
+    "information_gain_bits_mcse": "gain sim. error",
     "interval_narrowing": "interval narrowing",
-    "interval_narrowing_mcse": "narrowing MCSE",
+    "interval_narrowing_mcse": "narrowing sim. error",
     "interval_unit": "unit",
     "relative_narrowing": "narrowing / today",
     "degenerate": "degenerate updates",

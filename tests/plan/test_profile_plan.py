@@ -316,3 +316,29 @@ def test_law_of_total_probability_many_seeds():
     zs = np.asarray(zs)
     assert zs.size > 50
     assert np.mean(zs > 3) < 0.02 and zs.max() < 5, np.sort(zs)[-5:]
+
+
+@pytest.mark.slow
+@pytest.mark.xfail(strict=True, reason="a profile plan's Monte Carlo errors cover the simulated "
+                   "data only: over 12 seeds (1024 x 64 design points, 200 data) the L1 values "
+                   "of Vs +-0.1 in L1 scattered ~2x (E[P(true)]), ~6x (E[entropy]) and ~70x "
+                   "(interval narrowing) their reported errors; docs/plan.md, README caution")
+def test_profile_plan_errors_cover_the_spread_over_seeds():
+    # a reported Monte Carlo error must match the spread of the value over seeds (each seed: a
+    # new design, new joint states, new simulated data); the sample sd of 12 draws lies below
+    # sqrt(chi2.ppf(0.975, 11) / 11) = 1.47 of the true sd with 97.5 % probability (scipy)
+    prof = _two_layer()
+    cand = [Candidate("vs", 0.1, layer="L1")]
+    rows = []
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        for seed in range(12):
+            pp = plan_profile(prof, seed=seed, n_simulations=200, n_layer=1024, n_thermal=64,
+                              candidates=cand)
+            t = pp.table
+            rows.append(t[t["question"] == "L1"].iloc[0])
+    hi = math.sqrt(stats.chi2.ppf(0.975, 11) / 11)
+    for k in ("expected_p_true", "expected_entropy_bits", "interval_narrowing"):
+        v = np.array([r[k] for r in rows], float)
+        e = np.array([r[f"{k}_mcse"] for r in rows], float)
+        assert np.std(v, ddof=1) / math.sqrt(np.mean(e**2)) < hi, k
