@@ -61,17 +61,20 @@ def _tail(y, mean, var_m, e_s2, nu=None):
     d = y - mean
     if not ens:
         d = -np.abs(d)  # the lower tail of -|d|: no cancellation in 1 - F for far tails
-    if nu is None:
-        f = special.ndtr(d / np.sqrt(var_m + e_s2))
-    else:
+    def cdf(d):
+        if nu is None:
+            return special.ndtr(d / np.sqrt(var_m + e_s2))
         x, h = special.roots_hermite(N_HERMITE)
         a, s = np.sqrt(2.0 * var_m), np.sqrt(e_s2)
-        f = sum(_DT(hk / np.sqrt(np.pi)) * special.stdtr(nu, ((d - a * xk) / s).astype(_DT))
-                for xk, hk in zip(x, h, strict=True))
+        return sum(_DT(hk / np.sqrt(np.pi)) * special.stdtr(nu, ((d - a * xk) / s).astype(_DT))
+                   for xk, hk in zip(x, h, strict=True))
+
     if not ens:
-        return 2.0 * f
-    f = f.mean(axis=1)
-    return np.minimum(1.0, 2.0 * np.minimum(f, 1.0 - f))
+        return 2.0 * cdf(d)
+    # members: each tail from its own CDF (the upper one by symmetry, cdf(-d)), as 1 - F
+    # rounds a far upper tail to 0
+    lo, hi = cdf(d).mean(axis=1), cdf(-d).mean(axis=1)
+    return np.minimum(1.0, 2.0 * np.minimum(lo, hi))
 
 
 def node_fit(model, stats, values, sigmas):
