@@ -12,17 +12,6 @@ from .shell import InputError
 __all__ = ["add_parser", "cmd_check"]
 
 
-def _has_table(path, name) -> bool:
-    """Whether ``path`` is a readable TOML file with a top-level ``name`` table."""
-    import tomllib
-    from pathlib import Path
-
-    try:
-        return name in tomllib.loads(Path(path).read_text(encoding="utf-8"))
-    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError):
-        return False  # the layer-study reader reports the problem
-
-
 def _check_profile(path, quiet=False) -> int:
     from ..config.profile import profile_study_to_dict
     from .profile import load_profile_study
@@ -66,11 +55,11 @@ def _check_grid(path, quiet=False) -> int:
 
 def cmd_check(args) -> int:
     from ..config import build_thermal_prior
-    from .profile import is_profile_study
+    from .profile import has_table, is_profile_study
 
     if is_profile_study(args.study):
         return _check_profile(args.study, quiet=args.quiet)
-    if _has_table(args.study, "grid"):
+    if has_table(args.study, "grid"):
         return _check_grid(args.study, quiet=args.quiet)
     study = load_study(args.study)
     for layer in study.layers:

@@ -267,12 +267,10 @@ def demo_profile(args, study_path, dest, source=None) -> float:
     """The demo's profile part (exact path, reduced designs); returns its run time (s).
     ``source``: the study file's path once the demo folder is published (outputs name it, not
     the temporary folder's)."""
-    from ..config.profile import parse_profile_study
-    from .profile import do_profile
+    from .profile import do_profile, load_profile_study
 
     t0 = time.perf_counter()
-    study = parse_profile_study(Path(study_path).read_text(encoding="utf-8"),
-                                source=str(source or study_path))
+    study = load_profile_study(study_path, source=source)
     dest.mkdir()
     do_profile(args, study, dest, method="exact", figures=True,
                exact_options={"n_layer": 2**12, "n_thermal": 64, "n_replicates": 3})

@@ -81,10 +81,13 @@ def cmd_forward(args) -> int:
     law = args.attenuation_law
     try:
         # melt only above the solidus, serpentine only below its stability (as the inversion)
+        from ..inference.layer import PRESSURE_RANGE_GPA
+
         kw, notes = bc.physics.rocks.apply_stability(rock, **kw)
-        if np.max(kw["pressure_gpa"]) > 5.0:  # a layer's limit (inference.layer.Layer)
-            notes = [*notes, "pressure above 5 GPa, the deepest a layer may be: the mineral "
-                     "data are extrapolated there and no mantle phase change is modelled"]
+        p_max = PRESSURE_RANGE_GPA[1]  # a layer's limit
+        if np.max(kw["pressure_gpa"]) > p_max:
+            notes = [*notes, f"pressure above {p_max:g} GPa, the deepest a layer may be: the "
+                     "mineral data are extrapolated there and no mantle phase change is modelled"]
         for note in notes:
             print(f"warning: {note}", file=sys.stderr)
         props = bc.rock_properties(rock, **kw, attenuation_law=law)

@@ -22,17 +22,24 @@ __all__ = ["add_parser", "cmd_profile", "do_profile", "profile_figure_curves",
            "is_profile_study", "load_profile_study", "profile_assumptions"]
 
 
-def is_profile_study(path) -> bool:
-    """Whether ``path`` is a readable TOML file with a ``[profile]`` table."""
+def has_table(path, name: str) -> bool:
+    """Whether ``path`` is a readable TOML file with a top-level ``name`` table."""
     import tomllib
 
     try:
-        return "profile" in tomllib.loads(Path(path).read_text(encoding="utf-8"))
+        return name in tomllib.loads(Path(path).read_text(encoding="utf-8"))
     except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError):
         return False  # the layer-study reader reports the problem
 
 
-def load_profile_study(path):
+def is_profile_study(path) -> bool:
+    """Whether ``path`` is a readable TOML file with a ``[profile]`` table."""
+    return has_table(path, "profile")
+
+
+def load_profile_study(path, source=None):
+    """Read and validate a profile study; ``source`` names it in messages and outputs
+    (default: ``path``)."""
     from ..config.profile import parse_profile_study
 
     p = Path(path)
@@ -40,7 +47,7 @@ def load_profile_study(path):
         text = p.read_text(encoding="utf-8")
     except OSError as exc:
         raise InputError(f"{p}: cannot read the study file: {exc.strerror}") from exc
-    return parse_profile_study(text, source=str(p))
+    return parse_profile_study(text, source=str(source or p))
 
 
 def profile_assumptions(profile) -> dict:

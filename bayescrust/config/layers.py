@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from ..inference.layer import DEPTH_RANGE_KM
+from ..inference.layer import DEPTH_RANGE_KM, PRESSURE_RANGE_GPA
 from .hypotheses import read_hypotheses
 from .limits import OBSERVABLES
 from .priors import read_priors
@@ -85,7 +85,8 @@ def read_layer(r: Reader, key, value, study_rocks, thermal_names) -> LayerSpec:
                                 "negative bulk modulus, K = rho (Vp^2 - 4/3 Vs^2)")
     pressure = None
     if "pressure_gpa" in t:
-        pressure = r.number(f"{key}.pressure_gpa", t["pressure_gpa"], 0.0, 5.0, unit="GPa")
+        pressure = r.number(f"{key}.pressure_gpa", t["pressure_gpa"], *PRESSURE_RANGE_GPA,
+                            unit="GPa")
     rocks = r.rock_list(f"{key}.rocks", t["rocks"]) if "rocks" in t else None
     use_rocks = rocks or study_rocks
     priors = read_priors(r, f"{key}.priors", t["priors"], use_rocks) if "priors" in t else {}

@@ -5,12 +5,14 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-__all__ = ["Layer", "OBSERVABLES", "DEPTH_RANGE_KM", "WATER_DEPTH_RANGE_KM"]
+__all__ = ["Layer", "OBSERVABLES", "DEPTH_RANGE_KM", "WATER_DEPTH_RANGE_KM", "PRESSURE_RANGE_GPA"]
 
 #: Allowed depth below the seafloor of a layer's top and bottom, km (input sanity limits).
 DEPTH_RANGE_KM = (0.0, 100.0)
 #: Allowed water depth, km (the deepest ocean trench is ~11 km).
 WATER_DEPTH_RANGE_KM = (0.0, 11.0)
+#: Allowed ``pressure_gpa`` of a layer, GPa (the deepest layer a study may hold).
+PRESSURE_RANGE_GPA = (0.0, 5.0)
 
 #: Observable quantities: name -> (allowed value range, unit).
 OBSERVABLES = {
@@ -111,10 +113,10 @@ class Layer:
             )
         if self.pressure_gpa is not None:
             p = float(self.pressure_gpa)
-            if not math.isfinite(p) or not 0.0 <= p <= 5.0:
-                raise ValueError(
-                    f"pressure_gpa must be in [0, 5] GPa; got {self.pressure_gpa!r} (layer {n!r})"
-                )
+            lo, hi = PRESSURE_RANGE_GPA
+            if not math.isfinite(p) or not lo <= p <= hi:
+                raise ValueError(f"pressure_gpa must be in [{lo:g}, {hi:g}] GPa; got "
+                                 f"{self.pressure_gpa!r} (layer {n!r})")
             object.__setattr__(self, "pressure_gpa", p)
 
     @property
